@@ -1,0 +1,144 @@
+"""The ``wetcycle`` command.
+
+Every user mistake (unknown name, value out of range, bad file) is a
+:class:`~wetcycle.errors.WetcycleError`; it is printed as one line on stderr
+and the command exits with status 2.  A traceback means a bug.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+
+from . import __version__
+from .errors import WetcycleError
+
+CAUTION = ("Model estimates with stated uncertainties, not evidence of liquid water or life; "
+           "planetary-protection decisions belong to the official policy and its review bodies.")
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports usage errors as one line and exit status 2."""
+
+    def error(self, message):
+        self.exit(2, f"{self.prog}: error: {message}\n")
+
+
+def _fmt(x, spec, missing="—"):
+    if x is None or (isinstance(x, float) and math.isnan(x)):
+        return missing
+    return format(x, spec)
+
+
+def _safe(fn, *args):
+    try:
+        return fn(*args)
+    except WetcycleError:
+        return None
+
+
+def cmd_salts(args):
+    from . import salts
+
+    rows = []
+    for name in salts.names():
+        s = salts.load(name)
+        eut = s.eutectic()
+        rows.append((
+            s.name,
+            _fmt(eut and eut["temperature_K"], ".1f"),
+            _fmt(eut and eut["molality"], ".2f"),
+            _fmt(_safe(s.deliquescence_rh, 298.15), ".3f"),
+            _fmt(_safe(s.deliquescence_rh, 273.15), ".3f"),
+            _safe(s.stable_solid, 273.15) or "—",
+        ))
+    if args.json:
+        keys = ("system", "eutectic_temperature_K", "eutectic_molality", "drh_298K", "drh_273K", "stable_solid_273K")
+        print(json.dumps([dict(zip(keys, r)) for r in rows], ensure_ascii=False, indent=1))
+        return 0
+    head = ("system", "eutectic T [K]", "eutectic m [mol/kg]", "DRH 298.15 K", "DRH 273.15 K", "stable solid 273.15 K")
+    _print_table(head, rows)
+    print("DRH: deliquescence relative humidity (fraction, liquid-water reference) of the stable solid.")
+    return 0
+
+
+def _print_table(head, rows):
+    widths = [max([len(str(h))] + [len(str(r[i])) for r in rows]) for i, h in enumerate(head)]
+    print("  ".join(str(h).ljust(w) for h, w in zip(head, widths)))
+    print("  ".join("-" * w for w in widths))
+    for r in rows:
+        print("  ".join(str(c).ljust(w) for c, w in zip(r, widths)))
+
+
+def cmd_salt(args):
+    from . import salts
+
+    s = salts.load(args.name)
+    info = s.describe(args.at or [])
+    if args.json:
+        print(json.dumps(info, ensure_ascii=False, indent=1))
+        return 0
+    print(f"{s.name}  ({s.cation} / {s.anion}); valid {s.T_min:g}-{s.T_max:g} K, up to {s.m_max:g} mol/kg")
+    print(f"solids: {', '.join(info['solids'])}")
+    e = info["eutectic"]
+    if e:
+        print(f"eutectic: {e['temperature_K']:.2f} K, {e['molality']:.3f} mol/kg, {' + '.join(e['solids'])}")
+    for p in info["peritectics"]:
+        print(f"peritectic: {p['temperature_K']:.2f} K, {p['molality']:.3f} mol/kg, {' / '.join(p['solids'])}")
+    for me in info["metastable_eutectics"]:
+        print(f"metastable eutectic: {me['temperature_K']:.2f} K, {me['molality']:.3f} mol/kg, {' + '.join(me['solids'])}")
+    print(f"efflorescence RH: {_fmt(info['efflorescence_rh'], '.2f')};  "
+          f"supercooling limit: {_fmt(info['supercooling_limit_K'], '.1f')} K")
+    if info["at"]:
+        head = ("T [K]", "stable solid", "m_sat [mol/kg]", "DRH", "a_w,ice", "m_ice [mol/kg]", "hydration RH")
+        rows = []
+        for a in info["at"]:
+            hyd = "; ".join(f"{h['lower']}→{h['higher']} {_fmt(h['rh'], '.3f')}" for h in a["hydrate_transitions"]) or "—"
+            rows.append((f"{a['temperature_K']:.2f}" + (" *" if a["below_eutectic"] else ""), a["stable_solid"] or "—",
+                         _fmt(a["saturation_molality"], ".3f"), _fmt(a["deliquescence_rh"], ".3f"),
+                         _fmt(a["ice_water_activity"], ".4f"), _fmt(a["ice_liquidus_molality"], ".3f"), hyd))
+        print()
+        _print_table(head, rows)
+        if any(a["below_eutectic"] for a in info["at"]):
+            print("* below the eutectic: brine values are metastable (supercooled).")
+    return 0
+
+
+def build_parser():
+    p = _Parser(prog="wetcycle", description="Salts and brines at the surface of present-day Mars "
+                "and cold, dry analog sites.", epilog=CAUTION)
+    p.add_argument("--version", action="version", version=f"wetcycle {__version__}")
+    sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
+
+    ps = sub.add_parser("salts", help="table of every salt-water system",
+                        description="Table of every salt-water system: eutectic, DRH at 298.15 K and 273.15 K, "
+                        "stable solid at 273.15 K.")
+    ps.add_argument("--json", action="store_true", help="print JSON instead of a table")
+    ps.set_defaults(func=cmd_salts)
+
+    p1 = sub.add_parser("salt", help="describe one salt-water system",
+                        description="Solids, eutectic, peritectics and, at each --at temperature, the stable "
+                        "solid, saturation molality, DRH, ice water activity, ice liquidus and hydration RH.")
+    p1.add_argument("name", help="system name, e.g. NaCl, CaCl2, 'Mg(ClO4)2' (case ignored)")
+    p1.add_argument("--at", type=float, nargs="+", metavar="T_K", help="temperatures [K] to evaluate at")
+    p1.add_argument("--json", action="store_true", help="print one JSON object")
+    p1.set_defaults(func=cmd_salt)
+    return p
+
+
+def main(argv=None):
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.func(args)
+    except WetcycleError as exc:
+        print(f"wetcycle: error: {exc}", file=sys.stderr)
+        return 2
+    except BrokenPipeError:
+        return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

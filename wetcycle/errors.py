@@ -1,0 +1,28 @@
+"""One exception family for wetcycle.
+
+Every error caused by what a user supplied (a scenario, a forcing file, a
+command-line argument, a temperature outside a model's validity) is a
+:class:`WetcycleError`.  Messages name the field, the value received and what
+is allowed.  The command line turns these into one line on stderr and exit
+status 2; anything else that escapes is a bug.
+"""
+
+
+class WetcycleError(ValueError):
+    """Base class of every user-facing wetcycle error."""
+
+
+class ConfigError(WetcycleError):
+    """A scenario or option has a missing, unknown or out-of-range field."""
+
+
+class InputDataError(WetcycleError):
+    """A forcing or property file is malformed or has values out of range."""
+
+
+class ValidityError(WetcycleError):
+    """A physical function was asked for a state outside its validity range."""
+
+
+class UnknownNameError(WetcycleError):
+    """A name (salt system, forcing kind, time law) is not in its registry."""

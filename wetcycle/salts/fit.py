@@ -1,0 +1,258 @@
+"""Fitting a salt system's temperature dependence to published data points.
+
+Common practice in electrolyte thermodynamics (e.g. Pitzer 1991, ch. 3;
+Spencer, Møller & Weare 1990, Geochim. Cosmochim. Acta 54, 575): the 25 °C
+Pitzer parameters come from the literature, and the temperature coefficients
+of beta0, beta1, beta2, C_phi and ln K(T) of each solid are fitted jointly to
+
+* freezing points: at the ice liquidus a_w(m, T_f) = a_w,ice(T_f);
+* solubilities: ln IAP(m_sat, T) = ln K(T) for the solid named;
+* eutectic and peritectic points: both of the above for the two solids;
+* deliquescence humidities: a_w(m_sat(T), T) = RH_d;
+* osmotic coefficients and water activities.
+
+Each point is weighted by its table's stated uncertainty ``sigma`` (K for
+freezing points, relative for solubilities, absolute for RH / phi / a_w), so
+residuals are dimensionless.  Weak Gaussian priors on the free temperature
+coefficients (scales in :data:`PRIOR_SCALE`) keep the nearly collinear
+1/T and ln T terms well posed where data are sparse.  The solver is
+``scipy.optimize.least_squares`` (trust-region reflective).
+
+:func:`fit_file` fits a data file; :func:`write_fitted` rewrites the part
+of the file below :data:`~wetcycle.salts.datafile.FIT_MARKER`;
+:func:`table_residuals` recomputes residuals for the tests.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+from scipy.optimize import least_squares
+
+from .. import __version__
+from ..water import ice_activity_kernel
+from . import datafile
+from . import pitzer as pz
+
+#: Prior scales of the temperature coefficients c1, c2, c3 (Pitzer beta's,
+#: C_phi) and of ln K's c2, c3: about ten times the magnitudes seen in
+#: published temperature functions (common practice: weak regularisation).
+PRIOR_SCALE = {
+    "beta": (3000.0, 20.0, 0.05),
+    "cphi": (300.0, 2.0, 0.005),
+    "lnK": (None, 300.0, 1.0),
+}
+#: Residual assigned to a deliquescence or solubility point whose model
+#: saturation cannot be found below m_max (in units of sigma).
+MISSING_PENALTY = 30.0
+
+UNITS = {"freezing": "K", "solubility": "relative", "eutectic": "K|relative",
+         "peritectic": "relative", "deliquescence": "RH", "osmotic": "phi", "water_activity": "aw"}
+
+
+class Model:
+    """Maps a free-parameter vector onto packed Pitzer parameters and ln K coefficients."""
+
+    def __init__(self, info):
+        s = info["system"]
+        self.info = info
+        self.base_coef = np.array(info["coef"], dtype=float)
+        self.mask = np.array(info["fitmask"], dtype=bool)
+        self.solids = info["solids"]
+        self.solid_index = {d["name"]: k for k, d in enumerate(self.solids)}
+        self.lnk0 = np.array([d["lnK"] for d in self.solids], dtype=float)
+        self.lnk_mask = np.array([d["fit"] for d in self.solids], dtype=bool)
+        self.hyd = np.array([d["hydration"] for d in self.solids], dtype=float)
+        self.consts = (int(s["nu_cation"]), int(s["nu_anion"]), int(s["z_cation"]), int(s["z_anion"]),
+                       info["alpha1"], info["alpha2"])
+        self.m_hi = float(s["m_max"])
+        self.n_free = int(self.mask.sum() + self.lnk_mask.sum())
+
+    def x0(self):
+        return np.concatenate([self.base_coef[self.mask], self.lnk0[self.lnk_mask]])
+
+    def unpack(self, x):
+        coef = self.base_coef.copy()
+        k = int(self.mask.sum())
+        coef[self.mask] = x[:k]
+        lnk = self.lnk0.copy()
+        lnk[self.lnk_mask] = x[k:]
+        return coef, lnk
+
+    def priors(self, x):
+        coef, lnk = self.unpack(x)
+        out = []
+        for r in range(4):
+            sc = PRIOR_SCALE["cphi" if r == 3 else "beta"]
+            for c in range(4):
+                if self.mask[r, c]:
+                    if c == 0:
+                        ref = self.base_coef[r, 0]
+                        out.append((coef[r, 0] - ref) / (0.2 * abs(ref) + 0.02))
+                    else:
+                        out.append(coef[r, c] / sc[c - 1])
+        for j in range(lnk.shape[0]):
+            for c in (2, 3):
+                if self.lnk_mask[j, c]:
+                    out.append(lnk[j, c] / PRIOR_SCALE["lnK"][c - 1])
+        return np.array(out)
+
+
+def _lnk_at(c, T):
+    return c[0] + c[1] * (1.0 / T - 1.0 / pz.T_REF) + c[2] * math.log(T / pz.T_REF) + c[3] * (T - pz.T_REF)
+
+
+def _freeze_resid(p, m, T):
+    """Freezing-point residual expressed in kelvin (ln a_w mismatch / d ln a_w,ice/dT)."""
+    a_ice = ice_activity_kernel(T)
+    if not (a_ice == a_ice) or T >= 273.16:
+        return math.nan
+    slope = (math.log(ice_activity_kernel(min(T + 0.01, 273.16))) - math.log(ice_activity_kernel(T - 0.01))) / (
+        min(T + 0.01, 273.16) - (T - 0.01))
+    return (pz.ln_aw_kernel(m, T, p) - math.log(a_ice)) / slope
+
+
+def _sol_resid(p, lnk, n, m, T):
+    """Solubility residual as a relative molality error (ln IAP mismatch / d ln IAP / d ln m)."""
+    f = pz.ln_iap_kernel(m, T, p, n) - _lnk_at(lnk, T)
+    h = 1e-4
+    d = (pz.ln_iap_kernel(m * (1 + h), T, p, n) - pz.ln_iap_kernel(m * (1 - h), T, p, n)) / (2 * h)
+    if abs(d) < 1e-3:
+        d = math.copysign(1e-3, d if d != 0 else 1.0)
+    return f / d
+
+
+def table_residuals(table, p, lnk_all, solid_index, hyd, m_hi):
+    """Residuals of one data table in its natural units (K, relative, RH, phi, aw).
+
+    Returns a float array, one entry per row (two per row for eutectic and
+    peritectic points: one per solid).  NaN where the model has no value.
+    """
+    res = []
+    kind = table.kind
+    for i in range(table.temperature.size):
+        T = float(table.temperature[i])
+        m = float(table.molality[i])
+        v = float(table.value[i])
+        if kind == "freezing":
+            res.append(_freeze_resid(p, m, T))
+        elif kind == "solubility":
+            j = solid_index[table.solid]
+            res.append(_sol_resid(p, lnk_all[j], hyd[j], m, T))
+        elif kind in ("eutectic", "peritectic"):
+            for s in table.solids:
+                if s == "ice":
+                    res.append(_freeze_resid(p, m, T))
+                else:
+                    j = solid_index[s]
+                    res.append(_sol_resid(p, lnk_all[j], hyd[j], m, T))
+        elif kind == "deliquescence":
+            j = solid_index[table.solid]
+            ms = pz.saturation_molality_kernel(_lnk_at(lnk_all[j], T), T, p, hyd[j], m_hi)
+            res.append(math.exp(pz.ln_aw_kernel(ms, T, p)) - v if ms == ms else math.nan)
+        elif kind == "osmotic":
+            res.append(pz.osmotic_kernel(m, T, p) - v)
+        elif kind == "water_activity":
+            res.append(math.exp(pz.ln_aw_kernel(m, T, p)) - v)
+    return np.array(res, dtype=float)
+
+
+def _sigma_units(table):
+    """sigma for each residual of a table (eutectic: K for ice, relative for the salt)."""
+    if table.kind == "eutectic":
+        # sigma given in K applies to the ice side; composition side uses 2 % relative
+        per = [table.sigma if s == "ice" else 0.02 for s in table.solids]
+        return np.tile(per, table.temperature.size)
+    n = table.temperature.size * (2 if table.kind == "peritectic" else 1)
+    return np.full(n, table.sigma)
+
+
+def fit_info(info, use=("fit",), verbose=0):
+    """Fit the free coefficients of a parsed data file; returns (coef, lnk, result, model)."""
+    model = Model(info)
+    tables = [t for t in info["tables"] if t.use in use]
+    sigmas = [_sigma_units(t) for t in tables]
+
+    def fun(x):
+        coef, lnk = model.unpack(x)
+        p = pz.pack(*model.consts, coef)
+        parts = []
+        for t, sg in zip(tables, sigmas):
+            r = table_residuals(t, p, lnk, model.solid_index, model.hyd, model.m_hi) / sg
+            parts.append(np.where(np.isnan(r), MISSING_PENALTY, r))
+        parts.append(model.priors(x))
+        return np.concatenate(parts) if parts else np.zeros(1)
+
+    x0 = model.x0()
+    if model.n_free == 0:
+        coef, lnk = model.unpack(x0)
+        return coef, lnk, None, model
+    result = least_squares(fun, x0, method="trf", x_scale="jac", max_nfev=4000, verbose=verbose)
+    coef, lnk = model.unpack(result.x)
+    return coef, lnk, result, model
+
+
+def residual_report(info, coef, lnk):
+    """Per-table residual statistics (all tables, fit and held-out test)."""
+    model = Model(info)
+    p = pz.pack(*model.consts, coef)
+    rows = []
+    for t in info["tables"]:
+        r = table_residuals(t, p, lnk, model.solid_index, model.hyd, model.m_hi)
+        ok = r[~np.isnan(r)]
+        rows.append(dict(
+            table=t.index + 1, kind=t.kind, use=t.use, source=t.source, units=UNITS[t.kind],
+            sigma=t.sigma, n=int(r.size), n_missing=int(np.isnan(r).sum()),
+            rms=float(np.sqrt(np.mean(ok**2))) if ok.size else float("nan"),
+            max_abs=float(np.max(np.abs(ok))) if ok.size else float("nan"),
+        ))
+    return rows
+
+
+def _fmt(x):
+    return repr(float(x))
+
+
+def fitted_section(info, coef, lnk, result):
+    """TOML text of the regenerated section (below the marker)."""
+    lines = [datafile.FIT_MARKER, "[fitted]", 'by = "scripts/fit_salts.py"',
+             f'wetcycle_version = "{__version__}"',
+             'method = "scipy.optimize.least_squares (trf), residuals weighted by each table\'s sigma, weak priors"']
+    if result is not None:
+        lines.append(f"cost = {_fmt(result.cost)}")
+        lines.append(f"n_residuals = {int(result.fun.size)}")
+    lines.append("")
+    lines.append("[fitted.pitzer]  # c0..c3 of p(T) = c0 + c1 (1/T - 1/Tr) + c2 ln(T/Tr) + c3 (T - Tr), Tr = 298.15 K")
+    for k, name in enumerate(pz.PARAM_NAMES):
+        if name == "beta2" and not np.any(coef[k]) and not info["fitmask"][k].any():
+            continue
+        lines.append(f"{name} = [{', '.join(_fmt(v) for v in coef[k])}]")
+    lines.append("")
+    lines.append("[fitted.lnK]  # same temperature form")
+    for d, row in zip(info["solids"], lnk):
+        lines.append(f'"{d["name"]}" = [{", ".join(_fmt(v) for v in row)}]')
+    for r in residual_report(info, coef, lnk):
+        lines.append("")
+        lines.append("[[fitted.residual]]")
+        src = r["source"].replace("\\", "\\\\").replace('"', '\\"')
+        lines.append(f'table = {r["table"]}\nkind = "{r["kind"]}"\nuse = "{r["use"]}"\nsource = "{src}"')
+        lines.append(f'units = "{r["units"]}"\nsigma = {_fmt(r["sigma"])}\nn = {r["n"]}\nn_missing = {r["n_missing"]}')
+        lines.append(f'rms = {_fmt(r["rms"])}\nmax_abs = {_fmt(r["max_abs"])}'.replace("nan", "nan"))
+    return "\n".join(lines) + "\n"
+
+
+def write_fitted(path, text):
+    """Replace everything below the marker line of ``path`` with ``text``."""
+    path = Path(path)
+    src = path.read_text(encoding="utf-8")
+    head = src.split(datafile.FIT_MARKER)[0].rstrip("\n") + "\n\n"
+    path.write_text(head + text, encoding="utf-8")
+
+
+def fit_file(path, from_scratch=False, verbose=0):
+    """Fit one data file; returns (text of the fitted section, residual report, result)."""
+    info = datafile.read(path, use_fitted=not from_scratch)
+    coef, lnk, result, _ = fit_info(info, verbose=verbose)
+    return fitted_section(info, coef, lnk, result), residual_report(info, coef, lnk), result
