@@ -106,6 +106,21 @@ def cmd_salt(args):
     return 0
 
 
+def cmd_demo(args):
+    """The built-in demo: the salt table, then one system followed through the cold."""
+    from . import salts
+
+    print("wetcycle demo: salt-water systems available to the phase model\n")
+    cmd_salts(argparse.Namespace(json=False))
+    name = "NaCl" if "NaCl" in salts.names() else salts.names()[0]
+    s = salts.load(name)
+    temps = [t for t in (298.15, 273.15, 263.15, 253.15, 243.15, 233.15) if s.T_min <= t <= s.T_max]
+    print(f"\n{name} followed from room temperature into the cold:\n")
+    cmd_salt(argparse.Namespace(name=name, at=temps, json=False))
+    print(f"\n{CAUTION}")
+    return 0
+
+
 def build_parser():
     p = _Parser(prog="wetcycle", description="Salts and brines at the surface of present-day Mars "
                 "and cold, dry analog sites.", epilog=CAUTION)
@@ -125,6 +140,10 @@ def build_parser():
     p1.add_argument("--at", type=float, nargs="+", metavar="T_K", help="temperatures [K] to evaluate at")
     p1.add_argument("--json", action="store_true", help="print one JSON object")
     p1.set_defaults(func=cmd_salt)
+
+    pd = sub.add_parser("demo", help="run the built-in demonstration",
+                        description="Run the built-in demonstration and print its results.")
+    pd.set_defaults(func=cmd_demo)
     return p
 
 

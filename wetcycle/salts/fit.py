@@ -44,6 +44,13 @@ PRIOR_SCALE = {
     "cphi": (300.0, 2.0, 0.005),
     "lnK": (None, 300.0, 1.0),
 }
+#: Physical constraint (Gibbs-Duhem stability of a single liquid phase; common
+#: practice): ln a_w must decrease with molality everywhere in the validity
+#: domain.  Checked on a grid of MONO_GRID = (n_T, n_m) points; a violation
+#: d ln a_w / dm > -MONO_MARGIN adds a residual (violation / MONO_MARGIN).
+MONO_GRID = (12, 40)
+MONO_MARGIN = 1e-3
+
 #: Residual assigned to a deliquescence or solubility point whose model
 #: saturation cannot be found below m_max (in units of sigma).
 MISSING_PENALTY = 30.0
@@ -159,6 +166,18 @@ def table_residuals(table, p, lnk_all, solid_index, hyd, m_hi):
     return np.array(res, dtype=float)
 
 
+def _monotonic_penalty(p, Ts, ms):
+    out = np.zeros(Ts.size * ms.size)
+    h = 1e-3
+    k = 0
+    for T in Ts:
+        for m in ms:
+            d = (pz.ln_aw_kernel(m + h, T, p) - pz.ln_aw_kernel(m - h, T, p)) / (2 * h)
+            out[k] = max(0.0, d + MONO_MARGIN) / MONO_MARGIN
+            k += 1
+    return out
+
+
 def _sigma_units(table):
     """sigma for each residual of a table (eutectic: K for ice, relative for the salt)."""
     if table.kind == "eutectic":
@@ -183,8 +202,12 @@ def fit_info(info, use=("fit",), verbose=0):
             r = table_residuals(t, p, lnk, model.solid_index, model.hyd, model.m_hi) / sg
             parts.append(np.where(np.isnan(r), MISSING_PENALTY, r))
         parts.append(model.priors(x))
+        parts.append(_monotonic_penalty(p, mono_T, mono_m))
         return np.concatenate(parts) if parts else np.zeros(1)
 
+    s = info["system"]
+    mono_T = np.linspace(float(s["T_min"]), min(float(s["T_max"]), pz.APHI_T_MAX), MONO_GRID[0])
+    mono_m = np.linspace(0.02, float(s["m_max"]), MONO_GRID[1])
     x0 = model.x0()
     if model.n_free == 0:
         coef, lnk = model.unpack(x0)

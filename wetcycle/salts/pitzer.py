@@ -80,11 +80,26 @@ APHI_FIT_RANGE = (260.0, 373.15)
 APHI_T_MIN = 150.0
 APHI_T_MAX = 373.15
 
-# Layout of the packed parameter vector used by every kernel.
-P_NU_M, P_NU_X, P_Z_M, P_Z_X, P_ALPHA1, P_ALPHA2 = 0, 1, 2, 3, 4, 5
-P_COEF = 6  # then 4 parameters x 4 coefficients: beta0, beta1, beta2, cphi
+# Layout of the packed parameter vector used by every kernel: stoichiometric
+# constants precomputed once, then 4 parameters x 4 temperature coefficients.
+P_ZZ = 0        # |z_M z_X|
+P_IFAC = 1      # I / m = (nu_M z_M^2 + nu_X z_X^2) / 2
+P_BFAC = 2      # 2 nu_M nu_X / nu
+P_CFAC = 3      # 2 (nu_M nu_X)^1.5 / nu
+P_ALPHA1 = 4
+P_ALPHA2 = 5
+P_NUMW = 6      # nu M_w
+P_HAS_B2 = 7    # 1.0 if beta2 is used
+P_NU_M = 8
+P_NU_X = 9
+P_NU = 10
+P_LNQ = 11      # ln(nu_M^nu_M nu_X^nu_X)
+P_GFAC = 12     # 3 (nu_M nu_X)^1.5 / nu
+P_COEF = 16     # beta0 c0..c3, beta1 c0..c3, beta2 c0..c3, cphi c0..c3
 N_PACK = P_COEF + 16
 PARAM_NAMES = ("beta0", "beta1", "beta2", "cphi")
+_LN_TREF = math.log(T_REF)
+_INV_TREF = 1.0 / T_REF
 
 
 def pack(nu_m, nu_x, z_m, z_x, alpha1, alpha2, coef):
@@ -103,10 +118,29 @@ def pack(nu_m, nu_x, z_m, z_x, alpha1, alpha2, coef):
     coef = np.asarray(coef, dtype=np.float64)
     if coef.shape != (4, 4):
         raise ValueError(f"coef must have shape (4, 4), got {coef.shape}")
-    out = np.empty(N_PACK, dtype=np.float64)
-    out[:P_COEF] = (nu_m, nu_x, z_m, z_x, alpha1, alpha2)
+    nu = nu_m + nu_x
+    nn = nu_m * nu_x
+    out = np.zeros(N_PACK, dtype=np.float64)
+    out[P_ZZ] = abs(z_m * z_x)
+    out[P_IFAC] = 0.5 * (nu_m * z_m**2 + nu_x * z_x**2)
+    out[P_BFAC] = 2.0 * nn / nu
+    out[P_CFAC] = 2.0 * nn**1.5 / nu
+    out[P_ALPHA1] = alpha1
+    out[P_ALPHA2] = alpha2
+    out[P_NUMW] = nu * MW
+    out[P_HAS_B2] = 1.0 if np.any(coef[2] != 0.0) else 0.0
+    out[P_NU_M], out[P_NU_X], out[P_NU] = nu_m, nu_x, nu
+    out[P_LNQ] = nu_m * math.log(nu_m) + nu_x * math.log(nu_x)
+    out[P_GFAC] = 3.0 * nn**1.5 / nu
     out[P_COEF:] = coef.ravel()
     return out
+
+
+@njit(cache=True, inline="always")
+def _aphi_poly(x):
+    return APHI_COEFFS[0] + x * (
+        APHI_COEFFS[1] + x * (APHI_COEFFS[2] + x * (APHI_COEFFS[3] + x * APHI_COEFFS[4]))
+    )
 
 
 @njit(cache=True)
@@ -114,10 +148,7 @@ def aphi_kernel(T):
     """Debye-Hückel osmotic slope A_phi [kg^1/2 mol^-1/2]; NaN outside 150-373.15 K."""
     if not (T >= APHI_T_MIN and T <= APHI_T_MAX):
         return math.nan
-    x = T - T_REF
-    return APHI_COEFFS[0] + x * (
-        APHI_COEFFS[1] + x * (APHI_COEFFS[2] + x * (APHI_COEFFS[3] + x * APHI_COEFFS[4]))
-    )
+    return _aphi_poly(T - T_REF)
 
 
 @njit(cache=True)
@@ -126,42 +157,59 @@ def temperature_function(c0, c1, c2, c3, T):
     return c0 + c1 * (1.0 / T - 1.0 / T_REF) + c2 * math.log(T / T_REF) + c3 * (T - T_REF)
 
 
+@njit(cache=True, inline="always")
+def _param(p, k, inv, lg, dt):
+    j = P_COEF + 4 * k
+    return p[j] + p[j + 1] * inv + p[j + 2] * lg + p[j + 3] * dt
+
+
 @njit(cache=True)
-def _params(p, T):
-    inv = 1.0 / T - 1.0 / T_REF
-    lg = math.log(T / T_REF)
+def params_kernel(p, T):
+    """(beta0, beta1, beta2, cphi) at temperature T [K]."""
+    inv = 1.0 / T - _INV_TREF
+    lg = math.log(T) - _LN_TREF
     dt = T - T_REF
-    k = P_COEF
-    b0 = p[k] + p[k + 1] * inv + p[k + 2] * lg + p[k + 3] * dt
-    b1 = p[k + 4] + p[k + 5] * inv + p[k + 6] * lg + p[k + 7] * dt
-    b2 = p[k + 8] + p[k + 9] * inv + p[k + 10] * lg + p[k + 11] * dt
-    cp = p[k + 12] + p[k + 13] * inv + p[k + 14] * lg + p[k + 15] * dt
-    return b0, b1, b2, cp
+    return _param(p, 0, inv, lg, dt), _param(p, 1, inv, lg, dt), _param(p, 2, inv, lg, dt), _param(p, 3, inv, lg, dt)
+
+
+@njit(cache=True, inline="always")
+def _ln_aw(m, T, p):
+    if not (T >= APHI_T_MIN and T <= APHI_T_MAX):
+        return math.nan
+    dt = T - T_REF
+    aphi = _aphi_poly(dt)
+    inv = 1.0 / T - _INV_TREF
+    lg = math.log(T) - _LN_TREF
+    sq = math.sqrt(p[P_IFAC] * m)
+    bphi = _param(p, 0, inv, lg, dt) + _param(p, 1, inv, lg, dt) * math.exp(-p[P_ALPHA1] * sq)
+    if p[P_HAS_B2] != 0.0:
+        bphi += _param(p, 2, inv, lg, dt) * math.exp(-p[P_ALPHA2] * sq)
+    phi = 1.0 - p[P_ZZ] * aphi * sq / (1.0 + B_PITZER * sq) + m * (
+        p[P_BFAC] * bphi + m * p[P_CFAC] * _param(p, 3, inv, lg, dt))
+    return -phi * p[P_NUMW] * m
+
+
+@njit(cache=True)
+def ln_aw_kernel(m, T, p):
+    """Natural log of the water activity, ln a_w = -phi nu m M_w [-]; NaN outside A_phi's range."""
+    return _ln_aw(m, T, p)
 
 
 @njit(cache=True)
 def osmotic_kernel(m, T, p):
     """Osmotic coefficient phi [-] of the binary solution at molality m [mol/kg], T [K]."""
-    aphi = aphi_kernel(T)
-    num, nux, zm, zx = p[P_NU_M], p[P_NU_X], p[P_Z_M], p[P_Z_X]
-    nu = num + nux
-    zz = abs(zm * zx)
-    ionic = 0.5 * m * (num * zm * zm + nux * zx * zx)
-    sq = math.sqrt(ionic)
-    b0, b1, b2, cp = _params(p, T)
-    bphi = b0 + b1 * math.exp(-p[P_ALPHA1] * sq)
-    if b2 != 0.0:
-        bphi += b2 * math.exp(-p[P_ALPHA2] * sq)
-    nn = num * nux
-    return (
-        1.0
-        - zz * aphi * sq / (1.0 + B_PITZER * sq)
-        + m * (2.0 * nn / nu) * bphi
-        + m * m * (2.0 * nn * math.sqrt(nn) / nu) * cp
-    )
+    if m == 0.0:
+        return 1.0
+    return -_ln_aw(m, T, p) / (p[P_NUMW] * m)
 
 
 @njit(cache=True)
+def aw_kernel(m, T, p):
+    """Water activity a_w [-] of the binary solution."""
+    return math.exp(_ln_aw(m, T, p))
+
+
+@njit(cache=True, inline="always")
 def _bgamma_term(beta, alpha, ionic, sq):
     x = alpha * sq
     if x < 1e-6:
@@ -174,47 +222,28 @@ def _bgamma_term(beta, alpha, ionic, sq):
 def ln_gamma_kernel(m, T, p):
     """Natural log of the mean molal activity coefficient gamma± [-]."""
     aphi = aphi_kernel(T)
-    num, nux, zm, zx = p[P_NU_M], p[P_NU_X], p[P_Z_M], p[P_Z_X]
-    nu = num + nux
-    zz = abs(zm * zx)
-    ionic = 0.5 * m * (num * zm * zm + nux * zx * zx)
+    ionic = p[P_IFAC] * m
     sq = math.sqrt(ionic)
-    b0, b1, b2, cp = _params(p, T)
+    b0, b1, b2, cp = params_kernel(p, T)
     bsq = B_PITZER * sq
     fg = -aphi * (sq / (1.0 + bsq) + (2.0 / B_PITZER) * math.log(1.0 + bsq))
     bg = 2.0 * b0 + _bgamma_term(b1, p[P_ALPHA1], ionic, sq)
-    if b2 != 0.0:
+    if p[P_HAS_B2] != 0.0:
         bg += _bgamma_term(b2, p[P_ALPHA2], ionic, sq)
-    nn = num * nux
-    return zz * fg + m * (2.0 * nn / nu) * bg + m * m * (3.0 * nn * math.sqrt(nn) / nu) * cp
-
-
-@njit(cache=True)
-def ln_aw_kernel(m, T, p):
-    """Natural log of the water activity, ln a_w = -phi nu m M_w [-]."""
-    return -osmotic_kernel(m, T, p) * (p[P_NU_M] + p[P_NU_X]) * m * MW
-
-
-@njit(cache=True)
-def aw_kernel(m, T, p):
-    """Water activity a_w [-] of the binary solution."""
-    return math.exp(ln_aw_kernel(m, T, p))
+    return p[P_ZZ] * fg + m * p[P_BFAC] * bg + m * m * p[P_GFAC] * cp
 
 
 @njit(cache=True)
 def ln_iap_kernel(m, T, p, n_hydrate):
     """ln of the ion activity product of MX.nH2O: ln(nuM^nuM nuX^nuX) + nu ln(m gamma±) + n ln a_w."""
-    num, nux = p[P_NU_M], p[P_NU_X]
-    nu = num + nux
-    const = num * math.log(num) + nux * math.log(nux)
-    return const + nu * (math.log(m) + ln_gamma_kernel(m, T, p)) + n_hydrate * ln_aw_kernel(m, T, p)
+    return p[P_LNQ] + p[P_NU] * (math.log(m) + ln_gamma_kernel(m, T, p)) + n_hydrate * _ln_aw(m, T, p)
 
 
 @njit(cache=True, fastmath=True)
 def aw_array(m, T, p, out):
-    """Water activity for arrays of molality and temperature (same shape, 1-D)."""
+    """Water activity for 1-D arrays of molality [mol/kg] and temperature [K] (same length)."""
     for i in range(m.shape[0]):
-        out[i] = math.exp(ln_aw_kernel(m[i], T[i], p))
+        out[i] = math.exp(_ln_aw(m[i], T[i], p))
     return out
 
 
