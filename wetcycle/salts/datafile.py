@@ -44,6 +44,7 @@ class DataTable:
     flag: str
     use: str
     sigma: float
+    sigma_composition: float  # relative molality uncertainty of the salt side of eutectic points
     solid: str | None
     solids: tuple[str, ...]
     temperature: np.ndarray = field(compare=False)
@@ -113,7 +114,8 @@ def _normalise_table(path, i, t, molar_mass):
         _fail(path, where, f"use {use!r} must be 'fit' or 'test'")
     return DataTable(
         index=i, kind=kind, source=str(t["source"]), flag=t["flag"], use=use,
-        sigma=float(t["sigma"]), solid=solid, solids=solids,
+        sigma=float(t["sigma"]), sigma_composition=float(t.get("sigma_composition", 0.02)),
+        solid=solid, solids=solids,
         temperature=temp, molality=molality, value=value,
     )
 

@@ -181,8 +181,9 @@ def _monotonic_penalty(p, Ts, ms):
 def _sigma_units(table):
     """sigma for each residual of a table (eutectic: K for ice, relative for the salt)."""
     if table.kind == "eutectic":
-        # sigma given in K applies to the ice side; composition side uses 2 % relative
-        per = [table.sigma if s == "ice" else 0.02 for s in table.solids]
+        # sigma [K] applies to the ice side; the salt side uses sigma_composition
+        # (relative molality; default 2 %); a hydrate-hydrate eutectic has no ice side.
+        per = [table.sigma if s == "ice" else table.sigma_composition for s in table.solids]
         return np.tile(per, table.temperature.size)
     n = table.temperature.size * (2 if table.kind == "peritectic" else 1)
     return np.full(n, table.sigma)

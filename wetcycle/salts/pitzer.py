@@ -247,54 +247,56 @@ def aw_array(m, T, p, out):
     return out
 
 
+@njit(cache=True, inline="always")
+def _g(f_kind, m, T, p, n_hydrate, target):
+    if f_kind == 0:
+        return _ln_aw(m, T, p) - target
+    return ln_iap_kernel(m, T, p, n_hydrate) - target
+
+
 @njit(cache=True)
-def _first_crossing(f_kind, target, T, p, n_hydrate, m_hi):
-    """Smallest m in (0, m_hi] where g(m) crosses ``target``.
+def _crossing(f_kind, target, T, p, n_hydrate, m_hi, which):
+    """The ``which``-th (0 = first) m in (0, m_hi] where g(m) crosses ``target``.
 
     f_kind 0: g = ln a_w (decreasing from 0 near m = 0);
     f_kind 1: g = ln IAP(MX.nH2O) (increasing from -inf near m = 0).
-    Scans a geometric grid, then bisects; NaN if no crossing.  Works for
-    non-monotonic g (a congruently melting hydrate has two saturation
-    molalities; the lower, dilute-side one is returned).
+    Scans a geometric grid, then bisects; NaN if there is no such crossing.
+    A congruently melting hydrate has two saturation molalities below its
+    melting point: ``which=0`` gives the dilute-side branch, ``which=1`` the
+    concentrated-side branch.
     """
     n_scan = 160
     m_lo = 1e-6
     ratio = (m_hi / m_lo) ** (1.0 / (n_scan - 1))
     m_prev = m_lo
-    if f_kind == 0:
-        g_prev = ln_aw_kernel(m_prev, T, p) - target
-    else:
-        g_prev = ln_iap_kernel(m_prev, T, p, n_hydrate) - target
+    g_prev = _g(f_kind, m_prev, T, p, n_hydrate, target)
     if f_kind == 0 and g_prev < 0.0:
         return math.nan
     if f_kind == 1 and g_prev > 0.0:
         return math.nan
+    found = 0
     for i in range(1, n_scan):
         m_cur = m_lo * ratio**i
         if i == n_scan - 1:
             m_cur = m_hi
-        if f_kind == 0:
-            g_cur = ln_aw_kernel(m_cur, T, p) - target
-        else:
-            g_cur = ln_iap_kernel(m_cur, T, p, n_hydrate) - target
+        g_cur = _g(f_kind, m_cur, T, p, n_hydrate, target)
         if g_cur != g_cur:
             return math.nan
         if (g_prev > 0.0) != (g_cur > 0.0):
-            a, b = m_prev, m_cur
-            ga = g_prev
-            for _ in range(60):
-                mid = 0.5 * (a + b)
-                if f_kind == 0:
-                    gm = ln_aw_kernel(mid, T, p) - target
-                else:
-                    gm = ln_iap_kernel(mid, T, p, n_hydrate) - target
-                if (gm > 0.0) == (ga > 0.0):
-                    a, ga = mid, gm
-                else:
-                    b = mid
-                if b - a < 1e-12 * b:
-                    break
-            return 0.5 * (a + b)
+            if found == which:
+                a, b = m_prev, m_cur
+                ga = g_prev
+                for _ in range(60):
+                    mid = 0.5 * (a + b)
+                    gm = _g(f_kind, mid, T, p, n_hydrate, target)
+                    if (gm > 0.0) == (ga > 0.0):
+                        a, ga = mid, gm
+                    else:
+                        b = mid
+                    if b - a < 1e-12 * b:
+                        break
+                return 0.5 * (a + b)
+            found += 1
         m_prev, g_prev = m_cur, g_cur
     return math.nan
 
@@ -304,10 +306,16 @@ def molality_at_ln_aw_kernel(ln_aw, T, p, m_hi):
     """Molality [mol/kg] at which the solution has ln a_w = ``ln_aw``; NaN if none <= m_hi."""
     if ln_aw >= 0.0:
         return 0.0
-    return _first_crossing(0, ln_aw, T, p, 0.0, m_hi)
+    return _crossing(0, ln_aw, T, p, 0.0, m_hi, 0)
 
 
 @njit(cache=True)
 def saturation_molality_kernel(ln_k, T, p, n_hydrate, m_hi):
-    """Molality [mol/kg] of the solution saturated with MX.nH2O (ln IAP = ln K); NaN if none <= m_hi."""
-    return _first_crossing(1, ln_k, T, p, n_hydrate, m_hi)
+    """Molality [mol/kg] of the solution saturated with MX.nH2O (ln IAP = ln K), dilute branch; NaN if none."""
+    return _crossing(1, ln_k, T, p, n_hydrate, m_hi, 0)
+
+
+@njit(cache=True)
+def saturation_molality_branch_kernel(ln_k, T, p, n_hydrate, m_hi, which):
+    """Saturation molality on branch ``which`` (0 dilute, 1 concentrated side of a congruent melt)."""
+    return _crossing(1, ln_k, T, p, n_hydrate, m_hi, which)

@@ -28,7 +28,7 @@ from functools import cached_property
 
 import numpy as np
 from numba import njit
-from scipy.optimize import brentq
+from scipy.optimize import brentq, minimize_scalar
 
 from ..errors import ValidityError
 from ..water import ice_activity_kernel
@@ -57,11 +57,11 @@ class Solid:
 
 
 @njit(cache=True)
-def _saturation_curve(T, lnk, p, n_hydrate, m_hi, out):
+def _saturation_curve(T, lnk, p, n_hydrate, m_hi, out, which=0):
     for i in range(T.shape[0]):
         t = T[i]
         lk = lnk[0] + lnk[1] * (1.0 / t - 1.0 / pz.T_REF) + lnk[2] * math.log(t / pz.T_REF) + lnk[3] * (t - pz.T_REF)
-        out[i] = pz.saturation_molality_kernel(lk, t, p, n_hydrate, m_hi)
+        out[i] = pz.saturation_molality_branch_kernel(lk, t, p, n_hydrate, m_hi, which)
     return out
 
 
@@ -215,9 +215,33 @@ class SaltSystem:
         return self.solid(solid).ln_k(T)
 
     # ---- derived phase boundaries ---------------------------------------------
-    def _sat(self, s, tt):
+    def _sat(self, s, tt, which=0):
         return _saturation_curve(tt, np.array(s.lnk_coef, dtype=float), self.packed,
-                                 float(s.hydration), self.m_max, np.empty_like(tt))
+                                 float(s.hydration), self.m_max, np.empty_like(tt), which)
+
+    def _sat1(self, s, t, which=0):
+        return float(self._sat(s, np.array([float(t)]), which)[0])
+
+    def _excess(self, s, m, t):
+        return pz.ln_iap_kernel(m, t, self.packed, float(s.hydration)) - float(s.ln_k(t))
+
+    def _iap_peak(self, s, t):
+        """(max over m of ln IAP - ln K, molality of the maximum) for solid s at t (robust, scipy)."""
+        r = minimize_scalar(lambda lm: -self._excess(s, math.exp(lm), t),
+                            bounds=(math.log(1e-3), math.log(self.m_max)), method="bounded",
+                            options={"xatol": 1e-10})
+        return -r.fun, math.exp(r.x)
+
+    def _branch_robust(self, s, t, which):
+        """Saturation molality on the dilute (0) or concentrated (1) branch, by bracketing the peak."""
+        peak, m_pk = self._iap_peak(s, t)
+        if peak < 0:
+            return math.nan
+        if which == 0:
+            return brentq(lambda m: self._excess(s, m, t), 1e-6, m_pk, xtol=1e-12)
+        if self._excess(s, self.m_max, t) > 0:
+            return math.nan
+        return brentq(lambda m: self._excess(s, m, t), m_pk, self.m_max, xtol=1e-12)
 
     def saturation_molality(self, T, solid=None):
         """Molality [mol kg-1] of the brine saturated with ``solid`` (default: the stable solid).
@@ -281,6 +305,25 @@ class SaltSystem:
         self._check_T(T)
         shape, (tt,) = _bcast(T)
         return _out(_liquidus_curve(tt, self.packed, self.m_max, np.empty_like(tt)), shape)
+
+    def ice_liquidus_temperature(self, m):
+        """Freezing temperature [K] of a brine of molality ``m`` [mol kg-1]: a_w(m, T) = a_w,ice(T).
+
+        Solved by bracketed root finding between ``T_min`` and 273.15 K; NaN where the
+        brine does not freeze within that range.
+        """
+        self._check_m(m)
+        shape, (mm,) = _bcast(m)
+        out = np.full(mm.shape, np.nan)
+        lo = max(self.T_min, 150.0)
+        for k, mk in enumerate(mm):
+            if mk == 0.0:
+                out[k] = T_MELT
+                continue
+            f = lambda t: pz.ln_aw_kernel(mk, t, self.packed) - math.log(ice_activity_kernel(t))
+            if f(lo) < 0 < f(T_MELT) or f(lo) > 0 > f(T_MELT):
+                out[k] = brentq(f, lo, T_MELT, xtol=1e-9)
+        return _out(out, shape)
 
     def molality_at_water_activity(self, aw, T):
         """Molality [mol kg-1] of the brine whose water activity is ``aw`` at T.
@@ -347,23 +390,52 @@ class SaltSystem:
                                           stable=bool(st_idx[0] == k)))
                     break
         eutectics.sort(key=lambda e: (not e["stable"], -e["temperature_K"]))
-        # Peritectics / transition points: where the stable solid changes along saturation.
+        # Where the stable solid (in contact with saturated brine) changes:
+        #  * peritectic: two solids' saturation curves cross;
+        #  * congruent melting: one solid's curve ends (its ln IAP maximum falls below ln K);
+        #    then its concentrated-side branch meets the other solid at a hydrate-hydrate eutectic.
         tt = self._grid()
-        idx, msat = self._stable(tt)
-        peritectics = []
+        idx, _ = self._stable(tt)
+        peritectics, congruent = [], []
         for i in range(tt.size - 1):
             a, b = idx[i], idx[i + 1]
-            if a != b and a >= 0 and b >= 0:
-                sa, sb = self.solids[a], self.solids[b]
-                f = lambda t: self._sat(sa, np.array([t]))[0] - self._sat(sb, np.array([t]))[0]
-                try:
-                    tp = brentq(f, tt[i], tt[i + 1], xtol=1e-6)
-                except ValueError:
-                    tp = 0.5 * (tt[i] + tt[i + 1])
-                mp = float(self._sat(sa, np.array([tp]))[0])
+            if a == b or a < 0 or b < 0:
+                continue
+            sa, sb = self.solids[a], self.solids[b]
+            t0, t1 = tt[i], tt[i + 1]
+            ends = [s for s, t in ((sa, t1), (sb, t0)) if not np.isfinite(self._sat1(s, t))]
+            if not ends:
+                tp = brentq(lambda t: self._sat1(sa, t) - self._sat1(sb, t), t0, t1, xtol=1e-7)
                 lower, upper = sorted((sa, sb), key=lambda s: -s.hydration)
-                peritectics.append(dict(temperature_K=tp, molality=mp, solids=[lower.name, upper.name]))
-        return eutectics, peritectics
+                peritectics.append(dict(temperature_K=tp, molality=self._sat1(sa, tp),
+                                        solids=[lower.name, upper.name], kind="peritectic"))
+                continue
+            c = ends[0]
+            other = sb if c is sa else sa
+            out = 1.0 if c is sa else -1.0  # direction in T in which c's saturation ends
+            t_in = t0 if c is sa else t1
+            t_out = t_in + out * 0.02
+            while self._iap_peak(c, t_out)[0] > 0 and self.T_min <= t_out + out * 0.02 <= self.T_max:
+                t_out += out * 0.02
+            t_cm = brentq(lambda t: self._iap_peak(c, t)[0], min(t_in, t_out), max(t_in, t_out), xtol=1e-9)
+            congruent.append(dict(temperature_K=float(t_cm), molality=self._iap_peak(c, t_cm)[1], solid=c.name))
+            # hydrate-hydrate eutectic: c's concentrated branch meets the other solid's curve
+            f = lambda t: self._branch_robust(c, t, 1) - self._sat1(other, t)
+            t_prev, f_prev = None, math.nan
+            for d in np.geomspace(1e-6, 30.0, 200):
+                t_cur = t_cm - out * d
+                if not (self.T_min <= t_cur <= self.T_max):
+                    break
+                f_cur = f(t_cur)
+                if np.isfinite(f_prev) and np.isfinite(f_cur) and (f_prev > 0) != (f_cur > 0):
+                    te = brentq(f, min(t_prev, t_cur), max(t_prev, t_cur), xtol=1e-9)
+                    hyd = sorted((c, other), key=lambda s: -s.hydration)
+                    peritectics.append(dict(temperature_K=te, molality=self._sat1(other, te),
+                                            solids=[hyd[0].name, hyd[1].name], kind="hydrate eutectic"))
+                    break
+                t_prev, f_prev = t_cur, f_cur
+        peritectics.sort(key=lambda p: p["temperature_K"])
+        return eutectics, peritectics, congruent
 
     def eutectics(self):
         """Every ice-salt eutectic, stable first, then metastable ones.
@@ -380,12 +452,22 @@ class SaltSystem:
         return None
 
     def peritectics(self):
-        """Points where the stable solid in contact with saturated brine changes.
+        """Invariant points with two salt solids and brine, ordered by temperature.
 
-        Returns list of dict {temperature_K, molality, solids [higher hydrate, lower hydrate]},
-        ordered by temperature.
+        Returns list of dict {temperature_K, molality, solids [higher hydrate, lower hydrate],
+        kind}; kind is "peritectic" (two saturation curves cross, the stable solid changes)
+        or "hydrate eutectic" (the concentrated branch of a congruently melting hydrate
+        meets the next solid).
         """
         return [dict(p) for p in self._invariants[1]]
+
+    def congruent_melting_points(self):
+        """Congruent melting points of hydrates: dict {temperature_K, molality, solid}.
+
+        Above this temperature the hydrate has no saturated solution; the deliquescence
+        RH of the stable solid jumps there (a real discontinuity, not a numerical one).
+        """
+        return [dict(c) for c in self._invariants[2]]
 
     # ---- metastability -------------------------------------------------------
     @property
@@ -409,7 +491,8 @@ class SaltSystem:
             eutectic=None if eut is None else dict(eut),
             metastable_eutectics=[{k: e[k] for k in ("temperature_K", "molality", "solids")}
                                   for e in self.eutectics() if not e["stable"]],
-            peritectics=[{k: p[k] for k in ("temperature_K", "molality", "solids")} for p in self.peritectics()],
+            peritectics=[{k: p[k] for k in ("temperature_K", "molality", "solids", "kind")} for p in self.peritectics()],
+            congruent_melting=self.congruent_melting_points(),
             efflorescence_rh=self.efflorescence_rh,
             supercooling_limit_K=self.supercooling_limit,
             at=[],

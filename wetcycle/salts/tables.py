@@ -4,7 +4,8 @@ The inverse of the water activity (molality of the brine whose a_w is given)
 needs a root solve per call; inside the time-stepping kernel that is too slow,
 so it is tabulated once per system on a regular grid of temperature and of
 s = sqrt(-ln a_w) (near-linear in sqrt(m) for dilute brines, so a uniform grid
-resolves both ends) and read back by bilinear interpolation.  Interpolation
+resolves both ends) and read back by cubic (Catmull-Rom) interpolation along s and linear
+interpolation in T.  Interpolation
 error is checked against the exact root in ``tests/test_salt_tables.py``.
 
 Outside the tabulated range (T outside the system's validity, or a_w below
@@ -68,12 +69,27 @@ def build_inverse_table(system, dT=0.5, n_s=1024):
     return InverseTable(T0=float(system.T_min), dT=float(dT), s_max=s_max, ds=ds, m=m)
 
 
-@njit(cache=True, fastmath=False)
+@njit(cache=True, inline="always")
+def _row(m, i, j, fy, nS):
+    """Catmull-Rom cubic along s in row i between j and j+1 (linear at the ends or next to NaN)."""
+    p1 = m[i, j]
+    p2 = m[i, j + 1]
+    if j >= 1 and j + 2 < nS:
+        p0 = m[i, j - 1]
+        p3 = m[i, j + 2]
+        if p3 == p3:
+            return p1 + 0.5 * fy * (p2 - p0 + fy * (2.0 * p0 - 5.0 * p1 + 4.0 * p2 - p3
+                                                     + fy * (3.0 * (p1 - p2) + p3 - p0)))
+    return p1 + fy * (p2 - p1)
+
+
+@njit(cache=True)
 def molality_from_table(aw, T, T0, dT, ds, m):
     """Molality [mol/kg] of the brine with water activity ``aw`` at ``T`` [K], by table lookup.
 
-    NaN outside the table (the flag): T beyond the system's validity, aw <= 0,
-    or aw below a_w(m_max, T).
+    Cubic (Catmull-Rom) along s = sqrt(-ln a_w), linear in T.  NaN outside the
+    table (the flag): T beyond the system's validity, aw <= 0, or aw below
+    a_w(m_max, T).
     """
     if not (aw > 0.0):
         return math.nan
@@ -90,8 +106,8 @@ def molality_from_table(aw, T, T0, dT, ds, m):
         return math.nan
     j = min(int(y), nS - 2)
     fy = y - j
-    a = m[i, j] + fy * (m[i, j + 1] - m[i, j])
-    b = m[i + 1, j] + fy * (m[i + 1, j + 1] - m[i + 1, j])
+    a = _row(m, i, j, fy, nS)
+    b = _row(m, i + 1, j, fy, nS)
     return a + fx * (b - a)
 
 

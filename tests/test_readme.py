@@ -1,0 +1,30 @@
+"""README and CI agree (common practice: the documented commands are the tested ones)."""
+
+import re
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def _quick_start_commands():
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    section = re.split(r"^## ", text, flags=re.M)
+    qs = next(s for s in section if s.lower().startswith("quick start"))
+    return re.findall(r"```bash\n(.+?)\n```", qs, flags=re.S)
+
+
+def test_quick_start_has_exactly_two_commands():
+    cmds = _quick_start_commands()
+    assert len(cmds) == 2
+    assert all("\n" not in c for c in cmds)
+
+
+def test_ci_runs_the_readme_commands_verbatim():
+    ci = (ROOT / ".ci" / "run").read_text(encoding="utf-8")
+    for cmd in _quick_start_commands():
+        assert cmd in ci, f"README command not in .ci/run: {cmd}"
+
+
+def test_readme_states_the_cautions():
+    text = (ROOT / "README.md").read_text(encoding="utf-8").lower()
+    assert "not evidence" in text and "planetary-protection" in text
