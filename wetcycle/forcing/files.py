@@ -1,0 +1,349 @@
+"""Forcing read from files: CSV with a header, or NetCDF through xarray.
+
+Both readers return a :class:`~wetcycle.forcing.prescribed.ForcingSeries` in
+SI units on the caller's clock (``clock.time_s``), by linear interpolation in
+time between the file's samples (values at the clock's step start times; no
+extrapolation: the file must cover the whole clock).
+
+Units convention
+----------------
+CSV columns are named ``<quantity>_<unit>``; NetCDF variables carry a
+``units`` attribute.  Accepted (other spellings are refused):
+
+==================  =====================================  ==============================
+quantity            CSV column names                        NetCDF ``units``
+==================  =====================================  ==============================
+time (relative)     ``time_s``, ``time_sol``                ``s``, ``seconds``, ``sol``
+time (absolute)     ``time_utc`` (ISO-8601, UTC)            ``<unit> since <date>`` (CF)
+temperature         ``temperature_K``, ``temperature_degC`` ``K``, ``degC``
+vapour pressure     ``vapor_pressure_Pa``, ``_hPa``         ``Pa``, ``hPa``
+relative humidity   ``relative_humidity`` (0-1),            ``1``, ``fraction``, ``%``,
+                    ``relative_humidity_percent``           ``percent``
+surface pressure    ``surface_pressure_Pa``, ``_hPa``       ``Pa``, ``hPa``
+==================  =====================================  ==============================
+
+Relative times count from the clock start (``time_sol`` in sols of the
+clock's planet).  Absolute times are placed with the clock's ``jd_tt``.
+Relative humidity is with respect to liquid water.  Lines of a CSV file that
+begin with ``#`` are comments.
+
+Gaps
+----
+``gap_policy="refuse"`` (default): any missing value (empty, ``NaN``, ``NA``,
+or a NetCDF fill value) or missing row (a time step more than 1.5 times the
+median spacing) is an error.  ``gap_policy="interpolate"`` with
+``max_gap_s``: missing values are filled linearly in time, provided no
+stretch between two valid samples is longer than ``max_gap_s`` [s].  Every
+error is one line naming the file, the column (variable) and the row (index).
+"""
+
+from __future__ import annotations
+
+import csv
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import ConfigError, InputDataError
+from ..orbit import utc_to_jd_tt
+from .prescribed import RANGES, ForcingSeries
+
+__all__ = ["read_csv_forcing", "read_netcdf_forcing", "CSV_COLUMNS", "NETCDF_UNITS", "NETCDF_NAMES"]
+
+_K0 = 273.15
+# CSV column -> (quantity, converter to SI)
+CSV_COLUMNS = {
+    "time_s": ("time", None),
+    "time_sol": ("time", "sol"),
+    "time_utc": ("time", "utc"),
+    "temperature_K": ("temperature_K", lambda x: x),
+    "temperature_degC": ("temperature_K", lambda x: x + _K0),
+    "vapor_pressure_Pa": ("vapor_pressure_Pa", lambda x: x),
+    "vapor_pressure_hPa": ("vapor_pressure_Pa", lambda x: 100.0 * x),
+    "relative_humidity": ("relative_humidity", lambda x: x),
+    "relative_humidity_percent": ("relative_humidity", lambda x: 0.01 * x),
+    "surface_pressure_Pa": ("surface_pressure_Pa", lambda x: x),
+    "surface_pressure_hPa": ("surface_pressure_Pa", lambda x: 100.0 * x),
+}
+#: Our names for NetCDF mapping -> quantity
+NETCDF_NAMES = {"time": "time", "temperature": "temperature_K", "vapor_pressure": "vapor_pressure_Pa",
+                "relative_humidity": "relative_humidity", "surface_pressure": "surface_pressure_Pa"}
+#: Allowed NetCDF units per quantity -> converter to SI
+NETCDF_UNITS = {
+    "temperature_K": {"K": lambda x: x, "degC": lambda x: x + _K0},
+    "vapor_pressure_Pa": {"Pa": lambda x: x, "hPa": lambda x: 100.0 * x},
+    "surface_pressure_Pa": {"Pa": lambda x: x, "hPa": lambda x: 100.0 * x},
+    "relative_humidity": {"1": lambda x: x, "fraction": lambda x: x,
+                          "%": lambda x: 0.01 * x, "percent": lambda x: 0.01 * x},
+}
+_MISSING = {"", "nan", "na", "n/a"}
+_GAP_POLICIES = ("refuse", "interpolate")
+
+
+def _check_policy(gap_policy, max_gap_s):
+    if gap_policy not in _GAP_POLICIES:
+        raise ConfigError(f"gap_policy: {gap_policy!r} is not allowed; allowed: {', '.join(_GAP_POLICIES)}")
+    if gap_policy == "interpolate":
+        if isinstance(max_gap_s, bool) or max_gap_s is None or not np.isfinite(max_gap_s) or max_gap_s <= 0:
+            raise ConfigError(f"max_gap_s: {max_gap_s!r} is not allowed; allowed: a number > 0 s "
+                              "with gap_policy='interpolate'")
+
+
+def _relative_seconds(kind, values, clock):
+    """File times -> seconds since the clock start."""
+    if kind == "utc":
+        return (utc_to_jd_tt(values) - clock.jd_tt[0]) * 86400.0
+    if kind == "jd_tt":
+        return (np.asarray(values, dtype=float) - clock.jd_tt[0]) * 86400.0
+    if kind == "sol":
+        return np.asarray(values, dtype=float) * clock.planet.sol_s
+    return np.asarray(values, dtype=float)
+
+
+def _assemble(src, t_file, cols, clock, gap_policy, max_gap_s, label):
+    """Check times, ranges and gaps, then interpolate onto clock.time_s.
+
+    cols : {quantity: (values_SI, column_label)}; label(i) names row i for messages.
+    """
+    if t_file.size < 2:
+        raise InputDataError(f"{src}: has {t_file.size} data rows; allowed: at least 2")
+    d = np.diff(t_file)
+    if np.any(~(d > 0)):
+        i = int(np.flatnonzero(~(d > 0))[0]) + 1
+        raise InputDataError(f"{src}: {label(i)}, time column: times must increase strictly "
+                             f"({t_file[i - 1]!r} s then {t_file[i]!r} s)")
+    if gap_policy == "refuse":
+        med = float(np.median(d))
+        big = d > 1.5 * med
+        if np.any(big):
+            i = int(np.flatnonzero(big)[0])
+            raise InputDataError(
+                f"{src}: {label(i + 1)}, time column: {d[i]:g} s after the previous row, more than 1.5 x the "
+                f"median spacing {med:g} s (missing rows); gap_policy 'refuse' (use 'interpolate' with max_gap_s)")
+    for qty, (v, colname) in cols.items():
+        lo, hi = RANGES[qty]
+        nan = np.isnan(v)
+        bad = ~nan & ~((v >= lo) & (v <= hi))
+        if np.any(bad):
+            i = int(np.flatnonzero(bad)[0])
+            raise InputDataError(f"{src}: {label(i)}, column {colname!r}: {float(v[i])!r} (as {qty}) is outside "
+                                 f"the allowed {lo:g}-{hi:g}")
+        if np.any(nan) and gap_policy == "refuse":
+            i = int(np.flatnonzero(nan)[0])
+            raise InputDataError(f"{src}: {label(i)}, column {colname!r}: missing value; gap_policy "
+                                 "'refuse' (use 'interpolate' with max_gap_s)")
+    t_clock = clock.time_s
+    if t_clock[0] < t_file[0] or t_clock[-1] > t_file[-1]:
+        raise InputDataError(
+            f"{src}: covers {t_file[0]:g} to {t_file[-1]:g} s of the run; the clock needs "
+            f"{t_clock[0]:g} to {t_clock[-1]:g} s (no extrapolation)")
+    out = {}
+    for qty, (v, colname) in cols.items():
+        nan = np.isnan(v)
+        if np.any(nan):
+            good = np.flatnonzero(~nan)
+            if good.size < 2:
+                raise InputDataError(f"{src}: column {colname!r}: fewer than 2 valid values")
+            tg = t_file[good]
+            # a gap at either end cannot be interpolated: it must lie outside the clock span
+            if tg[0] > t_clock[0] or tg[-1] < t_clock[-1]:
+                i = int(good[0] - 1) if tg[0] > t_clock[0] else int(good[-1] + 1)
+                raise InputDataError(f"{src}: {label(i)}, column {colname!r}: missing values at the edge of "
+                                     "the record, inside the clock span (no extrapolation)")
+            gaps = np.diff(tg)
+            if np.any(gaps > max_gap_s):
+                k = int(np.flatnonzero(gaps > max_gap_s)[0])
+                raise InputDataError(
+                    f"{src}: {label(int(good[k]) + 1)}, column {colname!r}: gap of {gaps[k]:g} s between valid "
+                    f"values exceeds max_gap_s = {max_gap_s:g} s")
+            out[qty] = np.interp(t_clock, tg, v[good])
+        else:
+            if gap_policy == "interpolate" and np.any(d > max_gap_s):
+                k = int(np.flatnonzero(d > max_gap_s)[0])
+                raise InputDataError(f"{src}: {label(k + 1)}, time column: gap of {d[k]:g} s between rows "
+                                     f"exceeds max_gap_s = {max_gap_s:g} s")
+            out[qty] = np.interp(t_clock, t_file, v)
+    return ForcingSeries(time_s=t_clock, **out)
+
+
+def _check_quantities(src, qtys, what):
+    if "temperature_K" not in qtys:
+        raise InputDataError(f"{src}: no temperature {what}; allowed: temperature_K or temperature_degC")
+    if ("vapor_pressure_Pa" in qtys) == ("relative_humidity" in qtys):
+        raise InputDataError(f"{src}: give exactly one humidity {what} (vapour pressure or relative humidity)")
+
+
+def read_csv_forcing(path, clock, *, gap_policy="refuse", max_gap_s=None, ignore_columns=()):
+    """Read a forcing series from a CSV file with a header row (conventions in the module notes).
+
+    Parameters
+    ----------
+    path : str or Path
+    clock : wetcycle.orbit.Clock    target grid (``time_s``), planet and start date
+    gap_policy : "refuse" or "interpolate"
+    max_gap_s : float [s], > 0      longest stretch filled when interpolating
+    ignore_columns : iterable of str   extra columns to skip (others are refused)
+
+    Returns
+    -------
+    ForcingSeries   on ``clock.time_s``, SI units
+
+    Raises
+    ------
+    InputDataError   one line naming the file, the row (with its line number) and the column.
+    ConfigError      bad gap policy.
+    """
+    _check_policy(gap_policy, max_gap_s)
+    path = Path(path)
+    src = path.name
+    try:
+        with open(path, newline="", encoding="utf-8") as fh:
+            lines = [(n, ln) for n, ln in enumerate(fh, start=1) if ln.strip() and not ln.lstrip().startswith("#")]
+    except OSError as exc:
+        raise InputDataError(f"{path}: cannot be read ({exc.strerror})") from None
+    except UnicodeDecodeError:
+        raise InputDataError(f"{path}: is not UTF-8 text") from None
+    if not lines:
+        raise InputDataError(f"{src}: no header row")
+    rows = list(csv.reader([ln for _, ln in lines]))
+    header = [h.strip() for h in rows[0]]
+    line_no = [n for n, _ in lines[1:]]
+    ignore = set(ignore_columns)
+    cols, seen = {}, {}
+    for j, h in enumerate(header):
+        if h in ignore:
+            continue
+        if h not in CSV_COLUMNS:
+            raise InputDataError(f"{src}: line {lines[0][0]}, column {h!r} is not known; allowed: "
+                                 f"{', '.join(CSV_COLUMNS)} (or pass ignore_columns)")
+        qty = CSV_COLUMNS[h][0]
+        if qty in seen:
+            raise InputDataError(f"{src}: columns {seen[qty]!r} and {h!r} both give {qty}; allowed: one")
+        seen[qty] = h
+        cols[h] = j
+    if "time" not in seen:
+        raise InputDataError(f"{src}: no time column; allowed: time_s, time_sol, time_utc")
+    _check_quantities(src, seen, "column")
+
+    def label(i):
+        return f"row {i + 1} (line {line_no[i]})"
+
+    data = {h: [] for h in cols}
+    for i, r in enumerate(rows[1:]):
+        if len(r) != len(header):
+            raise InputDataError(f"{src}: {label(i)}: {len(r)} fields, the header has {len(header)}")
+        for h, j in cols.items():
+            s = r[j].strip()
+            if CSV_COLUMNS[h][1] == "utc":
+                if s.lower() in _MISSING:
+                    raise InputDataError(f"{src}: {label(i)}, column {h!r}: missing time")
+                data[h].append(s)
+                continue
+            if s.lower() in _MISSING:
+                data[h].append(np.nan)
+                continue
+            try:
+                x = float(s)
+            except ValueError:
+                raise InputDataError(f"{src}: {label(i)}, column {h!r}: {s!r} is not a number") from None
+            if not np.isfinite(x):
+                raise InputDataError(f"{src}: {label(i)}, column {h!r}: {s!r} is not a finite number")
+            data[h].append(x)
+    th = seen["time"]
+    kind = CSV_COLUMNS[th][1]
+    if kind == "utc":
+        for i, s in enumerate(data[th]):  # row-level parse errors first
+            try:
+                utc_to_jd_tt(s)
+            except ValueError as exc:
+                raise InputDataError(f"{src}: {label(i)}, column {th!r}: {exc}") from None
+        t_file = _relative_seconds("utc", data[th], clock)
+    else:
+        tv = np.array(data[th], dtype=float)
+        if np.any(np.isnan(tv)):
+            i = int(np.flatnonzero(np.isnan(tv))[0])
+            raise InputDataError(f"{src}: {label(i)}, column {th!r}: missing time")
+        t_file = _relative_seconds(kind, tv, clock)
+    qcols = {CSV_COLUMNS[h][0]: (CSV_COLUMNS[h][1](np.array(data[h], dtype=float)), h)
+             for h in cols if h != th}
+    return _assemble(src, t_file, qcols, clock, gap_policy, max_gap_s, label)
+
+
+def read_netcdf_forcing(path, clock, variables, *, gap_policy="refuse", max_gap_s=None):
+    """Read a forcing series from a NetCDF file with xarray, mapping our names to the file's.
+
+    Parameters
+    ----------
+    path : str or Path
+    clock : wetcycle.orbit.Clock
+    variables : dict
+        Our name -> variable name in the file.  Our names: ``time``,
+        ``temperature``, ``vapor_pressure`` or ``relative_humidity``, and
+        optionally ``surface_pressure``.  Variables must be 1-D along time and
+        carry a ``units`` attribute from the table in the module notes.
+    gap_policy, max_gap_s : see :func:`read_csv_forcing`
+
+    Returns
+    -------
+    ForcingSeries   on ``clock.time_s``, SI units
+
+    Raises
+    ------
+    InputDataError   one line naming the file, the variable and the index.
+    ConfigError      bad mapping or gap policy.
+    """
+    import xarray as xr
+
+    _check_policy(gap_policy, max_gap_s)
+    if not isinstance(variables, dict):
+        raise ConfigError(f"variables: {variables!r} is not allowed; allowed: a dict of our name -> file variable")
+    unknown = set(variables) - set(NETCDF_NAMES)
+    if unknown:
+        raise ConfigError(f"variables: {sorted(unknown)[0]!r} is not one of our names; allowed: {', '.join(NETCDF_NAMES)}")
+    if "time" not in variables:
+        raise ConfigError("variables: 'time' is missing; map it to the file's time variable")
+    path = Path(path)
+    src = path.name
+    try:
+        ds = xr.open_dataset(path, decode_times=False, decode_timedelta=False)
+    except (OSError, ValueError) as exc:
+        raise InputDataError(f"{path}: cannot be read as NetCDF ({exc})") from None
+    with ds:
+        arrays = {}
+        for ours, theirs in variables.items():
+            if theirs not in ds.variables:
+                raise InputDataError(f"{src}: variable {theirs!r} (for {ours}) is not in the file; "
+                                     f"it has: {', '.join(map(str, ds.variables))}")
+            da = ds[theirs]
+            if da.ndim != 1:
+                raise InputDataError(f"{src}: variable {theirs!r} has dimensions {da.dims}; allowed: 1-D along time")
+            units = da.attrs.get("units")
+            if units is None:
+                raise InputDataError(f"{src}: variable {theirs!r} has no units attribute")
+            arrays[ours] = (da, str(units).strip())
+        tda, tunits = arrays.pop("time")
+        if " since " in tunits:
+            dec = xr.decode_cf(xr.Dataset({"_t": ("_n", tda.values, dict(tda.attrs))}))["_t"].values
+            if dec.dtype.kind != "M":
+                raise InputDataError(f"{src}: variable {variables['time']!r}: units {tunits!r} could not be decoded")
+            t_file = _relative_seconds("utc", dec.astype("datetime64[ns]"), clock)
+        elif tunits in ("s", "seconds", "second"):
+            t_file = _relative_seconds("s", tda.values, clock)
+        elif tunits in ("sol", "sols"):
+            t_file = _relative_seconds("sol", tda.values, clock)
+        else:
+            raise InputDataError(f"{src}: variable {variables['time']!r}: units {tunits!r} not allowed; allowed: "
+                                 "s, sol, or '<unit> since <date>'")
+        if np.any(np.isnan(t_file)):
+            i = int(np.flatnonzero(np.isnan(t_file))[0])
+            raise InputDataError(f"{src}: variable {variables['time']!r}, index {i}: missing time")
+        qcols = {}
+        for ours, (da, units) in arrays.items():
+            qty = NETCDF_NAMES[ours]
+            conv = NETCDF_UNITS[qty].get(units)
+            if conv is None:
+                raise InputDataError(f"{src}: variable {variables[ours]!r} ({ours}): units {units!r} not allowed; "
+                                     f"allowed: {', '.join(NETCDF_UNITS[qty])}")
+            qcols[qty] = (conv(np.asarray(da.values, dtype=float)), variables[ours])
+    _check_quantities(src, qcols, "variable")
+    return _assemble(src, t_file, qcols, clock, gap_policy, max_gap_s, lambda i: f"index {i}")
