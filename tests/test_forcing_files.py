@@ -7,6 +7,7 @@ import pytest
 import xarray as xr
 
 from wetcycle import orbit
+from wetcycle.clock import make_clock
 from wetcycle.errors import ConfigError, InputDataError
 from wetcycle.forcing import files
 
@@ -14,7 +15,7 @@ DEMO_CSV = Path(__file__).resolve().parents[1] / "forcing" / "analog_site_demo.c
 
 
 def earth_clock(start="2024-12-10T00:00:00Z", steps=24, n=1):
-    return orbit.make_clock("earth", steps_per_sol=steps, n_sols=n, start_utc=start)
+    return make_clock("earth", steps_per_sol=steps, n_sols=n, start_utc=start)
 
 
 def write(tmp_path, text, name="f.csv"):
@@ -44,7 +45,7 @@ def test_csv_iso_times_hand_interpolated(tmp_path):
 
 
 def test_csv_relative_seconds_and_sols(tmp_path):
-    c = orbit.make_clock("mars", steps_per_sol=4, n_sols=1)
+    c = make_clock("mars", steps_per_sol=4, n_sols=1)
     sol = orbit.MARS.sol_s
     p = write(tmp_path, "time_sol,temperature_degC,vapor_pressure_Pa\n0,-50,0.1\n1,-30,0.3\n")
     f = files.read_csv_forcing(p, c)
@@ -63,7 +64,7 @@ GAPPY = """time_s,temperature_K,vapor_pressure_Pa
 
 
 def test_gap_policy_refuse(tmp_path):
-    c = orbit.make_clock("earth", steps_per_sol=24, n_sols=1, start_utc="2024-12-10T00:00:00Z")
+    c = make_clock("earth", steps_per_sol=24, n_sols=1, start_utc="2024-12-10T00:00:00Z")
     p = write(tmp_path, GAPPY)
     with pytest.raises(InputDataError, match=r"f\.csv: row 4 \(line 5\), time column: .*missing rows") as ei:
         files.read_csv_forcing(p, c)
@@ -74,7 +75,7 @@ def test_gap_policy_refuse(tmp_path):
 
 
 def test_gap_policy_interpolate(tmp_path):
-    c = orbit.make_clock("earth", steps_per_sol=24, n_sols=1, start_utc="2024-12-10T00:00:00Z")
+    c = make_clock("earth", steps_per_sol=24, n_sols=1, start_utc="2024-12-10T00:00:00Z")
     text = GAPPY + "".join(f"{t},240,0.5\n" for t in range(18000, 90001, 3600))
     p = write(tmp_path, text)
     f = files.read_csv_forcing(p, c, gap_policy="interpolate", max_gap_s=7200.0)
@@ -100,20 +101,20 @@ def test_gap_policy_interpolate(tmp_path):
      r"row 2 \(line 3\), column 'time_utc'"),
 ])
 def test_malformed_csv(tmp_path, text, match):
-    c = orbit.make_clock("earth", steps_per_sol=1, n_sols=1, start_utc="2024-12-10T00:00:00Z")
+    c = make_clock("earth", steps_per_sol=1, n_sols=1, start_utc="2024-12-10T00:00:00Z")
     with pytest.raises(InputDataError, match=match) as ei:
         files.read_csv_forcing(write(tmp_path, text, "bad.csv"), c)
     assert str(ei.value).startswith("bad.csv") and "\n" not in str(ei.value)
 
 
 def test_csv_must_cover_clock(tmp_path):
-    c = orbit.make_clock("earth", steps_per_sol=24, n_sols=2, start_utc="2024-12-10T00:00:00Z")
+    c = make_clock("earth", steps_per_sol=24, n_sols=2, start_utc="2024-12-10T00:00:00Z")
     with pytest.raises(InputDataError, match="no extrapolation"):
         files.read_csv_forcing(write(tmp_path, CSV_ISO), c)
 
 
 def test_demo_csv():
-    c = orbit.make_clock("earth", steps_per_sol=48, n_sols=3, start_utc="2024-12-10T00:00:00Z")
+    c = make_clock("earth", steps_per_sol=48, n_sols=3, start_utc="2024-12-10T00:00:00Z")
     f = files.read_csv_forcing(DEMO_CSV, c)
     assert f.n_steps == 144 and np.all(f.relative_humidity < 1)
 
@@ -153,7 +154,7 @@ def test_netcdf_units_checked(tmp_path):
                      "time": ("n", [0.0, 1.0], {"units": "sol"})})
     path = tmp_path / "u.nc"
     ds.to_netcdf(path)
-    c = orbit.make_clock("mars", steps_per_sol=2, n_sols=1)
+    c = make_clock("mars", steps_per_sol=2, n_sols=1)
     m = {"time": "time", "temperature": "T", "vapor_pressure": "e"}
     with pytest.raises(InputDataError, match="units 'F' not allowed; allowed: K, degC"):
         files.read_netcdf_forcing(path, c, m)

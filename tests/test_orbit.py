@@ -1,12 +1,14 @@
-"""Tests of wetcycle.orbit: Mars (Allison & McEwen 2000) and Earth solar geometry, the clock."""
+"""Tests of wetcycle.orbit: Mars (Allison & McEwen 2000) and Earth solar geometry."""
+
+import subprocess
+import sys
 
 import numpy as np
 import pytest
-from hypothesis import given, settings
-from hypothesis import strategies as st
 
 from wetcycle import orbit
-from wetcycle.errors import ConfigError, UnknownNameError, ValidityError
+from wetcycle.errors import ConfigError, ValidityError
+from wetcycle.timescales import jd_tt_to_utc, utc_to_jd_tt
 
 # A dense sampling of Mars year 36 (2021-2022).
 JD_MY36 = orbit.jd_tt_at_ls(0.0, mars_year=36)
@@ -60,7 +62,7 @@ MY_STARTS = {24: "1998-07-14", 25: "2000-05-31", 28: "2006-01-21", 32: "2013-07-
 @pytest.mark.parametrize("my,date", sorted(MY_STARTS.items()))
 def test_mars_year_start_dates(my, date):
     jd = orbit.jd_tt_at_ls(0.0, mars_year=my)
-    day = str(orbit.jd_tt_to_utc(jd)[0].astype("datetime64[D]"))
+    day = str(jd_tt_to_utc(jd)[0].astype("datetime64[D]"))
     assert day == date  # the table gives calendar days
     assert orbit.mars_year(jd + 1.0) == my
     assert orbit.mars_year(jd - 1.0) == my - 1
@@ -69,8 +71,8 @@ def test_mars_year_start_dates(my, date):
 def test_ls_at_landings():
     # Ls at landing (from memory, quoted to the degree): Mars Pathfinder 1997-07-04 16:57 UTC,
     # Ls 143; Curiosity 2012-08-06 05:18 UTC, Ls 151.  Tolerance 0.6 deg: rounding of the quote.
-    assert orbit.solar_longitude(orbit.utc_to_jd_tt("1997-07-04T16:57:00Z")[0]) == pytest.approx(143, abs=0.6)
-    assert orbit.solar_longitude(orbit.utc_to_jd_tt("2012-08-06T05:18:00Z")[0]) == pytest.approx(151, abs=0.6)
+    assert orbit.solar_longitude(utc_to_jd_tt("1997-07-04T16:57:00Z")[0]) == pytest.approx(143, abs=0.6)
+    assert orbit.solar_longitude(utc_to_jd_tt("2012-08-06T05:18:00Z")[0]) == pytest.approx(151, abs=0.6)
 
 
 def test_msd_increases_one_per_sol():
@@ -79,9 +81,9 @@ def test_msd_increases_one_per_sol():
     d = orbit.mars_sol_date(jd + orbit.MARS.sol_s / 86400.0) - orbit.mars_sol_date(jd)
     np.testing.assert_allclose(d, 1.0, rtol=0, atol=1e-9)  # float64 rounding of JD ~ 1e-10 d
     # MSD epoch: mean solar midnight at Airy-0 on 2000 Jan 06 00:00 UTC (AM2000 abstract)
-    msd = orbit.mars_sol_date(orbit.utc_to_jd_tt("2000-01-06T00:00:00Z")[0])
+    msd = orbit.mars_sol_date(utc_to_jd_tt("2000-01-06T00:00:00Z")[0])
     assert msd == pytest.approx(44796.0, abs=1e-9)
-    assert orbit.local_mean_solar_time(orbit.utc_to_jd_tt("2000-01-06T00:00:00Z")[0], 0.0) < 1e-6
+    assert orbit.local_mean_solar_time(utc_to_jd_tt("2000-01-06T00:00:00Z")[0], 0.0) < 1e-6
 
 
 def test_ltst_minus_lmst_is_eot():
@@ -133,9 +135,9 @@ EARTH_2024 = [(0.0, "2024-03-20T03:06"), (90.0, "2024-06-20T20:51"),
 
 @pytest.mark.parametrize("lam,when", EARTH_2024)
 def test_earth_seasons(lam, when):
-    jan1 = orbit.utc_to_jd_tt("2024-01-01T00:00:00Z")[0]
+    jan1 = utc_to_jd_tt("2024-01-01T00:00:00Z")[0]
     jd = orbit.jd_tt_at_ls(lam, after_jd_tt=jan1, planet="earth")
-    ref = orbit.utc_to_jd_tt(when)[0]
+    ref = utc_to_jd_tt(when)[0]
     # tolerance 30 min: the Almanac low-precision Sun is good to 0.01 deg ~ 15 min of time
     assert abs(jd - ref) * 1440.0 < 30.0
 
@@ -143,7 +145,7 @@ def test_earth_seasons(lam, when):
 def test_earth_eot_and_distance():
     # Earth: EOT from about -14.2 min (mid-Feb) to +16.4 min (early Nov); perihelion 0.98329 AU,
     # aphelion 1.01671 AU (common practice; Astronomical Almanac, from memory).
-    jd0 = orbit.utc_to_jd_tt("2024-01-01T00:00:00Z")[0]
+    jd0 = utc_to_jd_tt("2024-01-01T00:00:00Z")[0]
     jd = jd0 + np.linspace(0, 366, 20000)
     lam, r, dec, eot = orbit.earth_solar_coordinates(jd)
     eot_min = eot * 4.0
@@ -154,67 +156,35 @@ def test_earth_eot_and_distance():
     assert dec.max() == pytest.approx(23.44, abs=0.01)
 
 
-def test_earth_clock_noon_at_greenwich():
-    # At Greenwich, LMST = UT (definition of mean solar time; common practice).
-    c = orbit.make_clock("earth", steps_per_sol=24, n_sols=2, start_utc="2024-06-01T00:00:00Z")
-    np.testing.assert_allclose(c.local_mean_solar_time(0.0)[:24], np.arange(24.0), atol=1e-6)
-    assert c.dt_s == 3600.0
-    assert c.year[0] == 2024
+def test_earth_out_of_range_dates_raise():
+    # The Almanac formulas are accepted for 1900-2100 only (module docstring); NaN is refused too.
+    with pytest.raises(ValidityError, match="jd_tt: 2400000.0"):
+        orbit.earth_solar_coordinates(2400000.0)
+    with pytest.raises(ValidityError, match="jd_tt"):
+        orbit.earth_solar_coordinates(np.array([2451545.0, np.nan]))
 
 
-def test_utc_tt_offset():
-    # TT - UTC = 69.184 s since 2017-01-01 (IERS Bulletin C; 37 leap s + 32.184 s).
-    jd = orbit.utc_to_jd_tt("2024-01-01T00:00:00Z")[0]
-    assert (jd - 2460310.5) * 86400.0 == pytest.approx(69.184, abs=1e-4)  # float64 JD ~ 40 us
+# --- One-pass series and module structure ----------------------------------------------------
+
+def test_mars_solar_coordinates_equals_single_functions():
+    # Consistency, no outside source (the outside checks are above): the one-pass series must be
+    # the single-quantity functions bit for bit, so exact equality, no tolerance.
+    jd = T_YEAR[::37]
+    ls, r, dec, eot, my = orbit.mars_solar_coordinates(jd)
+    np.testing.assert_array_equal(ls, orbit.solar_longitude(jd))
+    np.testing.assert_array_equal(r, orbit.heliocentric_distance(jd))
+    np.testing.assert_array_equal(dec, orbit.solar_declination(jd))
+    np.testing.assert_array_equal(eot, orbit.equation_of_time(jd))
+    np.testing.assert_array_equal(my, orbit.mars_year(jd))
+    with pytest.raises(ValidityError, match="jd_tt"):
+        orbit.mars_solar_coordinates(np.array([JD_MY36, np.nan]))
 
 
-# --- Clock ---------------------------------------------------------------------------------
-
-def test_clock_validation():
-    with pytest.raises(ConfigError, match="steps_per_sol"):
-        orbit.make_clock(steps_per_sol=0, n_sols=1)
-    with pytest.raises(ConfigError, match="steps_per_sol"):
-        orbit.make_clock(steps_per_sol=2.5, n_sols=1)
-    with pytest.raises(ConfigError, match="n_sols or n_years"):
-        orbit.make_clock(steps_per_sol=2)
-    with pytest.raises(ConfigError, match="clock start"):
-        orbit.make_clock(steps_per_sol=2, n_sols=1, start_ls=10.0, start_jd_tt=JD_MY36)
-    with pytest.raises(UnknownNameError, match="venus"):
-        orbit.make_clock("venus", steps_per_sol=2, n_sols=1)
-
-
-def test_clock_n_years_and_ls_start():
-    c = orbit.make_clock(steps_per_sol=4, n_years=1)
-    assert c.n_sols == 669  # round(668.59)
-    # the start moves to the next prime-meridian midnight: < 1 sol later than Ls 0 of MY 36,
-    # i.e. by < 0.7 deg of Ls (Ls rate ~ 0.5-0.7 deg/sol, AM2000)
-    assert 0.0 <= c.ls_deg[0] < 0.7
-    assert c.year[0] == 36
-    # 669 sols > one year of 668.59 sols: the run ends just inside MY 37
-    assert c.year[-1] == 37 and c.ls_deg[-1] < 1.0
-    assert np.all(np.diff(c.year) >= 0)
-
-
-@settings(max_examples=25, deadline=None)
-@given(steps=st.integers(1, 96), n_sols=st.integers(1, 4), ls=st.floats(0.0, 359.0),
-       lon=st.floats(-180.0, 360.0))
-def test_clock_invariants(steps, n_sols, ls, lon):
-    c = orbit.make_clock("mars", steps_per_sol=steps, n_sols=n_sols, start_ls=ls, year=35)
-    assert c.n_steps == steps * n_sols
-    assert c.dt_s * steps == pytest.approx(orbit.MARS.sol_s, rel=1e-15)
-    np.testing.assert_allclose(np.diff(c.time_s), c.dt_s, rtol=1e-12)
-    np.testing.assert_allclose(c.time_s, (c.sol + c.sol_fraction) * orbit.MARS.sol_s, rtol=1e-12, atol=1e-6)
-    assert np.all((c.sol_fraction >= 0) & (c.sol_fraction < 1))
-    # aligned to prime-meridian mean midnight: mean solar time = 24 x sol fraction
-    d = (c.mean_solar_time_h - 24.0 * c.sol_fraction + 12.0) % 24.0 - 12.0
-    assert np.max(np.abs(d)) < 1e-5  # hours; float64 JD resolution ~ 4e-5 s
-    ltst = c.local_true_solar_time(np.array([lon, 0.0]))
-    assert ltst.shape == (c.n_steps, 2)
-    assert np.all((ltst >= 0) & (ltst < 24))
-    h = c.hour_angle_rad(lon)
-    assert np.all((h >= -np.pi) & (h < np.pi))
-    # the clock agrees with the stand-alone functions
-    np.testing.assert_allclose(ltst[:, 0], orbit.local_true_solar_time(c.jd_tt, lon), atol=1e-9)
-    assert np.all(np.diff(np.unwrap(np.deg2rad(c.ls_deg))) > 0)
-    with pytest.raises(ValueError):
-        c.time_s[0] = 1.0  # read-only arrays
+def test_orbit_does_not_import_clock():
+    # The clock imports orbit; orbit reaches make_clock/Clock only on demand (no import cycle).
+    code = ("import sys, wetcycle.orbit as o; assert 'wetcycle.clock' not in sys.modules; "
+            "from wetcycle.orbit import make_clock, Clock; import wetcycle.clock as c; "
+            "assert make_clock is c.make_clock and Clock is c.Clock")
+    subprocess.run([sys.executable, "-c", code], check=True)
+    with pytest.raises(AttributeError, match="no_such_name"):
+        orbit.no_such_name  # noqa: B018

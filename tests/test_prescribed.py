@@ -7,7 +7,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from wetcycle import orbit
+from wetcycle.clock import make_clock
 from wetcycle.errors import ConfigError, InputDataError
 from wetcycle.forcing import prescribed as pr
 
@@ -81,7 +81,7 @@ def test_demo_programme_file(tmp_path):
 
 
 def test_sinusoid_on_clock():
-    c = orbit.make_clock("mars", steps_per_sol=48, n_sols=1)
+    c = make_clock("mars", steps_per_sol=48, n_sols=1)
     temp = pr.Sinusoid(mean=210.0, diurnal_amplitude=40.0, diurnal_peak_h=13.0)
     rh = pr.Sinusoid(mean=0.3, diurnal_amplitude=0.2, diurnal_peak_h=1.0)
     f = pr.prescribed_forcing(c, 0.0, temp, relative_humidity=rh, surface_pressure_pa=650.0)

@@ -45,7 +45,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError, InputDataError
-from ..orbit import utc_to_jd_tt
+from ..timescales import utc_to_jd_tt
 from .prescribed import RANGES, ForcingSeries
 
 __all__ = ["read_csv_forcing", "read_netcdf_forcing", "CSV_COLUMNS", "NETCDF_UNITS", "NETCDF_NAMES"]
@@ -179,7 +179,7 @@ def read_csv_forcing(path, clock, *, gap_policy="refuse", max_gap_s=None, ignore
     Parameters
     ----------
     path : str or Path
-    clock : wetcycle.orbit.Clock    target grid (``time_s``), planet and start date
+    clock : wetcycle.clock.Clock    target grid (``time_s``), planet and start date
     gap_policy : "refuse" or "interpolate"
     max_gap_s : float [s], > 0      longest stretch filled when interpolating
     ignore_columns : iterable of str   extra columns to skip (others are refused)
@@ -275,7 +275,7 @@ def read_netcdf_forcing(path, clock, variables, *, gap_policy="refuse", max_gap_
     Parameters
     ----------
     path : str or Path
-    clock : wetcycle.orbit.Clock
+    clock : wetcycle.clock.Clock
     variables : dict
         Our name -> variable name in the file.  Our names: ``time``,
         ``temperature``, ``vapor_pressure`` or ``relative_humidity``, and

@@ -177,7 +177,7 @@ def prescribed_forcing(clock, east_longitude_deg, temperature, vapor_pressure=No
 
     Parameters
     ----------
-    clock : wetcycle.orbit.Clock
+    clock : wetcycle.clock.Clock
     east_longitude_deg : float or array [deg]   one value per cell
     temperature : Sinusoid [K]
     vapor_pressure : Sinusoid [Pa], optional
