@@ -1,0 +1,148 @@
+"""Forcing driver: blocks, state, chunking, spin-up (wetcycle.forcing.driver)."""
+
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+from wetcycle.clock import make_clock
+from wetcycle.errors import ConfigError, UnknownNameError
+from wetcycle.forcing import driver as dr
+from wetcycle.water import saturation_vapor_pressure_ice, saturation_vapor_pressure_liquid
+
+# Invented cells: equatorial, mid-latitude slope with a buried salt, ice-cemented
+# high-latitude soil.
+CELLS = dict(latitude_deg=[0.0, -40.0, 68.0], longitude_deg=[10.0, 200.0, 300.0],
+             elevation_m=[-2000.0, 1000.0, -4000.0], albedo=[0.22, 0.27, 0.2],
+             thermal_inertia=[250.0, 400.0, 200.0], slope_deg=[0.0, 15.0, 0.0],
+             slope_azimuth_deg=[0.0, 180.0, 0.0], salt_depth_m=[0.0, 0.01, 0.005],
+             layer2_depth_m=[np.inf, np.inf, 0.3])
+
+
+@pytest.fixture(scope="module")
+def setup():
+    clock = make_clock("mars", steps_per_sol=24, n_sols=4, start_ls=120.0)
+    cells = dr.make_cells(**CELLS)
+    model = dr.prepare_forcing(cells, clock)
+    return clock, cells, model
+
+
+def test_block_outputs_shapes_and_units(setup):
+    clock, cells, model = setup
+    state = dr.initial_state(model, clock)
+    new, out = dr.forcing_block(model, state, clock)
+    assert set(out) == set(dr.OUTPUT_UNITS)
+    for k, v in out.items():
+        assert v.shape == (clock.steps_per_sol, cells.n_cells), k
+        assert np.all(np.isfinite(v)), k
+    assert new.step == clock.steps_per_sol and state.step == 0
+    # RH definitions (Murphy & Koop 2005 via wetcycle.water), at the salt temperature
+    np.testing.assert_allclose(out["relative_humidity"] * saturation_vapor_pressure_liquid(
+        out["salt_temperature"]), out["vapor_pressure"], rtol=1e-12)
+    np.testing.assert_allclose(out["relative_humidity_ice"] * saturation_vapor_pressure_ice(
+        out["salt_temperature"]), out["vapor_pressure"], rtol=1e-12)
+    # a surface crust sees the surface temperature
+    np.testing.assert_array_equal(out["salt_temperature"][:, 0], out["surface_temperature"][:, 0])
+
+
+def test_blocks_chain_exactly(setup):
+    # One call over 2 sols == two 1-sol calls with the state carried (restartable).
+    clock, _, model = setup
+    s0 = dr.initial_state(model, clock)
+    s2, both = dr.forcing_block(model, s0, clock, 2 * clock.steps_per_sol)
+    s1, first = dr.forcing_block(model, s0, clock)
+    s1b, second = dr.forcing_block(model, s1, clock)
+    for k in both:
+        np.testing.assert_array_equal(both[k], np.concatenate([first[k], second[k]]))
+    np.testing.assert_array_equal(s2.energy.temperature, s1b.energy.temperature)
+    np.testing.assert_array_equal(s2.water_frost, s1b.water_frost)
+
+
+def test_results_do_not_depend_on_chunking(setup):
+    # A chunk is a pure function of its cells: each cell alone gives the same numbers
+    # as the three together (to 1e-9: vector and scalar remainder code paths).
+    clock, cells, model = setup
+    _, together = dr.forcing_block(model, dr.initial_state(model, clock), clock, 48)
+    for i in range(cells.n_cells):
+        one = dr.make_cells(**{k: [v[i]] for k, v in CELLS.items()})
+        m1 = dr.prepare_forcing(one, clock)
+        _, alone = dr.forcing_block(m1, dr.initial_state(m1, clock), clock, 48)
+        for k in together:
+            np.testing.assert_allclose(alone[k][:, 0], together[k][:, i], rtol=1e-9, atol=1e-12)
+
+
+def test_iter_forcing_covers_the_clock(setup):
+    clock, cells, model = setup
+    starts = []
+    state = dr.initial_state(model, clock)
+    for start, state, out in dr.iter_forcing(model, state, clock):
+        starts.append(start)
+        assert out["surface_temperature"].shape == (clock.steps_per_sol, cells.n_cells)
+    assert starts == list(range(0, clock.n_steps, clock.steps_per_sol))
+    assert state.step == clock.n_steps
+    with pytest.raises(ConfigError, match="past the clock"):
+        dr.forcing_block(model, state, clock)
+
+
+def test_spin_up_reaches_a_periodic_state():
+    # After spin-up, running the preceding year once more from the returned state
+    # changes the daily min/mean/max surface temperature by less than the tolerance.
+    clock = make_clock("mars", steps_per_sol=12, n_sols=2, start_ls=0.0)
+    cells = dr.make_cells([5.0, -70.0], [0.0, 90.0], thermal_inertia=[300.0, 150.0])
+    model = dr.prepare_forcing(cells, clock, dr.ForcingOptions(annual_depths=3.0))
+    su = dr.spin_up(model, clock, tol_k=0.1)
+    assert su.converged and 2 <= su.years <= 30 and su.changes[-1] < 0.1
+    again = dr.spin_up(model, clock, su.state, tol_k=0.1, lead_sols=0, accelerate=False)
+    assert again.years == 2 and again.changes[0] < 0.1
+
+
+def test_water_frost_at_cold_cell_holds_ice_saturation():
+    # Where water frost lies the vapour pressure equals p_ice(T_s) (Murphy & Koop
+    # 2005 eq. 7), so a surface salt sees RH_ice = 1.
+    clock = make_clock("mars", steps_per_sol=24, n_sols=3, start_ls=120.0)
+    cells = dr.make_cells([-75.0], [0.0])
+    model = dr.prepare_forcing(cells, clock, dr.ForcingOptions(vmr=3e-4))
+    _, out = dr.forcing_block(model, dr.initial_state(model, clock), clock, 72)
+    frosty = out["water_frost"][:, 0] > 0
+    assert frosty.any()
+    np.testing.assert_allclose(out["relative_humidity_ice"][frosty, 0], 1.0, rtol=1e-9)
+
+
+def test_column_vapour_source_and_registry(setup):
+    clock, cells, _ = setup
+    model = dr.prepare_forcing(cells, clock, dr.ForcingOptions(vapour="column"))
+    _, out = dr.forcing_block(model, dr.initial_state(model, clock), clock)
+    assert np.all(out["vapor_pressure"] >= 0)
+    with pytest.raises(UnknownNameError, match="vapour"):
+        dr.prepare_forcing(cells, clock, dr.ForcingOptions(vapour="nonesuch"))
+
+
+def test_ice_layer_properties_reach_the_columns(setup):
+    # The ice-cemented layer of cell 3 (top at 0.3 m; default invented properties
+    # I = 2000, rho = 2000, c = 1000) sets k = I^2 / (rho c) below 0.3 m.
+    _, cells, model = setup
+    cols = model.energy.columns
+    z = cols.depth[:, 2]
+    k_el = cols.conductance[:-1, 2] * np.diff(z)
+    below, above = z[:-1] >= 0.3, z[1:] <= 0.3
+    np.testing.assert_allclose(k_el[below], 2000.0**2 / (2000.0 * 1000.0), rtol=1e-12)
+    np.testing.assert_allclose(k_el[above], 200.0**2 / (1500.0 * 800.0), rtol=1e-12)
+
+
+def test_driver_imports_nothing_from_phase_or_salts():
+    code = ("import sys, wetcycle.forcing.driver; "
+            "bad = [m for m in sys.modules if m.startswith(('wetcycle.phase', 'wetcycle.salts'))]; "
+            "print(bad); sys.exit(1 if bad else 0)")
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert r.returncode == 0, r.stdout + r.stderr
+
+
+def test_block_hour_angle_matches_the_clock():
+    # The driver evaluates the hour angle on each block's slice; it must equal the
+    # clock's own definition (plus half a step, the middle of the step), mod 2 pi.
+    clock = make_clock("mars", steps_per_sol=24, n_sols=3, start_ls=33.0)
+    h = dr._hour_angle0(clock, 10, 50)
+    ref = clock.hour_angle_rad(0.0)[10:50] + np.pi / 24
+    np.testing.assert_allclose(np.cos(h), np.cos(ref), atol=1e-12)
+    np.testing.assert_allclose(np.sin(h), np.sin(ref), atol=1e-12)
