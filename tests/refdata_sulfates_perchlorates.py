@@ -39,7 +39,10 @@ EUTECTIC_NACLO4_T_UNCERTAINTY = 1.0  # K, as stated by the authors
 #: abstract). Flag: read (T, composition); solid identity (octahydrate) from
 #: memory. Also a fit table in MgClO42.toml. NOTE: the data file omits the
 #: octahydrate (no peritectic found) and models the eutectic with the
-#: hexahydrate: compare T and composition only.
+#: hexahydrate: compare T and composition only. Toner, Catling & Light (2015),
+#: GCA 166, 327 (abstract, read) end a frozen Mg-Na-ClO4-rich mixed brine with
+#: Mg(ClO4)2·6H2O (not an octahydrate) at its 209 K eutectic; so the octahydrate
+#: as the binary eutectic solid stays unconfirmed.
 EUTECTIC_MGCLO42 = (206.0, 0.440, ("ice", "Mg(ClO4)2·8H2O"))
 EUTECTIC_MGCLO42_T_UNCERTAINTY = 1.0  # K, as stated
 
@@ -83,7 +86,9 @@ PERITECTIC_MGSO4_7_6_T = 321.35
 
 #: Gough et al. 2011, EPSL 312, 371, abstract. Flag: read.  NaClO4·H2O: 51% at
 #: 273 K -> 64% at 228 K (fit table in NaClO4.toml); Mg(ClO4)2·6H2O: 42% at
-#: 273 K -> 64% at 223 K (fit table in MgClO42.toml); anhydrous NaClO4 ~38%,
+#: 273 K -> 64% at 223 K (273 K row: fit table in MgClO42.toml; 223 K row: held out,
+#: since 0.64 exceeds a_w,ice(223 K) = 0.623 and no model with the 206 K eutectic
+#: can reach it); anhydrous NaClO4 ~38%,
 #: nearly independent of T (fit table).  Lab DRH by Raman microscopy; the
 #: authors' scatter is a few % RH.
 DRH_NACLO4_H2O_GOUGH2011 = {273.0: 0.51, 228.0: 0.64}
