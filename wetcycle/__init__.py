@@ -1,3 +1,16 @@
-"""wetcycle: salts and brines at the surface of present-day Mars and cold, dry analog sites."""
+"""wetcycle: salts and brines at the surface of present-day Mars and cold, dry analog sites.
+
+Top-level helpers are imported lazily so that ``import wetcycle`` stays light
+and compiles nothing.
+"""
 
 __version__ = "0.1.0"
+
+__all__ = ["run_series", "__version__"]
+
+
+def __getattr__(name):
+    if name == "run_series":
+        from .series import run_series
+        return run_series
+    raise AttributeError(f"module 'wetcycle' has no attribute {name!r}")

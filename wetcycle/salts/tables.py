@@ -117,3 +117,89 @@ def molality_from_table_array(aw, T, T0, dT, ds, m, out):
     for k in range(aw.shape[0]):
         out[k] = molality_from_table(aw[k], T[k], T0, dT, ds, m)
     return out
+
+
+@dataclass(frozen=True)
+class PhaseTables:
+    """Everything the phase-state kernel needs about one salt system, as plain arrays.
+
+    Temperature tables run on a regular grid ``T0 + i*dT`` over the system's
+    validity range.  Per solid s (index order of ``system.solids``):
+    ``lnk[s, i]`` (ln K), ``msat[s, i]`` (dilute-branch saturation molality,
+    NaN where none below m_max) and ``drh[s, i]`` (its deliquescence RH).
+    ``stable[i]`` is the index of the stable solid (least soluble), ``mice[i]``
+    the ice-liquidus molality (NaN above 273.15 K or beyond m_max; continued
+    metastably below the eutectic).  ``hydration[s]`` holds the waters of
+    hydration.  Scalars: eutectic temperature ``T_eut`` and its solid index,
+    the supercooling limit ``T_super`` and the efflorescence RH ``erh`` (NaN:
+    none published, crystallise at the DRH).  ``inverse`` is the
+    :class:`InverseTable`.
+    """
+
+    name: str
+    T0: float
+    dT: float
+    lnk: np.ndarray
+    msat: np.ndarray
+    drh: np.ndarray
+    stable: np.ndarray
+    mice: np.ndarray
+    hydration: np.ndarray
+    T_eut: float
+    eut_solid: int
+    T_super: float
+    erh: float
+    molar_mass: float
+    T_min: float
+    T_max: float
+    m_max: float
+    packed: np.ndarray
+    inverse: InverseTable
+
+    @property
+    def scalars(self):
+        """(T_eut, eut_solid, T_super, erh, T_min, T_max, m_max) for the kernel."""
+        return np.array([self.T_eut, self.eut_solid, self.T_super, self.erh, self.T_min, self.T_max, self.m_max])
+
+
+def build_phase_tables(system, dT=0.25):
+    """Build :class:`PhaseTables` for ``system`` (a :class:`~wetcycle.salts.SaltSystem`).
+
+    Parameters
+    ----------
+    system : SaltSystem
+    dT : float [K]
+        Spacing of the temperature tables.
+    """
+    from ..water import ice_activity_kernel  # noqa: F401  (kernel used inside system methods)
+
+    T = np.arange(system.T_min, system.T_max + 1e-9, dT)
+    T[-1] = min(T[-1], system.T_max)
+    ns = len(system.solids)
+    lnk = np.array([s.ln_k(T) for s in system.solids])
+    msat = np.array([system._sat(s, T) for s in system.solids])
+    drh = np.full_like(msat, np.nan)
+    for k in range(ns):
+        ok = np.isfinite(msat[k])
+        if ok.any():
+            drh[k, ok] = system.water_activity(msat[k, ok], T[ok])
+    stable, _ = system._stable(T)
+    mice = np.asarray(system.ice_liquidus_molality(T), dtype=float)
+    eut = system.eutectic()
+    if eut is None:
+        T_eut, eut_solid = system.T_min, int(stable[0])
+    else:
+        T_eut = float(eut["temperature_K"])
+        eut_solid = system.solid_names.index(eut["solids"][1])
+    T_super = system.supercooling_limit
+    T_super = float(T_super) if T_super is not None else T_eut
+    erh = system.efflorescence_rh
+    erh = float(erh) if erh is not None else np.nan
+    return PhaseTables(
+        name=system.name, T0=float(T[0]), dT=float(dT), lnk=lnk, msat=msat, drh=drh,
+        stable=stable.astype(np.int64), mice=mice,
+        hydration=np.array([s.hydration for s in system.solids], dtype=float),
+        T_eut=T_eut, eut_solid=eut_solid, T_super=max(T_super, system.T_min), erh=erh,
+        molar_mass=system.molar_mass, T_min=system.T_min, T_max=system.T_max, m_max=system.m_max,
+        packed=system.packed, inverse=build_inverse_table(system),
+    )

@@ -1,0 +1,66 @@
+"""The one table of output variable names, units, long names and CF standard names.
+
+Readers map outside names into these; the writer takes every attribute from
+here.  Units follow UDUNITS; standard names are CF standard names where CF has
+one (CF Standard Name Table v84), otherwise omitted.
+"""
+
+from .phase.states import FLAG_MEANINGS, FLAG_VALUES
+
+#: name -> (units, long_name, standard_name or None)
+VARIABLES = {
+    # coordinates
+    "time": ("s", "time since the start of the run", "time"),
+    "sol": ("1", "sol number since the start of the run", None),
+    "solar_longitude": ("degree", "areocentric solar longitude Ls", None),
+    "local_solar_time": ("hour", "local true solar time", None),
+    "latitude": ("degree_north", "latitude", "latitude"),
+    "longitude": ("degree_east", "longitude", "longitude"),
+    # forcing
+    "surface_temperature": ("K", "surface temperature", "surface_temperature"),
+    "salt_temperature": ("K", "temperature at the depth of the salt", None),
+    "vapor_pressure": ("Pa", "partial pressure of water vapour at the surface", "water_vapor_partial_pressure_in_air"),
+    "relative_humidity": ("1", "relative humidity with respect to liquid water at the salt", "relative_humidity"),
+    "relative_humidity_ice": ("1", "relative humidity with respect to ice at the salt", None),
+    "surface_pressure": ("Pa", "surface air pressure", "surface_air_pressure"),
+    "water_frost": ("kg m-2", "surface water frost per unit area", None),
+    "co2_frost": ("kg m-2", "surface CO2 frost per unit area", None),
+    # phase state
+    "phase_state": ("1", "phase state of the salt", None),
+    "brine_water_activity": ("1", "water activity of the brine (NaN without brine)", None),
+    "liquid_water": ("kg m-2", "liquid water held as brine per unit area", None),
+    "hydrate_water": ("kg m-2", "water held in salt hydrates per unit area", None),
+    "ice_water": ("kg m-2", "water held as ice formed from the salt's brine per unit area", None),
+    "liquid_fraction": ("1", "fraction of the step with liquid brine present", None),
+    "water_exchanged": ("kg m-2", "water taken up from vapour or frost during the step (negative: lost)", None),
+    "validity_flag": ("1", "model validity flag of the step", None),
+    # statistics
+    "liquid_hours_per_year": ("hour", "hours per year with liquid brine", None),
+    "longest_liquid_spell_hours": ("hour", "longest continuous spell with liquid brine", None),
+    "wet_events_per_year": ("1", "number of transitions from no liquid to liquid per year", None),
+    "habitable_hours_per_year": ("hour", "hours per year with brine meeting both habitability thresholds", None),
+    "liquid_hours_by_ls": ("hour", "hours per year with liquid brine, by Ls bin", None),
+    "liquid_hours_by_local_time": ("hour", "hours per year with liquid brine, by local-time bin", None),
+    "liquid_temperature_min": ("K", "lowest temperature of the liquid brine", None),
+    "liquid_temperature_max": ("K", "highest temperature of the liquid brine", None),
+    "liquid_water_activity_min": ("1", "lowest water activity of the liquid brine", None),
+    "liquid_water_activity_max": ("1", "highest water activity of the liquid brine", None),
+    "clamped_steps": ("1", "steps whose temperature lay outside the salt's validity range", None),
+}
+
+#: Extra attributes for categorical variables (CF flags).
+FLAGS = {
+    "phase_state": dict(flag_values=list(FLAG_VALUES), flag_meanings=FLAG_MEANINGS),
+    "validity_flag": dict(flag_values=[0, 1, 2],
+                          flag_meanings="ok temperature_outside_salt_validity molality_limit_crystallised"),
+}
+
+
+def attrs(name):
+    """CF attributes of a variable from the vocabulary."""
+    units, long_name, std = VARIABLES[name]
+    out = {"units": units, "long_name": long_name}
+    if std:
+        out["standard_name"] = std
+    out.update(FLAGS.get(name, {}))
+    return out
