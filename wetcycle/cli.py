@@ -106,18 +106,65 @@ def cmd_salt(args):
     return 0
 
 
-def cmd_demo(args):
-    """The built-in demo: the salt table, then one system followed through the cold."""
-    from . import salts
+DEMO_SCENARIO = "runs/demo.toml"
 
-    print("wetcycle demo: salt-water systems available to the phase model\n")
-    cmd_salts(argparse.Namespace(json=False))
-    name = "NaCl" if "NaCl" in salts.names() else salts.names()[0]
-    s = salts.load(name)
-    temps = [t for t in (298.15, 273.15, 263.15, 253.15, 243.15, 233.15) if s.T_min <= t <= s.T_max]
-    print(f"\n{name} followed from room temperature into the cold:\n")
-    cmd_salt(argparse.Namespace(name=name, at=temps, json=False))
-    print(f"\n{CAUTION}")
+
+def _demo_path():
+    from pathlib import Path
+    here = Path.cwd() / DEMO_SCENARIO
+    if here.is_file():
+        return here
+    from .errors import ConfigError
+    raise ConfigError(f"demo: {DEMO_SCENARIO} not found in {Path.cwd()}; run the demo from the top of a "
+                      "wetcycle checkout")
+
+
+def cmd_run(args):
+    from .output import summary_text
+    from .run import run
+
+    ds = run(args.scenario, progress=not args.quiet, output_path=args.output)
+    from .config import load_scenario
+    out = args.output or load_scenario(args.scenario).output_path
+    print(summary_text(ds))
+    print(f"result written to {out}")
+    return 0
+
+
+def cmd_demo(args):
+    """The built-in demo: the demo scenario (invented site), then its table."""
+    path = _demo_path()
+    print(f"wetcycle demo: {path.name}, one Mars year at an invented mid-latitude site\n")
+    return cmd_run(argparse.Namespace(scenario=path, output=None, quiet=args.quiet))
+
+
+def cmd_summary(args):
+    from .output import open_result, summary_text
+
+    print(summary_text(open_result(args.result)))
+    return 0
+
+
+def cmd_plot(args):
+    from .output import open_result
+    from .plots import plot_result
+
+    ds = open_result(args.result)
+    path = plot_result(ds, args.output, sols=tuple(args.sols) if args.sols else None,
+                       salts=args.salt or None)
+    print(f"figure written to {path}")
+    return 0
+
+
+def cmd_diagram(args):
+    from .plots import plot_diagram
+
+    traj = None
+    if args.trajectory:
+        from .output import open_result
+        traj = open_result(args.trajectory)
+    path = plot_diagram(args.name, args.output, trajectory=traj)
+    print(f"figure written to {path}")
     return 0
 
 
@@ -141,9 +188,40 @@ def build_parser():
     p1.add_argument("--json", action="store_true", help="print one JSON object")
     p1.set_defaults(func=cmd_salt)
 
-    pd = sub.add_parser("demo", help="run the built-in demonstration",
-                        description="Run the built-in demonstration and print its results.")
+    pr = sub.add_parser("run", help="run a scenario and print its table",
+                        description="Run a scenario (TOML) and write its NetCDF result; print liquid hours, "
+                        "longest spell and habitable hours per salt.")
+    pr.add_argument("scenario", help="scenario TOML file (see runs/demo.toml)")
+    pr.add_argument("-o", "--output", help="NetCDF result path (default: the scenario's output)")
+    pr.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
+    pr.set_defaults(func=cmd_run)
+
+    pd = sub.add_parser("demo", help="run the built-in demo scenario",
+                        description=f"Run {DEMO_SCENARIO} (an invented site) from the top of a checkout.")
+    pd.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
     pd.set_defaults(func=cmd_demo)
+
+    pm = sub.add_parser("summary", help="the table of a result file",
+                        description="Print the per-salt table of a result file.")
+    pm.add_argument("result", help="NetCDF result written by wetcycle run")
+    pm.set_defaults(func=cmd_summary)
+
+    pp = sub.add_parser("plot", help="figure of a result: T, RH, states, liquid hours by Ls",
+                        description="Multi-panel figure of temperature, humidity and the state of each salt "
+                        "over chosen sols, and liquid hours by Ls.")
+    pp.add_argument("result", help="NetCDF result")
+    pp.add_argument("-o", "--output", required=True, help="figure path (PNG, PDF, SVG)")
+    pp.add_argument("--sols", type=int, nargs=2, metavar=("FIRST", "LAST"), help="sols to show")
+    pp.add_argument("--salt", action="append", help="salt to show (repeatable; default all)")
+    pp.set_defaults(func=cmd_plot)
+
+    pg = sub.add_parser("diagram", help="temperature-RH phase diagram of a salt system",
+                        description="Phase diagram of one salt-water system in temperature and relative "
+                        "humidity, optionally with a run's forcing trajectory.")
+    pg.add_argument("name", help="salt system, e.g. NaCl, 'Mg(ClO4)2'")
+    pg.add_argument("--trajectory", help="result file whose series to draw on the diagram")
+    pg.add_argument("-o", "--output", required=True, help="figure path")
+    pg.set_defaults(func=cmd_diagram)
     return p
 
 

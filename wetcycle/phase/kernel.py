@@ -84,7 +84,7 @@ T_MELT = 273.15
 S_TEUT, S_EUTSOLID, S_TSUPER, S_ERH, S_TMIN, S_TMAX, S_MMAX = 0, 1, 2, 3, 4, 5, 6
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", error_model="numpy")
 def _loc(T, T0, dT, n):
     x = (T - T0) / dT
     if x <= 0.0:
@@ -95,7 +95,7 @@ def _loc(T, T0, dT, n):
     return i, x - i
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", error_model="numpy")
 def _lin(row, i, f):
     a = row[i]
     b = row[i + 1]
@@ -106,12 +106,12 @@ def _lin(row, i, f):
     return a + f * (b - a)
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", error_model="numpy")
 def _stable(stable, i, f):
     return stable[i] if f < 0.5 else stable[i + 1]
 
 
-@njit(cache=True)
+@njit(cache=True, error_model="numpy")
 def _hydrate_at(lnk, hyd, i, f, ln_aw):
     """Stable solid at water activity exp(ln_aw): argmin_s ln K_s - n_s ln a_w."""
     best = 0
@@ -124,7 +124,7 @@ def _hydrate_at(lnk, hyd, i, f, ln_aw):
     return best
 
 
-@njit(cache=True)
+@njit(cache=True, error_model="numpy")
 def _partition(n, W, T, i, f, msat, stable, mice, hyd, k_prev, allow_supersat, erh, T_eut, p, m_max):
     """Lever rule for a closed parcel: returns (state, solid, w_hyd, w_brine, w_ice, n_diss)."""
     ks = _stable(stable, i, f)
@@ -158,12 +158,12 @@ def _partition(n, W, T, i, f, msat, stable, mice, hyd, k_prev, allow_supersat, e
     return BRINE_WITH_SALT, ks, x * nk * MW, nd / ms, 0.0, nd
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", error_model="numpy")
 def _is_liquid(st):
     return st == BRINE or st == SUPERSATURATED or st == BRINE_WITH_SALT or st == BRINE_WITH_ICE or st == SUPERCOOLED
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", error_model="numpy")
 def _frac(ga, gb):
     """Fraction of the step at which a linear criterion going from ga to gb crosses zero."""
     d = ga - gb
@@ -173,16 +173,16 @@ def _frac(ga, gb):
     return min(max(t, 0.0), 1.0)
 
 
-@njit(cache=True)
+@njit(cache=True, error_model="numpy")
 def _aw_of(n_diss, w_brine, T, p):
     if w_brine <= 0.0:
         return math.nan
     return math.exp(pz.ln_aw_kernel(n_diss / w_brine, T, p))
 
 
-@njit(cache=True)
+@njit(cache=True, error_model="numpy")
 def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
-               T0, dT, lnk, msat, drh, stable, mice, hyd, scal, p, inv_T0, inv_dT, inv_ds, inv_m,
+               T0, dT, lnk, msat, drh, stable, mice, awice, hyd, scal, p, inv_T0, inv_dT, inv_ds, inv_m,
                st, solid, w_hyd, w_brine, w_ice, n_diss, prev, started,
                out_state, out_liq, out_aw, out_wb, out_wh, out_wi, out_exch, out_flag):
     """Advance every cell through ``T.shape[0]`` samples.
@@ -204,6 +204,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
     """
     nstep, ncell = T.shape
     nT = lnk.shape[1]
+    nsolid = hyd.shape[0]
     T_eut, T_sup, erh = scal[S_TEUT], scal[S_TSUPER], scal[S_ERH]
     T_min, T_max, m_max = scal[S_TMIN], scal[S_TMAX], scal[S_MMAX]
     for k in range(nstep):
@@ -229,14 +230,15 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             kk = solid[c]
             wh, wb, wi, nd = w_hyd[c], w_brine[c], w_ice[c], n_diss[c]
             W0 = wh + wb + wi
-            aw_i = ice_activity_kernel(Tb) if Tb <= T_MELT else 2.0
-            psat = psat_liquid_kernel(Tb)
+            aw_i = _lin(awice, ib, fb) if Tb <= T_MELT else 2.0
+            psat = 0.0
             kx = 0.0
-            if not instant:
-                D = dfactor * D_REF * (Tb / 273.15) ** 1.5 * (1e5 / max(P[k, c], 1.0))
+            if not instant and (s0 != CRYSTALLINE or RHb >= _lin(drh[kk], ib, fb)):
+                psat = psat_liquid_kernel(Tb)
+                D = dfactor * D_REF * (Tb / 273.15) * math.sqrt(Tb / 273.15) * (1e5 / max(P[k, c], 1.0))
                 kx = D * MW / (R_GAS * Tb * layer_m)  # kg m-2 s-1 Pa-1
             liq = 0.0
-            lnrh = math.log(RHb)
+            lnrh = math.log(RHb) if nsolid > 1 else 0.0
             if s0 == CRYSTALLINE:
                 d_b = _lin(drh[kk], ib, fb)
                 if Fb > 0.0 and Tb >= T_eut and Tb <= T_MELT:
@@ -266,7 +268,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                                                             kk, False, erh, T_eut, p, m_max)
                     liq = (1.0 - tau) if _is_liquid(s1) else 0.0
                 else:
-                    k_new = _hydrate_at(lnk, hyd, ib, fb, lnrh)
+                    k_new = _hydrate_at(lnk, hyd, ib, fb, lnrh) if nsolid > 1 else kk
                     s1 = CRYSTALLINE
                     if k_new != kk:
                         kk = k_new
@@ -357,13 +359,12 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                                 W = 0.0  # reached the model's molality limit before the efflorescence RH
                                 flag = 2
                         W = max(W, 0.0)
-                    aw_new = _aw_of(n, W, Tb, p) if W > 0 else 0.0
-                    allow = (not had_crystals) and (erh == erh) and (aw_new >= erh)
+                    allow = (not had_crystals) and (erh == erh) and W > 0.0  # _partition checks a_w >= ERH
                     s1, kk, wh, wb, wi, nd = _partition(n, W, Tb, ib, fb, msat, stable, mice, hyd, kk,
                                                         allow, erh, T_eut, p, m_max)
                     if s1 == CRYSTALLINE:
                         if instant:
-                            kk = _hydrate_at(lnk, hyd, ib, fb, lnrh)
+                            kk = _hydrate_at(lnk, hyd, ib, fb, math.log(RHb)) if nsolid > 1 else kk
                             wh = n * hyd[kk] * MW
                             wb, wi, nd = 0.0, 0.0, 0.0
                             if s0 == BRINE_WITH_SALT:
@@ -401,7 +402,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             prev[0, c], prev[1, c], prev[2, c] = Tb_raw, RHb, Fb
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, inline="always", error_model="numpy")
 def wb_prev_frac(W0, wh_new, dW):
     """Fraction of a vapour-limited step during which brine remained while it dried out."""
     liquid0 = W0 - wh_new

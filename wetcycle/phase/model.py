@@ -165,7 +165,7 @@ class PhaseModel:
         kernel.step_block(
             T, RH, P, F, dt, state.n_salt, self.law == "equilibrium",
             float(self.layer_thickness_m), float(self.diffusivity_factor),
-            tb.T0, tb.dT, tb.lnk, tb.msat, tb.drh, tb.stable, tb.mice, tb.hydration, tb.scalars, tb.packed,
+            tb.T0, tb.dT, tb.lnk, tb.msat, tb.drh, tb.stable, tb.mice, tb.awice, tb.hydration, tb.scalars, tb.packed,
             inv.T0, inv.dT, inv.ds, inv.m,
             state.phase, state.solid, state.w_hyd, state.w_brine, state.w_ice, state.n_diss,
             state.prev, state.started,

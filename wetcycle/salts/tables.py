@@ -129,7 +129,8 @@ class PhaseTables:
     NaN where none below m_max) and ``drh[s, i]`` (its deliquescence RH).
     ``stable[i]`` is the index of the stable solid (least soluble), ``mice[i]``
     the ice-liquidus molality (NaN above 273.15 K or beyond m_max; continued
-    metastably below the eutectic).  ``hydration[s]`` holds the waters of
+    metastably below the eutectic), ``awice[i]`` the water activity of ice
+    (Murphy & Koop 2005; 2.0 above 273.15 K, where ice cannot exist).  ``hydration[s]`` holds the waters of
     hydration.  Scalars: eutectic temperature ``T_eut`` and its solid index,
     the supercooling limit ``T_super`` and the efflorescence RH ``erh`` (NaN:
     none published, crystallise at the DRH).  ``inverse`` is the
@@ -144,6 +145,7 @@ class PhaseTables:
     drh: np.ndarray
     stable: np.ndarray
     mice: np.ndarray
+    awice: np.ndarray
     hydration: np.ndarray
     T_eut: float
     eut_solid: int
@@ -185,6 +187,8 @@ def build_phase_tables(system, dT=0.25):
             drh[k, ok] = system.water_activity(msat[k, ok], T[ok])
     stable, _ = system._stable(T)
     mice = np.asarray(system.ice_liquidus_molality(T), dtype=float)
+    from ..water import ice_water_activity
+    awice = np.where(T <= 273.15, ice_water_activity(np.clip(T, 123.0, 273.15)), 2.0)
     eut = system.eutectic()
     if eut is None:
         T_eut, eut_solid = system.T_min, int(stable[0])
@@ -197,7 +201,7 @@ def build_phase_tables(system, dT=0.25):
     erh = float(erh) if erh is not None else np.nan
     return PhaseTables(
         name=system.name, T0=float(T[0]), dT=float(dT), lnk=lnk, msat=msat, drh=drh,
-        stable=stable.astype(np.int64), mice=mice,
+        stable=stable.astype(np.int64), mice=mice, awice=awice,
         hydration=np.array([s.hydration for s in system.solids], dtype=float),
         T_eut=T_eut, eut_solid=eut_solid, T_super=max(T_super, system.T_min), erh=erh,
         molar_mass=system.molar_mass, T_min=system.T_min, T_max=system.T_max, m_max=system.m_max,

@@ -1,0 +1,177 @@
+"""Scenarios end to end: validation, the demo (short), NetCDF results, statistics, the command.
+
+Checks against outside references where the result has one: CF-1.8 attribute
+conventions (units, flag_values/flag_meanings); liquid hours equal the sum of the
+saved liquid fractions times the step (definition, common practice); the Mars sol
+length of Allison & McEwen (2000) in the clock.
+"""
+
+import shutil
+import tomllib
+from pathlib import Path
+
+import numpy as np
+import pytest
+import xarray as xr
+
+import wetcycle
+from wetcycle import cli
+from wetcycle.config import load_scenario, scenario_from_dict
+from wetcycle.errors import ConfigError
+from wetcycle.output import open_result
+from wetcycle.phase import states
+from wetcycle.run import run
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "runs" / "demo.toml"
+
+
+def short_demo(tmp_path, **clock):
+    doc = tomllib.loads(DEMO.read_text())
+    doc["clock"].update(dict(sols=4, spinup_max_years=2, steps_per_sol=48), **clock)
+    doc["clock"].pop("years", None)
+    doc["scenario"]["output"] = str(tmp_path / "short.nc")
+    return scenario_from_dict(doc, text=DEMO.read_text(), base_dir=DEMO.parent, source="demo.toml")
+
+
+@pytest.fixture(scope="module")
+def demo_result(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("demo")
+    sc = short_demo(tmp)
+    ds = run(sc)
+    return ds, tmp / "short.nc"
+
+
+SERIES = ("surface_temperature", "salt_temperature", "vapor_pressure", "relative_humidity",
+          "relative_humidity_ice", "phase_state", "brine_water_activity", "liquid_water",
+          "hydrate_water", "ice_water")
+STATS = ("liquid_hours_per_year", "longest_liquid_spell_hours", "wet_events_per_year",
+         "habitable_hours_per_year", "liquid_hours_by_ls", "liquid_hours_by_local_time",
+         "liquid_temperature_min", "liquid_temperature_max", "liquid_water_activity_min",
+         "liquid_water_activity_max")
+
+
+def test_demo_netcdf_has_the_variables_and_cf_attributes(demo_result):
+    ds, path = demo_result
+    back = open_result(path)
+    for v in SERIES + STATS:
+        assert v in back, v
+        assert "units" in back[v].attrs and "long_name" in back[v].attrs
+    for c in ("sol", "solar_longitude", "local_solar_time", "salt", "site", "time"):
+        assert c in back.coords
+    # CF-1.8 flags for the categorical state
+    fv = list(back.phase_state.attrs["flag_values"])
+    assert fv == list(states.FLAG_VALUES)
+    assert back.phase_state.attrs["flag_meanings"].split() == list(states.NAMES)
+    assert back.attrs["Conventions"] == "CF-1.8"
+    assert back.attrs["wetcycle_version"] == wetcycle.__version__
+    assert "[[salt]]" in back.attrs["scenario"] and "not evidence" in back.attrs["caution"]
+    assert list(back.salt.values) == ["Ca(ClO4)2", "CaCl2", "MgSO4"]
+
+
+def test_clock_and_coordinates(demo_result):
+    ds, _ = demo_result
+    dt = np.diff(ds.time.values)
+    # Allison & McEwen (2000): 1 sol = 88775.244 s; 48 steps per sol
+    assert np.allclose(dt, 88775.244 / 48, rtol=1e-6)
+    assert ds.sol.values[0] == 0 and ds.sol.values[-1] == 3
+    assert np.all((ds.local_solar_time >= 0) & (ds.local_solar_time < 24))
+
+
+def test_statistics_agree_with_saved_series(demo_result):
+    ds, _ = demo_result
+    dt = float(np.diff(ds.time.values)[0])
+    years = ds.attrs["years"]
+    liquid_h = (ds.liquid_fraction.sum("time") * dt / 3600.0 / years)
+    assert np.allclose(liquid_h.values, ds.liquid_hours_per_year.values, rtol=1e-5)
+    assert np.allclose(ds.liquid_hours_by_ls.sum("ls_bin"), ds.liquid_hours_per_year, rtol=1e-5)
+    assert np.allclose(ds.liquid_hours_by_local_time.sum("hour_bin"), ds.liquid_hours_per_year, rtol=1e-5)
+    assert np.all(ds.habitable_hours_per_year <= ds.liquid_hours_per_year + 1e-9)
+    # liquid_water > 0 exactly when the state is a liquid one
+    assert np.array_equal((ds.liquid_water > 0).values, np.isin(ds.phase_state.values, states.LIQUID))
+
+
+def test_water_conserved_in_the_run(demo_result):
+    ds, _ = demo_result
+    W = (ds.liquid_water + ds.hydrate_water + ds.ice_water)
+    assert np.all(W >= 0)
+
+
+def test_scenario_errors_are_one_line(tmp_path):
+    base = tomllib.loads(DEMO.read_text())
+    cases = [
+        (("site", 0, "latitude"), 95.0, "latitude"),
+        (("site", 0, "albedo"), "bright", "albedo"),
+        (("salt", 0, "name"), "NaBr9", "salt[1].name"),
+        (("phase", None, "law"), "magic", "phase.law"),
+        (("clock", None, "steps_per_sol"), 2, "steps_per_sol"),
+        (("forcing", None, "kind"), "crystal_ball", "forcing.kind"),
+    ]
+    for (table, idx, key), value, expect in cases:
+        doc = tomllib.loads(DEMO.read_text())
+        (doc[table][idx] if idx is not None else doc[table])[key] = value
+        with pytest.raises(ConfigError) as exc:
+            scenario_from_dict(doc, source="demo.toml")
+        msg = str(exc.value)
+        assert expect in msg and "\n" not in msg and repr(value) in msg or str(value) in msg
+    doc = tomllib.loads(DEMO.read_text())
+    doc["site"][0]["colour"] = "red"
+    with pytest.raises(ConfigError, match="unknown key"):
+        scenario_from_dict(doc)
+
+
+def test_cli_bad_scenario_exit_2_and_nothing_written(tmp_path, capsys):
+    text = DEMO.read_text().replace("latitude = 42.0", "latitude = 142.0")
+    p = tmp_path / "bad.toml"
+    p.write_text(text)
+    code = cli.main(["run", str(p), "-o", str(tmp_path / "out.nc"), "-q"])
+    err = capsys.readouterr().err
+    assert code == 2 and err.count("\n") == 1 and "latitude" in err
+    assert not (tmp_path / "out.nc").exists()
+    assert list(tmp_path.iterdir()) == [p]
+
+
+def test_cli_run_and_summary(tmp_path, capsys):
+    sc_text = DEMO.read_text().replace("years = 1.0", "sols = 2").replace("spinup_max_years = 10",
+                                                                           "spinup_max_years = 0")
+    p = tmp_path / "tiny.toml"
+    p.write_text(sc_text.replace('output = "demo/demo.nc"', 'output = "tiny.nc"'))
+    assert cli.main(["run", str(p), "-q"]) == 0
+    out = capsys.readouterr().out
+    assert "Ca(ClO4)2" in out and "Caution" in out and "tiny.nc" in out
+    assert cli.main(["summary", str(tmp_path / "tiny.nc")]) == 0
+    assert "liquid h/yr" in capsys.readouterr().out
+    assert not any(f.name.endswith(".tmp") for f in tmp_path.iterdir())
+
+
+def test_chamber_scenario_runs(tmp_path):
+    # The invented chamber programme of forcing/chamber_demo.toml replayed on CaCl2 (its ramp at
+    # 243 K is below the NaCl eutectic, where a salt does not deliquesce in the model).
+    doc = {
+        "scenario": {"name": "chamber", "output": str(tmp_path / "c.nc")},
+        "clock": {"step_s": 60.0},
+        "site": [{"name": "chamber", "latitude": 0.0, "longitude": 0.0}],
+        "forcing": {"kind": "chamber", "programme": str(ROOT / "forcing" / "chamber_demo.toml")},
+        "salt": [{"name": "CaCl2", "loading": 0.01}],
+    }
+    ds = run(scenario_from_dict(doc))
+    assert ds.sizes["time"] > 100
+    assert float(ds.liquid_hours_per_year.sel(salt="CaCl2").values[0]) > 0  # the RH ramp passes the DRH
+
+
+def test_file_scenario_runs(tmp_path):
+    # The invented CSV series of an imaginary Earth analog site (forcing/analog_site_demo.csv).
+    import csv
+    rows = list(csv.reader(l for l in open(ROOT / "forcing" / "analog_site_demo.csv") if not l.startswith("#")))
+    start = rows[1][0]
+    doc = {
+        "scenario": {"name": "analog", "planet": "earth", "output": str(tmp_path / "a.nc")},
+        "clock": {"start_utc": start, "sols": 1, "steps_per_sol": 48},
+        "site": [{"name": "Site Kestrel", "latitude": -24.0, "longitude": 10.0}],
+        "forcing": {"kind": "file", "path": str(ROOT / "forcing" / "analog_site_demo.csv"),
+                    "gap_policy": "interpolate", "max_gap_s": 7200.0},
+        "salt": [{"name": "NaCl"}, {"name": "CaCl2"}],
+    }
+    ds = run(scenario_from_dict(doc))
+    assert ds.sizes["time"] == 48
+    assert np.all(np.isfinite(ds.relative_humidity))

@@ -1,0 +1,241 @@
+"""Scenarios: the TOML schema, its validation, and the Scenario object.
+
+A scenario file names the site(s), the forcing, the salts and their
+loadings, the time law, the clock, what to save, the habitability thresholds
+and the output path.  Every field is validated once here; unknown keys are
+rejected; an error is one line naming the field, the value received and what
+is allowed (:class:`~wetcycle.errors.ConfigError`).  See ``runs/demo.toml`` for
+an annotated example and DEVELOPERS.md for the full list of fields.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from .errors import ConfigError, WetcycleError
+from .phase.model import TIME_LAWS, time_law
+from .stats import HABITABILITY_DEFAULTS
+
+FORCING_KINDS = ("energy_balance", "prescribed", "chamber", "file")
+
+# field: (type, default, low, high, note)   default REQUIRED means the key must be given
+REQUIRED = object()
+NUM = (int, float)
+
+SCHEMA = {
+    "scenario": {
+        "name": (str, REQUIRED, None, None, "a short name"),
+        "description": (str, "", None, None, ""),
+        "output": (str, None, None, None, "path of the NetCDF result, relative to the scenario file"),
+        "planet": (str, "mars", None, None, "mars or earth"),
+    },
+    "clock": {
+        "start_ls": (NUM, 0.0, 0.0, 360.0, "degrees"),
+        "mars_year": (int, 36, 1, 200, "Mars year number (Clancy et al. 2000 numbering)"),
+        "start_utc": (str, None, None, None, "ISO-8601 UTC start (Earth sites, file forcing)"),
+        "years": (NUM, 1.0, 1e-3, 100.0, "years to run after spin-up"),
+        "sols": (NUM, None, 1e-3, 1e5, "sols to run (instead of years)"),
+        "steps_per_sol": (int, 96, 4, 2000, "steps per sol"),
+        "step_s": (NUM, 60.0, 1e-3, 1e5, "seconds per step (chamber forcing)"),
+        "spinup_max_years": (int, 10, 0, 60, "cap on energy-balance spin-up years: 0 (none) or 2-60"),
+        "spinup_tolerance_K": (NUM, 0.2, 1e-4, 10.0, "periodicity tolerance of the spin-up"),
+    },
+    "site": {
+        "name": (str, REQUIRED, None, None, ""),
+        "latitude": (NUM, REQUIRED, -90.0, 90.0, "degrees north"),
+        "longitude": (NUM, REQUIRED, -360.0, 360.0, "degrees east"),
+        "elevation": (NUM, 0.0, -9000.0, 25000.0, "m"),
+        "albedo": (NUM, 0.25, 0.0, 1.0, ""),
+        "thermal_inertia": (NUM, 250.0, 10.0, 5000.0, "J m-2 K-1 s-1/2"),
+        "emissivity": (NUM, 0.95, 0.5, 1.0, ""),
+        "slope": (NUM, 0.0, 0.0, 80.0, "degrees"),
+        "slope_azimuth": (NUM, 0.0, 0.0, 360.0, "degrees clockwise from north, direction faced"),
+        "salt_depth": (NUM, 0.0, 0.0, 1.0, "m below the surface"),
+        "density": (NUM, 1500.0, 100.0, 5000.0, "kg m-3"),
+        "heat_capacity": (NUM, 800.0, 100.0, 5000.0, "J kg-1 K-1"),
+        "ice_table_depth": (NUM, None, 0.0, 10.0, "m; ice-cemented second layer below this depth"),
+        "ice_table_thermal_inertia": (NUM, 2000.0, 10.0, 5000.0, "J m-2 K-1 s-1/2"),
+    },
+    "forcing": {
+        "kind": (str, "energy_balance", None, None, " | ".join(FORCING_KINDS)),
+        # energy balance
+        "dust_optical_depth": (NUM, 0.3, 0.0, 10.0, ""),
+        "vapour": (str, "vmr", None, None, "vmr | column"),
+        "vapour_mixing_ratio": (NUM, 1.5e-4, 0.0, 0.1, "mol mol-1"),
+        "confinement": (NUM, 1.0, 0.01, 100.0, "near-surface / column-mean mixing ratio"),
+        "reference_pressure": (NUM, None, 1.0, 2e5, "Pa at zero elevation"),
+        "seasonal_pressure_cycle": (bool, True, None, None, ""),
+        "layers": (int, None, 8, 200, "regolith layers"),
+        "co2_frost": (bool, True, None, None, ""),
+        # prescribed
+        "temperature_mean": (NUM, None, 50.0, 400.0, "K"),
+        "temperature_diurnal_amplitude": (NUM, 0.0, 0.0, 200.0, "K"),
+        "temperature_peak_hour": (NUM, 14.0, 0.0, 24.0, "h local true solar time"),
+        "temperature_seasonal_amplitude": (NUM, 0.0, 0.0, 200.0, "K"),
+        "temperature_peak_ls": (NUM, 270.0, 0.0, 360.0, "degrees"),
+        "vapor_pressure_mean": (NUM, None, 0.0, 1e4, "Pa"),
+        "vapor_pressure_diurnal_amplitude": (NUM, 0.0, 0.0, 1e4, "Pa"),
+        "vapor_pressure_peak_hour": (NUM, 14.0, 0.0, 24.0, "h"),
+        "surface_pressure": (NUM, None, 1.0, 2e5, "Pa"),
+        # chamber / file
+        "programme": (str, None, None, None, "chamber programme TOML, relative to the scenario"),
+        "path": (str, None, None, None, "forcing CSV/NetCDF, relative to the scenario"),
+        "gap_policy": (str, "refuse", None, None, "refuse | interpolate"),
+        "max_gap_s": (NUM, None, 0.0, 1e9, "s"),
+    },
+    "salt": {
+        "name": (str, REQUIRED, None, None, "a salt system, e.g. NaCl, Mg(ClO4)2"),
+        "loading": (NUM, 0.05, 1e-6, 100.0, "kg m-2 of anhydrous salt"),
+    },
+    "phase": {
+        "law": (str, "equilibrium", None, None, " | ".join(TIME_LAWS)),
+        "layer_thickness": (NUM, 0.01, 1e-5, 10.0, "m (vapour-limited law)"),
+        "diffusivity_factor": (NUM, 1.0, 1e-4, 1.0, "porosity/tortuosity factor (vapour-limited law)"),
+        "frost_contact": (bool, True, None, None, "salts touch surface water frost"),
+    },
+    "output": {
+        "series": (bool, True, None, None, "save full time series (site runs)"),
+        "ls_bins": (int, 12, 1, 360, "bins of Ls for liquid hours"),
+    },
+    "habitability": {
+        "min_water_activity": (NUM, HABITABILITY_DEFAULTS["min_water_activity"], 0.0, 1.0, ""),
+        "min_temperature": (NUM, HABITABILITY_DEFAULTS["min_temperature_K"], 100.0, 400.0, "K"),
+    },
+}
+ARRAYS = ("site", "salt")
+
+
+def _check_table(where, table, schema, src):
+    if not isinstance(table, dict):
+        raise ConfigError(f"{src}: {where}: must be a table")
+    unknown = sorted(set(table) - set(schema))
+    if unknown:
+        raise ConfigError(f"{src}: {where}.{unknown[0]}: unknown key; allowed: {', '.join(schema)}")
+    out = {}
+    for key, (typ, default, lo, hi, note) in schema.items():
+        name = f"{where}.{key}"
+        if key not in table:
+            if default is REQUIRED:
+                raise ConfigError(f"{src}: {name}: missing ({note})" if note else f"{src}: {name}: missing")
+            out[key] = default
+            continue
+        v = table[key]
+        ok = isinstance(v, typ) and not (typ is not bool and isinstance(v, bool))
+        if typ == NUM and isinstance(v, bool):
+            ok = False
+        if not ok:
+            want = {str: "a string", bool: "true or false", int: "an integer"}.get(typ, "a number")
+            raise ConfigError(f"{src}: {name}: {v!r} is not {want}")
+        if typ in (NUM, int):
+            if not math.isfinite(v) or (lo is not None and v < lo) or (hi is not None and v > hi):
+                raise ConfigError(f"{src}: {name}: {v!r} is outside the allowed range {lo:g} to {hi:g}"
+                                  + (f" ({note})" if note else ""))
+        out[key] = v
+    return out
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """A validated scenario.  Build with :func:`load_scenario` or :func:`scenario_from_dict`."""
+
+    name: str
+    tables: dict = field(repr=False)
+    sites: tuple = field(repr=False)
+    salts: tuple = field(repr=False)
+    text: str = field(repr=False, default="")
+    base_dir: Path = field(repr=False, default=Path("."))
+    source: str = "scenario"
+
+    def __getitem__(self, table):
+        return self.tables[table]
+
+    def resolve(self, rel):
+        """A path given in the scenario, relative to the scenario file's folder."""
+        p = Path(rel)
+        return p if p.is_absolute() else (self.base_dir / p)
+
+    @property
+    def output_path(self):
+        out = self.tables["scenario"]["output"]
+        return self.resolve(out) if out else self.resolve(f"{self.name}/{self.name}.nc")
+
+
+def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
+    """Validate a scenario given as a dict (the parsed TOML)."""
+    if not isinstance(doc, dict):
+        raise ConfigError(f"{source}: must be a table of tables")
+    unknown = sorted(set(doc) - set(SCHEMA))
+    if unknown:
+        raise ConfigError(f"{source}: [{unknown[0]}]: unknown table; allowed: {', '.join(SCHEMA)}")
+    tables = {}
+    for t, schema in SCHEMA.items():
+        if t in ARRAYS:
+            continue
+        tables[t] = _check_table(t, doc.get(t, {}), schema, source)
+    lists = {}
+    for t in ARRAYS:
+        items = doc.get(t, [])
+        if isinstance(items, dict):
+            items = [items]
+        if not isinstance(items, list) or not items:
+            raise ConfigError(f"{source}: [[{t}]]: at least one is required")
+        lists[t] = tuple(_check_table(f"{t}[{i + 1}]", it, SCHEMA[t], source) for i, it in enumerate(items))
+    sc = tables["scenario"]
+    if sc["planet"] not in ("mars", "earth"):
+        raise ConfigError(f"{source}: scenario.planet: {sc['planet']!r} is not one of mars, earth")
+    fk = tables["forcing"]["kind"]
+    if fk not in FORCING_KINDS:
+        raise ConfigError(f"{source}: forcing.kind: {fk!r} is not one of {', '.join(FORCING_KINDS)}")
+    f = tables["forcing"]
+    if fk == "energy_balance" and sc["planet"] != "mars":
+        raise ConfigError(f"{source}: forcing.kind: energy_balance is available for planet mars only")
+    if fk == "prescribed":
+        for key in ("temperature_mean", "vapor_pressure_mean"):
+            if f[key] is None:
+                raise ConfigError(f"{source}: forcing.{key}: required for forcing.kind = prescribed")
+    if fk == "chamber" and not f["programme"]:
+        raise ConfigError(f"{source}: forcing.programme: required for forcing.kind = chamber")
+    if fk == "file" and not f["path"]:
+        raise ConfigError(f"{source}: forcing.path: required for forcing.kind = file")
+    if f["vapour"] not in ("vmr", "column"):
+        raise ConfigError(f"{source}: forcing.vapour: {f['vapour']!r} is not one of vmr, column")
+    if f["gap_policy"] not in ("refuse", "interpolate"):
+        raise ConfigError(f"{source}: forcing.gap_policy: {f['gap_policy']!r} is not one of refuse, interpolate")
+    if tables["clock"]["spinup_max_years"] == 1:
+        raise ConfigError(f"{source}: clock.spinup_max_years: 1 is not allowed; 0 (no spin-up) or 2-60 "
+                          "(periodicity needs two years to compare)")
+    try:
+        tables["phase"]["law"] = time_law(tables["phase"]["law"])
+    except WetcycleError as exc:
+        raise ConfigError(f"{source}: phase.{exc}") from None
+    from .salts import load as load_salt
+    names = []
+    for i, s in enumerate(lists["salt"]):
+        try:
+            s["name"] = load_salt(s["name"]).name
+        except WetcycleError as exc:
+            raise ConfigError(f"{source}: salt[{i + 1}].name: {exc}") from None
+        if s["name"] in names:
+            raise ConfigError(f"{source}: salt[{i + 1}].name: {s['name']!r} is listed twice")
+        names.append(s["name"])
+    site_names = [s["name"] for s in lists["site"]]
+    if len(set(site_names)) != len(site_names):
+        raise ConfigError(f"{source}: site.name: site names must be unique, got {site_names}")
+    return Scenario(name=sc["name"], tables=tables, sites=lists["site"], salts=lists["salt"],
+                    text=text, base_dir=Path(base_dir), source=source)
+
+
+def load_scenario(path):
+    """Read and validate a scenario TOML file."""
+    path = Path(path)
+    if not path.is_file():
+        raise ConfigError(f"scenario: {str(path)!r} is not a file")
+    text = path.read_text(encoding="utf-8")
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"{path.name}: not valid TOML: {exc}") from None
+    return scenario_from_dict(doc, text=text, base_dir=path.parent, source=path.name)

@@ -1,0 +1,150 @@
+"""Results as xarray Datasets with CF attributes; NetCDF writing and reading.
+
+Every attribute comes from :mod:`wetcycle.vocabulary`.  The file's global
+attributes carry the full scenario text and the package version so that a
+result reproduces its run, and the cautions line.  Files are written to a
+temporary name in the target folder and renamed into place, so a failed or
+interrupted write never leaves a half-written result.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import json
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+import xarray as xr
+
+from . import __version__
+from .errors import InputDataError
+from .vocabulary import attrs
+
+CAUTION = ("Model estimates with stated uncertainties, not evidence of liquid water or of life. "
+           "Planetary-protection decisions belong to the official policy and its review bodies; "
+           "the habitability thresholds used here are settings, not rulings.")
+
+STAT_DIMS = {"liquid_hours_by_ls": ("salt", "site", "ls_bin"),
+             "liquid_hours_by_local_time": ("salt", "site", "hour_bin")}
+
+
+def build_dataset(sc, src, stats, series=None, phase_series=None):
+    """Assemble the result of a run (see /DEVELOPERS.md "Result files" for the layout)."""
+    salts = [s["name"] for s in sc.salts]
+    sites = [s["name"] for s in sc.sites]
+    n_ls = stats[0]["liquid_hours_by_ls"].shape[0]
+    coords = {
+        "site": ("site", np.array(sites, dtype=object)),
+        "salt": ("salt", np.array(salts, dtype=object)),
+        "latitude": ("site", np.array([s["latitude"] for s in sc.sites]), attrs("latitude")),
+        "longitude": ("site", np.array([s["longitude"] for s in sc.sites]), attrs("longitude")),
+        "ls_bin": ("ls_bin", (np.arange(n_ls) + 0.5) * 360.0 / n_ls,
+                   {"units": "degree", "long_name": "centre of the Ls bin"}),
+        "hour_bin": ("hour_bin", np.arange(24) + 0.5, {"units": "hour", "long_name": "centre of the local-time bin"}),
+    }
+    data = {}
+    for name in stats[0]:
+        dims = STAT_DIMS.get(name, ("salt", "site"))
+        arr = np.stack([st[name].T if name in STAT_DIMS else st[name] for st in stats])
+        data[name] = (dims, arr, attrs(name))
+    if series is not None:
+        coords["time"] = ("time", np.asarray(src.time_s, dtype=float), attrs("time"))
+        coords["sol"] = ("time", np.asarray(src.sol), attrs("sol"))
+        coords["solar_longitude"] = ("time", np.asarray(src.ls_deg, dtype=float), attrs("solar_longitude"))
+        coords["local_solar_time"] = (("site", "time"), np.asarray(src.ltst_h, dtype=float).T,
+                                      attrs("local_solar_time"))
+        for k, parts in series.items():
+            data[k] = (("site", "time"), np.concatenate(parts, axis=0).T, attrs(k))
+        for k in phase_series[0]:
+            arr = np.stack([np.concatenate(ps[k], axis=0).T for ps in phase_series])
+            data[k] = (("salt", "site", "time"), arr, attrs(k))
+    ds = xr.Dataset(data, coords=coords)
+    tables = dict(sc.tables, site=list(sc.sites), salt=list(sc.salts))
+    hab = sc["habitability"]
+    ds.attrs.update(
+        title=f"wetcycle result: {sc.name}",
+        scenario_name=sc.name,
+        scenario=sc.text or json.dumps(tables, default=str, indent=1),
+        wetcycle_version=__version__,
+        created=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        caution=CAUTION,
+        Conventions="CF-1.8",
+        forcing=sc["forcing"]["kind"],
+        law=sc["phase"]["law"],
+        years=float(src.years),
+        steps_per_sol=int(src.steps_per_sol),
+        habitability_min_water_activity=float(hab["min_water_activity"]),
+        habitability_min_temperature_K=float(hab["min_temperature"]),
+        spinup_years=int(src.info.get("spinup_years", 0)),
+    )
+    return ds
+
+
+def write_result(ds, path):
+    """Write ``ds`` to NetCDF at ``path`` atomically (temporary file + rename)."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    enc = {}
+    for k, v in ds.data_vars.items():
+        if v.dtype.kind == "f":
+            enc[k] = {"zlib": True, "complevel": 4}
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    os.close(fd)
+    try:
+        ds.to_netcdf(tmp, engine="netcdf4", encoding=enc)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.remove(tmp)
+        raise
+    return path
+
+
+def open_result(path):
+    """Read a result file written by wetcycle back into an ``xarray.Dataset``."""
+    path = Path(path)
+    if not path.is_file():
+        raise InputDataError(f"result: {str(path)!r} is not a file")
+    try:
+        ds = xr.open_dataset(path, engine="netcdf4")
+        ds.load()
+        ds.close()
+    except (OSError, ValueError) as exc:
+        raise InputDataError(f"result: {path.name} could not be read as NetCDF: {exc}") from None
+    if "liquid_hours_per_year" not in ds:
+        raise InputDataError(f"result: {path.name} is not a wetcycle result (no liquid_hours_per_year)")
+    return ds
+
+
+def summary_rows(ds):
+    """Rows (site, salt, liquid h/yr, longest spell h, wet events/yr, habitable h/yr, T range, a_w range)."""
+    rows = []
+    for site in ds.site.values:
+        for salt in ds.salt.values:
+            g = lambda k: float(ds[k].sel(site=site, salt=salt))
+            rows.append((str(site), str(salt), g("liquid_hours_per_year"), g("longest_liquid_spell_hours"),
+                         g("wet_events_per_year"), g("habitable_hours_per_year"),
+                         (g("liquid_temperature_min"), g("liquid_temperature_max")),
+                         (g("liquid_water_activity_min"), g("liquid_water_activity_max"))))
+    return rows
+
+
+def summary_text(ds):
+    """The per-salt table printed by ``wetcycle run`` and ``wetcycle summary``."""
+    head = ("site", "salt", "liquid h/yr", "longest spell h", "wet events/yr", "habitable h/yr",
+            "liquid T [K]", "liquid a_w")
+    fmt_r = lambda lo, hi, f: "—" if not np.isfinite(lo) else f"{lo:{f}}–{hi:{f}}"
+    rows = [(a, b, f"{c:.1f}", f"{d:.1f}", f"{e:.1f}", f"{h:.1f}", fmt_r(*t, ".0f"), fmt_r(*w, ".2f"))
+            for a, b, c, d, e, h, t, w in summary_rows(ds)]
+    widths = [max([len(h)] + [len(r[i]) for r in rows]) for i, h in enumerate(head)]
+    lines = ["  ".join(h.ljust(w) for h, w in zip(head, widths)), "  ".join("-" * w for w in widths)]
+    lines += ["  ".join(c.ljust(w) for c, w in zip(r, widths)) for r in rows]
+    yrs = ds.attrs.get("years", float("nan"))
+    lines.append(f"({ds.attrs.get('forcing', '?')} forcing, {ds.attrs.get('law', '?')} law, {yrs:.3g} year(s) "
+                 f"after {ds.attrs.get('spinup_years', 0)} spin-up year(s); habitable: a_w >= "
+                 f"{ds.attrs.get('habitability_min_water_activity', float('nan')):g} and T >= "
+                 f"{ds.attrs.get('habitability_min_temperature_K', float('nan')):g} K)")
+    lines.append("Caution: " + ds.attrs.get("caution", CAUTION))
+    return "\n".join(lines)

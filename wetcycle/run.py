@@ -1,0 +1,286 @@
+"""Orchestration: scenario -> clock -> forcing blocks -> phase kernel -> accumulators -> NetCDF.
+
+The forcing and the phase model meet here, and only here, through plain
+arrays [step, site].  Blocks of one sol (or a chamber's equivalent) stream
+through the phase kernel while the accumulators keep running sums; full series
+are kept only when the scenario asks for them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import output
+from .clock import make_clock
+from .config import Scenario, load_scenario
+from .errors import ConfigError
+from .phase import PhaseModel
+from .stats import Accumulator
+from .water import saturation_vapor_pressure_ice, saturation_vapor_pressure_liquid
+
+FORCING_KEYS = ("surface_temperature", "salt_temperature", "vapor_pressure", "relative_humidity",
+                "relative_humidity_ice", "surface_pressure", "water_frost", "co2_frost")
+PHASE_KEYS = ("phase_state", "brine_water_activity", "liquid_water", "hydrate_water", "ice_water",
+              "liquid_fraction")
+
+
+@dataclass
+class Block:
+    """One block of forcing: step indices [i0, i1), arrays [step, site], per-step Ls, dt, LTST."""
+
+    i0: int
+    i1: int
+    data: dict
+    ls_deg: np.ndarray
+    ltst_h: np.ndarray
+    dt_s: np.ndarray
+
+
+@dataclass
+class ForcingSource:
+    """A forcing ready to stream: ``blocks`` yields :class:`Block`; ``info`` describes it."""
+
+    n_steps: int
+    time_s: np.ndarray
+    sol: np.ndarray
+    ls_deg: np.ndarray
+    ltst_h: np.ndarray
+    years: float
+    steps_per_sol: int
+    blocks: object
+    info: dict
+
+
+def _sites(sc):
+    g = lambda k: np.array([s[k] for s in sc.sites], dtype=float)
+    return g
+
+
+def _clock(sc):
+    c = sc["clock"]
+    planet = sc["scenario"]["planet"]
+    from .orbit import get_planet
+    p = get_planet(planet)
+    n_sols = c["sols"] if c["sols"] is not None else c["years"] * p.year_sols
+    n_sols = max(int(round(n_sols)), 1)
+    kw = dict(steps_per_sol=c["steps_per_sol"], n_sols=n_sols)
+    if c["start_utc"]:
+        kw["start_utc"] = c["start_utc"]
+    else:
+        kw.update(start_ls=c["start_ls"], year=c["mars_year"] if planet == "mars" else None)
+        if planet == "earth":
+            raise ConfigError(f"{sc.source}: clock.start_utc: required for planet earth")
+    return make_clock(planet, **kw), p
+
+
+def _rh(e, T):
+    Tc = np.clip(T, 123.0, 332.0)
+    rh = e / saturation_vapor_pressure_liquid(Tc)
+    rhi = e / np.where(Tc <= 273.16, saturation_vapor_pressure_ice(np.minimum(Tc, 273.16)),
+                       saturation_vapor_pressure_liquid(Tc))
+    return np.clip(rh, 0.0, 1.0), rhi
+
+
+def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None):
+    """A ForcingSource from full series [step, site] (prescribed or file forcing)."""
+    n = T.shape[0]
+    if rh is None:
+        rh, rhi = _rh(e, T)
+    else:
+        e = rh * saturation_vapor_pressure_liquid(np.clip(T, 123.0, 332.0))
+        _, rhi = _rh(e, T)
+    P = np.broadcast_to(P if P is not None else planet.mean_surface_pressure_pa, T.shape)
+    data = dict(surface_temperature=T, salt_temperature=T, vapor_pressure=e, relative_humidity=rh,
+                relative_humidity_ice=rhi, surface_pressure=P, water_frost=np.zeros_like(T),
+                co2_frost=np.zeros_like(T))
+    lon = _sites(sc)("longitude")
+    ltst = clock.local_true_solar_time(lon)
+    spd = clock.steps_per_sol
+
+    def blocks():
+        for i0 in range(0, n, spd):
+            i1 = min(i0 + spd, n)
+            yield Block(i0, i1, {k: np.ascontiguousarray(v[i0:i1]) for k, v in data.items()},
+                        clock.ls_deg[i0:i1], ltst[i0:i1], np.full(i1 - i0, clock.dt_s))
+    return ForcingSource(n, clock.time_s, clock.sol, clock.ls_deg, ltst,
+                         years if years is not None else n * clock.dt_s / (planet.year_sols * planet.sol_s),
+                         spd, blocks(), {"forcing": "series"})
+
+
+def _energy_source(sc, clock, planet, progress):
+    from .forcing import driver
+    from .forcing.pressure import DEMO_CO2_CYCLE
+    f = sc["forcing"]
+    g = _sites(sc)
+    ice = [s["ice_table_depth"] for s in sc.sites]
+    cells = driver.make_cells(
+        g("latitude"), g("longitude"), elevation_m=g("elevation"), albedo=g("albedo"),
+        thermal_inertia=g("thermal_inertia"), emissivity=g("emissivity"), slope_deg=g("slope"),
+        slope_azimuth_deg=g("slope_azimuth"), salt_depth_m=g("salt_depth"), density=g("density"),
+        heat_capacity=g("heat_capacity"),
+        layer2_depth_m=np.array([np.inf if d is None else d for d in ice]),
+        layer2_inertia=g("ice_table_thermal_inertia"))
+    opts = driver.ForcingOptions(
+        tau=f["dust_optical_depth"], vapour=f["vapour"], vmr=f["vapour_mixing_ratio"],
+        confinement=f["confinement"], p_ref_pa=f["reference_pressure"],
+        pressure_cycle=DEMO_CO2_CYCLE if f["seasonal_pressure_cycle"] else None,
+        n_layers=f["layers"], co2_frost=f["co2_frost"])
+    model = driver.prepare_forcing(cells, clock, opts)
+    c = sc["clock"]
+    info = {"forcing": "energy_balance", "spinup_years": 0, "spinup_converged": False}
+    if c["spinup_max_years"] > 0:
+        if progress:
+            print(f"spin-up of the surface energy balance (up to {c['spinup_max_years']} years)...", flush=True)
+        su = driver.spin_up(model, clock, tol_k=c["spinup_tolerance_K"], max_years=c["spinup_max_years"])
+        state = su.state
+        info.update(spinup_years=su.years, spinup_converged=bool(su.converged))
+    else:
+        state = driver.initial_state(model, clock)
+    ltst = clock.local_true_solar_time(g("longitude"))
+
+    def blocks():
+        for i0, _, out in driver.iter_forcing(model, state, clock):
+            i1 = i0 + out["surface_temperature"].shape[0]
+            yield Block(i0, i1, {k: out[k] for k in FORCING_KEYS}, clock.ls_deg[i0:i1], ltst[i0:i1],
+                        np.full(i1 - i0, clock.dt_s))
+    years = clock.n_steps * clock.dt_s / (planet.year_sols * planet.sol_s)
+    return ForcingSource(clock.n_steps, clock.time_s, clock.sol, clock.ls_deg, ltst, years,
+                         clock.steps_per_sol, blocks(), info)
+
+
+def _chamber_source(sc):
+    from .forcing.prescribed import load_chamber_programme
+    f = sc["forcing"]
+    prog = load_chamber_programme(sc.resolve(f["programme"]))
+    step = sc["clock"]["step_s"]
+    t = np.arange(0.0, prog.duration_s + 0.5 * step, step)
+    t = t[t <= prog.duration_s + 1e-9]
+    fs = prog.evaluate(t)
+    n_sites = len(sc.sites)
+    col = lambda a: np.repeat(np.asarray(a, dtype=float)[:, None], n_sites, axis=1)
+    T = col(fs.temperature_K)
+    P = col(fs.surface_pressure_Pa) if fs.surface_pressure_Pa is not None else np.full_like(T, 600.0)
+    if fs.relative_humidity is not None:
+        rh = col(fs.relative_humidity)
+        e = rh * saturation_vapor_pressure_liquid(np.clip(T, 123.0, 332.0))
+    else:
+        e = col(fs.vapor_pressure_Pa)
+        rh = None
+    rh_, rhi = _rh(e, T)
+    rh = rh_ if rh is None else rh
+    data = dict(surface_temperature=T, salt_temperature=T, vapor_pressure=e, relative_humidity=rh,
+                relative_humidity_ice=rhi, surface_pressure=P, water_frost=np.zeros_like(T),
+                co2_frost=np.zeros_like(T))
+    n = t.size
+    ls = np.zeros(n)  # a chamber has no season; all time falls in the first Ls bin
+    ltst = col((t / 3600.0) % 24.0)  # hours since the start of the programme, modulo 24
+    bs = max(int(round(86400.0 / step)), 1)
+
+    def blocks():
+        for i0 in range(0, n, bs):
+            i1 = min(i0 + bs, n)
+            yield Block(i0, i1, {k: v[i0:i1] for k, v in data.items()}, ls[i0:i1], ltst[i0:i1],
+                        np.full(i1 - i0, step))
+    years = n * step / (365.25 * 86400.0)
+    return ForcingSource(n, t, (t // 86400.0).astype(int), ls, ltst, years, bs, blocks(),
+                         {"forcing": "chamber", "programme": str(f["programme"])})
+
+
+def forcing_source(sc, progress=False):
+    """Build the scenario's forcing as a :class:`ForcingSource`."""
+    kind = sc["forcing"]["kind"]
+    if kind == "chamber":
+        return _chamber_source(sc)
+    clock, planet = _clock(sc)
+    if kind == "energy_balance":
+        return _energy_source(sc, clock, planet, progress)
+    f = sc["forcing"]
+    lon = _sites(sc)("longitude")
+    if kind == "prescribed":
+        from .forcing.prescribed import Sinusoid, prescribed_forcing
+        temp = Sinusoid(f["temperature_mean"], f["temperature_diurnal_amplitude"], f["temperature_peak_hour"],
+                        f["temperature_seasonal_amplitude"], f["temperature_peak_ls"])
+        vap = Sinusoid(f["vapor_pressure_mean"], f["vapor_pressure_diurnal_amplitude"],
+                       f["vapor_pressure_peak_hour"], 0.0, 0.0)
+        fs = prescribed_forcing(clock, lon, temp, vapor_pressure=vap, surface_pressure_pa=f["surface_pressure"])
+        T = np.asarray(fs.temperature_K, dtype=float)
+        return _series_source(sc, clock, planet, T, e=np.asarray(fs.vapor_pressure_Pa, dtype=float),
+                              P=None if fs.surface_pressure_Pa is None else np.asarray(fs.surface_pressure_Pa))
+    # file
+    from .forcing.files import read_csv_forcing, read_netcdf_forcing
+    path = sc.resolve(f["path"])
+    if path.suffix.lower() in (".nc", ".nc4", ".cdf"):
+        raise ConfigError(f"{sc.source}: forcing.path: NetCDF forcing needs a variable mapping; "
+                          "use the Python API (wetcycle.forcing.files.read_netcdf_forcing) or a CSV file")
+    fs = read_csv_forcing(path, clock, gap_policy=f["gap_policy"], max_gap_s=f["max_gap_s"])
+    n_sites = len(sc.sites)
+    col = lambda a: None if a is None else np.repeat(np.asarray(a, dtype=float).reshape(-1, 1), n_sites, axis=1) \
+        if np.ndim(a) == 1 else np.asarray(a, dtype=float)
+    return _series_source(sc, clock, planet, col(fs.temperature_K), e=col(fs.vapor_pressure_Pa),
+                          rh=col(fs.relative_humidity), P=col(fs.surface_pressure_Pa))
+
+
+def run(scenario, *, write=True, progress=False, output_path=None):
+    """Run a scenario and return its result as an ``xarray.Dataset``.
+
+    Parameters
+    ----------
+    scenario : Scenario, str or Path
+        A validated :class:`~wetcycle.config.Scenario` or the path of a TOML file.
+    write : bool
+        Write the NetCDF result (atomically: a temporary name, then renamed).
+    progress : bool
+        Show a progress bar (tqdm) over sols.
+    output_path : path, optional
+        Overrides the scenario's ``scenario.output``.
+    """
+    sc = scenario if isinstance(scenario, Scenario) else load_scenario(scenario)
+    src = forcing_source(sc, progress=progress)
+    ph = sc["phase"]
+    models = [PhaseModel(s["name"], law=ph["law"], layer_thickness_m=ph["layer_thickness"],
+                         diffusivity_factor=ph["diffusivity_factor"]) for s in sc.salts]
+    hab = sc["habitability"]
+    n_sites = len(sc.sites)
+    accs = [Accumulator.new(n_sites, sc["output"]["ls_bins"], hab["min_water_activity"], hab["min_temperature"])
+            for _ in models]
+    keep = sc["output"]["series"]
+    series = {k: [] for k in FORCING_KEYS} if keep else None
+    phase_series = [{k: [] for k in PHASE_KEYS} for _ in models] if keep else None
+    states = [None] * len(models)
+    bar = None
+    if progress:
+        from tqdm import tqdm
+        bar = tqdm(total=src.n_steps, unit="step", desc=f"{sc.name}", leave=False)
+    for blk in src.blocks:
+        d = blk.data
+        frost = d["water_frost"] if ph["frost_contact"] else np.zeros_like(d["water_frost"])
+        for j, (m, acc) in enumerate(zip(models, accs)):
+            if states[j] is None:
+                states[j] = m.initial_state(n_sites, np.array([sc.salts[j]["loading"]] * n_sites),
+                                            d["salt_temperature"][0], d["relative_humidity"][0])
+            r = m.step(states[j], d["salt_temperature"], d["relative_humidity"], d["surface_pressure"], frost,
+                       blk.dt_s)
+            acc.add(r.liquid_fraction, r.phase, r.water_activity, d["salt_temperature"], blk.ls_deg, blk.ltst_h,
+                    r.clamped, blk.dt_s)
+            if keep:
+                ps = phase_series[j]
+                ps["phase_state"].append(r.phase.astype(np.int8))
+                ps["brine_water_activity"].append(r.water_activity.astype(np.float32))
+                ps["liquid_water"].append(r.liquid_water.astype(np.float32))
+                ps["hydrate_water"].append(r.hydrate_water.astype(np.float32))
+                ps["ice_water"].append(r.ice_water.astype(np.float32))
+                ps["liquid_fraction"].append(r.liquid_fraction.astype(np.float32))
+        if keep:
+            for k in FORCING_KEYS:
+                series[k].append(np.asarray(d[k], dtype=np.float32))
+        if bar is not None:
+            bar.update(blk.i1 - blk.i0)
+    if bar is not None:
+        bar.close()
+    stats = [acc.finish(src.years) for acc in accs]
+    ds = output.build_dataset(sc, src, stats, series, phase_series)
+    if write:
+        output.write_result(ds, output_path or sc.output_path)
+    return ds
