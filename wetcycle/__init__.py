@@ -6,11 +6,17 @@ and compiles nothing.
 
 __version__ = "0.1.0"
 
-__all__ = ["run_series", "__version__"]
+__all__ = ["run", "run_series", "open_result", "__version__"]
 
 
 def __getattr__(name):
     if name == "run_series":
         from .series import run_series
         return run_series
+    if name == "run":
+        from .run import run
+        return run
+    if name == "open_result":
+        from .output import open_result
+        return open_result
     raise AttributeError(f"module 'wetcycle' has no attribute {name!r}")
