@@ -201,3 +201,45 @@ def test_liquid_hours_converge_as_step_halves(law):
     h192 = _liquid_hours(192, law)
     assert h96 > 10.0  # the forcing does produce brine
     assert abs(h96 - h192) / h192 < 0.01
+
+
+@pytest.mark.parametrize("salt", ["Ca(ClO4)2", "CaCl2", "NaCl"])
+def test_ice_saturated_air_is_not_a_knife_edge(salt):
+    # Over water frost the forcing holds vapour exactly at ice saturation (RH = a_w,ice, Murphy
+    # & Koop 2005).  Perturbing RH by 1e-7 (relative) around that value must not change the
+    # answer (common practice: results robust to rounding): liquid time within 1e-3 relative, or
+    # one step (a threshold crossing may move by one step).
+    s = salts.load(salt)
+    T_eut = s.eutectic()["temperature_K"]
+    t = np.arange(0, 6 * 88775.244, 900.0)
+    T = T_eut + 12.0 * np.sin(2 * np.pi * t / 88775.244)
+    T = np.maximum(T, s.T_min + 0.5)
+    rh = ice_water_activity(np.minimum(T, 273.15))
+    frost = np.where(np.sin(2 * np.pi * t / 88775.244) < 0, 1e-5, 0.0)  # a trace of night frost
+    out = []
+    for f in (1 - 1e-7, 1.0, 1 + 1e-7):
+        ds = wetcycle.run_series(salt, t, T, np.minimum(rh * f, 1.0), frost_kg_m2=frost)
+        out.append(float(ds.liquid_fraction.sum()))
+    assert out[1] > 0
+    assert max(out) - min(out) <= max(1e-3 * out[1], 1.0) * 1.001
+
+
+def test_brine_with_crystals_does_not_supercool():
+    # Salt crystals in contact with a brine nucleate the eutectic assemblage, so below the
+    # eutectic such a brine freezes where ice can form (common practice; cf. the supercooling
+    # of crystal-free brines, Toner et al. 2014, Icarus 233, 36).  A dry crust touches a trace
+    # of frost just above the eutectic (partial contact melting), then cools below it.
+    s = salts.load("CaCl2")
+    T_eut = s.eutectic()["temperature_K"]
+    T = np.array([T_eut + 2.0, T_eut + 0.1] + list(np.linspace(T_eut - 0.5, T_eut - 5.0, 20)))
+    t = np.arange(T.size) * 300.0
+    rh = np.full(T.size, 0.3)
+    rh[1:] = ice_water_activity(T[1:])
+    frost = np.zeros(T.size)
+    frost[1] = 2e-4  # too little to dissolve the whole crust
+    ds = wetcycle.run_series("CaCl2", t, T, rh, frost_kg_m2=frost, loading_kg_m2=0.05)
+    ph = ds.phase_state.values
+    assert ph[0] == states.CRYSTALLINE and ph[1] == states.BRINE_WITH_SALT
+    assert np.all(ph[2:] == states.FROZEN)
+    # the liquid ends inside the step that crosses the eutectic
+    assert 0.0 < float(ds.liquid_fraction[2]) < 1.0

@@ -20,7 +20,12 @@ Physics (phase boundaries from the Pitzer model via the tables)
   brine alone while undersaturated; saturated brine + the stable hydrate when
   oversaturated and crystals are present or efflorescence is triggered.
 * Deliquescence needs T >= T_eut: below the eutectic the stable assemblage is
-  solid, and metastable deliquescence there is not modelled.  A brine that was
+  solid, and metastable deliquescence there is not modelled.  Only a
+  crystal-free brine supercools: a brine touching salt crystals freezes at
+  the eutectic (the crystals nucleate the eutectic assemblage) where ice can
+  form, and dries to the crystalline salt where the air is below ice
+  saturation.  Air within a relative 1e-5 of ice saturation, or over water
+  frost, counts as ice-saturated.  A brine that was
   liquid above the eutectic survives cooling below it as supercooled brine
   down to the supercooling limit, then freezes to ice + hydrate; a frozen parcel melts at
   the eutectic; a crystalline salt touching water frost at T >= T_eut
@@ -79,6 +84,8 @@ MW = 0.018015268  # kg mol-1
 R_GAS = 8.314462618  # J mol-1 K-1 (CODATA 2018)
 D_REF = 1.387e-5  # m2 s-1, H2O in CO2 at 273.15 K and 1e5 Pa (from memory; see module docstring)
 T_MELT = 273.15
+#: Relative tolerance of the ice-saturation test (tabulated a_w,ice is exact to ~1e-6).
+ICE_SAT_TOL = 1e-5
 
 # indices into the scalar vector of PhaseTables.scalars
 S_TEUT, S_EUTSOLID, S_TSUPER, S_ERH, S_TMIN, S_TMAX, S_MMAX = 0, 1, 2, 3, 4, 5, 6
@@ -231,6 +238,9 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             wh, wb, wi, nd = w_hyd[c], w_brine[c], w_ice[c], n_diss[c]
             W0 = wh + wb + wi
             aw_i = _lin(awice, ib, fb) if Tb <= T_MELT else 2.0
+            # air at ice saturation (within ICE_SAT_TOL, or frost present) counts as saturated:
+            # the forcing holds vapour exactly at p_ice over frost, so an exact test would be a knife edge
+            ice_sat = Tb <= T_MELT and (Fb > 0.0 or RHb >= aw_i * (1.0 - ICE_SAT_TOL))
             psat = 0.0
             kx = 0.0
             if not instant and (s0 != CRYSTALLINE or RHb >= _lin(drh[kk], ib, fb)):
@@ -255,7 +265,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                     tau = _frac(RHa - d_a, RHb - d_b) if RHa < d_a else 0.0
                     if instant:
                         mi = _lin(mice, ib, fb) if Tb <= T_MELT else math.nan
-                        if RHb >= aw_i and mi == mi:
+                        if ice_sat and mi == mi:
                             W = n / mi
                         else:
                             m_eq = molality_from_table(RHb, Tb, inv_T0, inv_dT, inv_ds, inv_m)
@@ -282,8 +292,8 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                 else:
                     s1 = FROZEN
                     if instant:
-                        if RHb < aw_i:
-                            wi = 0.0
+                        if not ice_sat:
+                            wi = 0.0  # below ice saturation the ice sublimates at once
                     else:
                         wi = max(wi + kx * (RHb - aw_i) * psat * dtk, 0.0)
                     if wi <= 0.0:
@@ -316,7 +326,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                             W = W0 + min(n / mi_b - W0, Fb)
                     elif instant:
                         mi = _lin(mice, ib, fb) if Tb <= T_MELT else math.nan
-                        if RHb >= aw_i and mi == mi:
+                        if ice_sat and mi == mi:
                             if not had_ice:
                                 W = n / mi
                         else:
@@ -362,7 +372,24 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                     allow = (not had_crystals) and (erh == erh) and W > 0.0  # _partition checks a_w >= ERH
                     s1, kk, wh, wb, wi, nd = _partition(n, W, Tb, ib, fb, msat, stable, mice, hyd, kk,
                                                         allow, erh, T_eut, p, m_max)
-                    if s1 == CRYSTALLINE:
+                    if Tb < T_eut and (s1 == BRINE_WITH_SALT or had_crystals) and s1 != CRYSTALLINE:
+                        # salt crystals in contact with the brine nucleate the eutectic assemblage:
+                        # no supercooling; it freezes where ice can form, else it dries
+                        W1 = wh + wb + wi
+                        if ice_sat or not instant:
+                            ks = _stable(stable, ib, fb)
+                            kk = ks if ks >= 0 else kk
+                            wh = min(n * hyd[kk] * MW, W1)
+                            wi = W1 - wh
+                            s1 = FROZEN
+                        else:
+                            kk = _hydrate_at(lnk, hyd, ib, fb, math.log(RHb)) if nsolid > 1 else kk
+                            wh = n * hyd[kk] * MW
+                            wi = 0.0
+                            s1 = CRYSTALLINE
+                        wb, nd = 0.0, 0.0
+                        liq = _frac(Ta - T_eut, Tb - T_eut) if Ta >= T_eut else 0.0
+                    elif s1 == CRYSTALLINE:
                         if instant:
                             kk = _hydrate_at(lnk, hyd, ib, fb, math.log(RHb)) if nsolid > 1 else kk
                             wh = n * hyd[kk] * MW
