@@ -118,7 +118,7 @@ def _stable(stable, i, f):
     return stable[i] if f < 0.5 else stable[i + 1]
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, inline="always", error_model="numpy")
 def _hydrate_at(lnk, hyd, i, f, ln_aw):
     """Stable solid at water activity exp(ln_aw): argmin_s ln K_s - n_s ln a_w."""
     best = 0
@@ -131,7 +131,7 @@ def _hydrate_at(lnk, hyd, i, f, ln_aw):
     return best
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, inline="always", error_model="numpy")
 def _partition(n, W, T, i, f, msat, stable, mice, hyd, k_prev, allow_supersat, erh, T_eut, p, m_max):
     """Lever rule for a closed parcel: returns (state, solid, w_hyd, w_brine, w_ice, n_diss)."""
     ks = _stable(stable, i, f)
@@ -180,7 +180,7 @@ def _frac(ga, gb):
     return min(max(t, 0.0), 1.0)
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, inline="always", error_model="numpy")
 def _aw_of(n_diss, w_brine, T, p):
     if w_brine <= 0.0:
         return math.nan

@@ -83,7 +83,7 @@ def _row(m, i, j, fy, nS):
     return p1 + fy * (p2 - p1)
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always", error_model="numpy")
 def molality_from_table(aw, T, T0, dT, ds, m):
     """Molality [mol/kg] of the brine with water activity ``aw`` at ``T`` [K], by table lookup.
 
