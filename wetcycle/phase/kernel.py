@@ -248,6 +248,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                 D = dfactor * D_REF * (Tb / 273.15) * math.sqrt(Tb / 273.15) * (1e5 / max(P[k, c], 1.0))
                 kx = D * MW / (R_GAS * Tb * layer_m)  # kg m-2 s-1 Pa-1
             liq = 0.0
+            eq_brine = False  # brine water set from a_w = RH this step (equilibrium law)
             lnrh = math.log(RHb) if nsolid > 1 else 0.0
             if s0 == CRYSTALLINE:
                 d_b = _lin(drh[kk], ib, fb)
@@ -333,6 +334,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                             m_eq = molality_from_table(RHb, Tb, inv_T0, inv_dT, inv_ds, inv_m)
                             if m_eq == m_eq and m_eq > 0.0:
                                 W = n / m_eq
+                                eq_brine = True
                             else:
                                 W = 0.0  # the air is drier than the model's most concentrated brine
                                 if not had_crystals:
@@ -420,7 +422,11 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             w_hyd[c], w_brine[c], w_ice[c], n_diss[c] = wh, wb, wi, nd
             out_state[k, c] = s1
             out_liq[k, c] = liq
-            out_aw[k, c] = _aw_of(nd, wb, Tb, p)
+            if instant and (s1 == BRINE or s1 == SUPERSATURATED) and wb > 0.0 and not (ice_sat and wi > 0.0) \
+                    and (Fb <= 0.0 or Tb < T_eut) and eq_brine:
+                out_aw[k, c] = RHb  # equilibrium law: the single-phase brine has a_w = RH by construction
+            else:
+                out_aw[k, c] = _aw_of(nd, wb, Tb, p)
             out_wb[k, c] = wb
             out_wh[k, c] = wh
             out_wi[k, c] = wi
