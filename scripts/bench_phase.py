@@ -9,7 +9,8 @@ Prints
     spin-up included, in this process after compilation (target < 2 s);
   * wall time of the whole demo command in a fresh process with numba's cache warm
     (target < 10 s).
-Targets (issue 4): >= 2e7 salt-steps/s/core in equilibrium mode.
+Targets (issue 4): >= 2e7 salt-steps/s/core in equilibrium mode.  Best of five repeats; on a
+shared virtual machine the figures still vary by up to ~1.5x between runs.
 """
 
 import argparse
@@ -42,14 +43,16 @@ def bench_kernel(salt, law, n_cells, n_sols, spd=96):
     st = m.initial_state(n_cells, 0.05, T[0], rh[0])
     m.step(st.copy(), T[:2], rh[:2], 600.0, 0.0, 925.0)  # compile
     best = np.inf
-    for _ in range(3):
+    for _ in range(5):
         s = st.copy()
-        liquid = 0
         t0 = time.perf_counter()
         for k in range(n_sols):
-            r = m.step(s, T[k * spd:(k + 1) * spd], rh[k * spd:(k + 1) * spd], 600.0, 0.0, 925.0)
-            liquid += int((r.liquid_water > 0).sum())
+            m.step(s, T[k * spd:(k + 1) * spd], rh[k * spd:(k + 1) * spd], 600.0, 0.0, 925.0)
         best = min(best, time.perf_counter() - t0)
+    s, liquid = st.copy(), 0  # brine share, outside the timing
+    for k in range(n_sols):
+        r = m.step(s, T[k * spd:(k + 1) * spd], rh[k * spd:(k + 1) * spd], 600.0, 0.0, 925.0)
+        liquid += int((r.liquid_water > 0).sum())
     return n_cells * n_sols * spd / best, liquid / (n_cells * n_sols * spd)
 
 
