@@ -59,17 +59,8 @@ RS1959_PHI_MGSO4_298 = [(0.1, 0.590), (0.2, 0.560)]
 # (b) Deliquescence RH of the saturated solutions, Greenspan (1977)
 # ---------------------------------------------------------------------------------------------------------
 
-#: Greenspan (1977) J. Res. NBS 81A, 89, Table 1 fit equations RH% = a0 + a1 t + a2 t^2 + a3 t^3 (t in °C),
-#: coefficients read from a public copy (matusm/HumiFixPoints, OIML R121). Flag: read.
-GREENSPAN1977_COEFFS = {
-    "NaCl": (75.5164, 0.0398321, -0.265459e-2, 0.2848e-4),
-    "KCl": (88.619, -0.19334, 0.899706e-3, 0.0),
-    "MgCl2": (33.6686, -0.00797397, -0.108988e-2, 0.0),
-}
-
 #: Greenspan (1977) Table 2: equilibrium RH (fraction) over the saturated solution at t = 0, 5, ..., 40 °C,
-#: (temperature_C, rh). Values computed from GREENSPAN1977_COEFFS (read); they equal the printed Table 2
-#: (recalled: e.g. NaCl 75.29 %, KCl 84.34 %, MgCl2 32.78 % at 25 °C) to 0.01 %RH.
+#: (temperature_C, rh). Flag: from memory (e.g. NaCl 75.29 %, KCl 84.34 %, MgCl2 32.78 % at 25 °C).
 #: Stated uncertainties (Greenspan, from memory): NaCl 0.1-0.3 %RH, KCl 0.25-0.5 %RH, MgCl2 0.13-0.33 %RH.
 #: NaCl 5-40 °C and KCl 0-40 °C are use="test" tables (independent of the fit); MgCl2 0-40 °C is a
 #: use="fit" table in MgCl2.toml (re-check of the fit). NaCl at 0 °C refers to halite, metastable below 0.1 °C.
@@ -98,7 +89,7 @@ CRC_WEXLER_CONSTANT_RH = {
 
 #: CRC Handbook of Chemistry and Physics, 102nd ed. (2021), "Concentrative properties of aqueous solutions",
 #: column Δ (freezing-point depression, °C), (wt_percent, delta_C), up to 15 wt% (MgCl2: the table stops at
-#: 5 wt%). Flag: read (public copy amosonabike/CRC-Solution-Properties-). These rows are ALSO in
+#: 5 wt%). Flag: read (a public copy of the CRC table). These rows are ALSO in
 #: use="fit" tables of NaCl.toml, CaCl2.toml, MgCl2.toml (re-check of the fit).
 CRC_FREEZING_DEPRESSION = {
     "NaCl": [(0.5, 0.30), (1.0, 0.59), (2.0, 1.19), (3.0, 1.79), (4.0, 2.41), (5.0, 3.05), (6.0, 3.70),
@@ -162,7 +153,7 @@ PERITECTICS = {
 # ---------------------------------------------------------------------------------------------------------
 
 #: CRC Handbook, "Aqueous solubility of inorganic compounds at various temperatures", mass %, (temperature_C,
-#: wt_percent). Flag: read (public CSV copy chicolucio/solutions). Solid: NaCl halite (0 °C entry is
+#: wt_percent). Flag: read (a public copy of the CRC table). Solid: NaCl halite (0 °C entry is
 #: below the 0.1 °C hydrohalite transition), KCl sylvite, MgCl2·6H2O, CaCl2·6H2O to 25 °C then CaCl2·4H2O
 #: (30, 40 °C) and CaCl2·2H2O (50 °C), FeCl3·6H2O to 30 °C. The 0-50 °C rows (CaCl2 0-25 °C, FeCl3 0-30 °C)
 #: are use="fit" tables in the systems' files (re-check of the fit).
