@@ -68,25 +68,25 @@ _LEAP_JD_TT = _LEAP_JD + (_LEAP_S + _TT_MINUS_TAI_S) / 86400.0
 
 
 def _to_datetime64(value):
-    """Parse ISO-8601 strings / datetimes / datetime64 into datetime64[ns] (UTC, naive)."""
+    """Parse ISO-8601 strings / datetimes / datetime64 into datetime64[ns] (UTC, naive).
+
+    Text is parsed in one vectorised call (pandas, ISO-8601 format); offsets are
+    converted to UTC; a string that is not ISO-8601 raises ValidityError naming it.
+    """
     arr = np.atleast_1d(np.asarray(value))
     if arr.dtype.kind == "M":
         return arr.astype("datetime64[ns]")
-    out = np.empty(arr.shape, dtype="datetime64[ns]")
-    for i, v in enumerate(arr.flat):  # parsing text: one datetime per time stamp
-        if isinstance(v, _dt.datetime):
-            d = v
-        else:
-            try:
-                d = _dt.datetime.fromisoformat(str(v).strip().replace("Z", "+00:00"))
-            except ValueError:
-                raise ValidityError(
-                    f"time: {str(v)!r} is not an ISO-8601 UTC time stamp; allowed: e.g. 2024-01-31T06:00:00Z"
-                ) from None
-        if d.tzinfo is not None:
-            d = d.astimezone(_dt.timezone.utc).replace(tzinfo=None)
-        out.flat[i] = np.datetime64(d, "ns")
-    return out
+    import pandas as pd
+
+    flat = arr.ravel()
+    text = pd.Series([v.isoformat() if isinstance(v, _dt.datetime) else str(v) for v in flat]
+                     if arr.dtype == object else flat.astype(str)).str.strip()
+    parsed = pd.to_datetime(text, utc=True, format="ISO8601", errors="coerce")
+    bad = parsed.isna().to_numpy()
+    if bad.any():
+        v = text.iloc[int(np.flatnonzero(bad)[0])]
+        raise ValidityError(f"time: {v!r} is not an ISO-8601 UTC time stamp; allowed: e.g. 2024-01-31T06:00:00Z")
+    return parsed.dt.tz_convert(None).to_numpy(dtype="datetime64[ns]").reshape(arr.shape)
 
 
 def utc_to_jd_tt(utc):

@@ -43,6 +43,7 @@ import csv
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 
 from ..errors import ConfigError, InputDataError
 from ..timescales import utc_to_jd_tt
@@ -228,33 +229,39 @@ def read_csv_forcing(path, clock, *, gap_policy="refuse", max_gap_s=None, ignore
     def label(i):
         return f"row {i + 1} (line {line_no[i]})"
 
-    data = {h: [] for h in cols}
-    for i, r in enumerate(rows[1:]):
-        if len(r) != len(header):
-            raise InputDataError(f"{src}: {label(i)}: {len(r)} fields, the header has {len(header)}")
-        for h, j in cols.items():
-            s = r[j].strip()
-            if CSV_COLUMNS[h][1] == "utc":
-                if s.lower() in _MISSING:
-                    raise InputDataError(f"{src}: {label(i)}, column {h!r}: missing time")
-                data[h].append(s)
-                continue
-            if s.lower() in _MISSING:
-                data[h].append(np.nan)
-                continue
-            try:
-                x = float(s)
-            except ValueError:
-                raise InputDataError(f"{src}: {label(i)}, column {h!r}: {s!r} is not a number") from None
-            if not np.isfinite(x):
-                raise InputDataError(f"{src}: {label(i)}, column {h!r}: {s!r} is not a finite number")
-            data[h].append(x)
+    body = rows[1:]
+    lens = np.fromiter(map(len, body), dtype=np.int64, count=len(body))
+    short = np.flatnonzero(lens != len(header))
+    if short.size:
+        i = int(short[0])
+        raise InputDataError(f"{src}: {label(i)}: {lens[i]} fields, the header has {len(header)}")
+    table = np.array(body, dtype=object).reshape(len(body), len(header))
+    missing_tokens = np.array(sorted(_MISSING))
+    data = {}
+    for h, j in cols.items():  # vectorised per column (no loop over rows)
+        col = np.char.strip(table[:, j].astype(str))
+        missing = np.isin(np.char.lower(col), missing_tokens)
+        if CSV_COLUMNS[h][1] == "utc":
+            if missing.any():
+                raise InputDataError(f"{src}: {label(int(np.flatnonzero(missing)[0]))}, column {h!r}: missing time")
+            data[h] = col
+            continue
+        vals = pd.to_numeric(pd.Series(np.where(missing, "nan", col)), errors="coerce").to_numpy(dtype=float)
+        bad = ~missing & ~np.isfinite(vals)
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            what = "is not a finite number" if np.isinf(vals[i]) or col[i].lower() in ("inf", "-inf") else \
+                "is not a number"
+            raise InputDataError(f"{src}: {label(i)}, column {h!r}: {str(col[i])!r} {what}") from None
+        data[h] = vals
     th = seen["time"]
     kind = CSV_COLUMNS[th][1]
     if kind == "utc":
-        for i, s in enumerate(data[th]):  # row-level parse errors first
+        stamps = pd.to_datetime(pd.Series(data[th]), utc=True, format="ISO8601", errors="coerce")
+        if stamps.isna().any():  # row-level parse errors first, in one vectorised pass
+            i = int(np.flatnonzero(stamps.isna().to_numpy())[0])
             try:
-                utc_to_jd_tt(s)
+                utc_to_jd_tt(data[th][i])
             except ValueError as exc:
                 raise InputDataError(f"{src}: {label(i)}, column {th!r}: {exc}") from None
         t_file = _relative_seconds("utc", data[th], clock)
