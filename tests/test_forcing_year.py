@@ -1,0 +1,53 @@
+"""One Mars year of forcing at an equatorial and a high-latitude cell: plausibility against
+observations (sources beside each check).
+
+* Kieffer & Titus (2001, Icarus 154, 162), TES mapping of the north seasonal cap (abstract,
+  read): annual budgets of solid CO2 range up to 1500 kg m-2.
+* Viking Lander 1 (22°N): a diurnal range of about 184-242 K (as quoted in the literature,
+  read); an equatorial surface at moderate thermal inertia should show a range of this order.
+Limitation stated in README: no atmospheric heat transport or polar-night sky infrared, so the
+seasonal frost at high latitude lasts longer than observed.
+"""
+
+import numpy as np
+import pytest
+
+from wetcycle.clock import make_clock
+from wetcycle.forcing import driver
+
+
+@pytest.fixture(scope="module")
+def year():
+    clock = make_clock("mars", steps_per_sol=24, n_sols=669, start_ls=0.0, year=36)
+    cells = driver.make_cells(np.array([2.0, -72.0]), np.array([0.0, 0.0]), albedo=np.array([0.22, 0.25]),
+                              thermal_inertia=np.array([250.0, 220.0]))
+    out, info = driver.run_forcing(cells, clock, driver.ForcingOptions(tau=0.3), spin=True, max_years=10)
+    return clock, out, info
+
+
+def test_spin_up_converges(year):
+    _, _, info = year
+    assert info["spinup_converged"]
+
+
+def test_equatorial_diurnal_range_of_viking_order(year):
+    clock, out, _ = year
+    T = out["surface_temperature"][:, 0].reshape(-1, 24)
+    rng = T.max(axis=1) - T.min(axis=1)
+    # Viking Lander 1: ~58 K diurnal range (184-242 K); an equatorial cell of similar inertia:
+    # range 40-130 K and no CO2 frost at any time (common practice: equatorial Mars is frost-free).
+    assert 40.0 < np.median(rng) < 130.0
+    assert 160.0 < T.min() and T.max() < 310.0
+    assert out["co2_frost"][:, 0].max() == 0.0
+
+
+def test_high_latitude_seasonal_co2_frost_budget(year):
+    clock, out, _ = year
+    frost = out["co2_frost"][:, 1]
+    ls = clock.ls_deg
+    # frost in southern autumn/winter (Ls 30-150), within the observed annual budget of at most
+    # ~1500 kg m-2 (Kieffer & Titus 2001), and gone in southern mid-summer (Ls 290-330; thin
+    # night frost may return as autumn nears, common practice)
+    assert frost[(ls > 30) & (ls < 150)].min() > 0.0
+    assert 100.0 < frost.max() < 1500.0
+    assert frost[(ls > 290) & (ls < 330)].max() == 0.0
