@@ -55,7 +55,7 @@ def _check_range(name, values, where="", exc=ConfigError):
     bad = ~((a >= lo) & (a <= hi))
     if np.any(bad):
         idx = np.argwhere(bad)[0] if a.ndim else ()
-        v = a[tuple(idx)] if a.ndim else float(a)
+        v = float(a[tuple(idx)]) if a.ndim else float(a)
         at = f" at index {tuple(int(i) for i in idx)}" if a.ndim else ""
         raise exc(f"{where}{name}: {v!r} {_UNITS[name]}{at} is not allowed; allowed: {lo:g}-{hi:g} {_UNITS[name]}")
     return a
@@ -258,7 +258,19 @@ class ChamberProgramme:
     _starts: np.ndarray = field(init=False, repr=False)
 
     def __post_init__(self):
+        if not self.segments:
+            raise ConfigError("segment: a chamber programme needs at least one segment")
+        if self.segments[0].mode == "ramp":
+            raise ConfigError("segment[1].mode: 'ramp' is not allowed for the first segment "
+                              "(a ramp starts from the previous segment's values); allowed: hold")
+        if self.humidity_kind not in ("relative_humidity", "vapor_pressure_Pa"):
+            raise ConfigError(f"humidity_kind: {self.humidity_kind!r} is not allowed; "
+                              "allowed: relative_humidity, vapor_pressure_Pa")
+        if self.after_end not in ("error", "repeat", "hold"):
+            raise ConfigError(f"after_end: {self.after_end!r} is not allowed; allowed: error, repeat, hold")
         d = np.array([s.duration_s for s in self.segments], dtype=float)
+        if np.any(~(d > 0)):
+            raise ConfigError(f"segment.duration_s: {float(d[~(d > 0)][0])!r} s is not allowed; allowed: > 0 s")
         object.__setattr__(self, "_starts", np.concatenate([[0.0], np.cumsum(d)]))
 
     @property
@@ -299,7 +311,7 @@ class ChamberProgramme:
         if np.any(late):
             if self.after_end == "error":
                 raise ConfigError(
-                    f"time_s: {t[late][0]!r} s is after the end of the chamber programme ({total:g} s); "
+                    f"time_s: {float(t[late][0])!r} s is after the end of the chamber programme ({total:g} s); "
                     "allowed: set after_end = 'repeat' or 'hold', or lengthen the programme")
             tt = np.mod(t, total) if self.after_end == "repeat" else np.minimum(t, total)
         else:

@@ -79,7 +79,7 @@ class PeriodicTable:
         if np.any(bad):
             i = int(np.flatnonzero(bad)[0])
             raise ConfigError(
-                f"{name}: value {v[i]!r} at Ls {ls[i]:g} is not allowed; allowed: finite, "
+                f"{name}: value {float(v[i])!r} at Ls {ls[i]:g} is not allowed; allowed: finite, "
                 f"{'-inf' if lower is None else lower} to {'inf' if upper is None else upper}"
             )
         self.name = name
@@ -142,7 +142,7 @@ def pressure_at_elevation(elevation_m, p_ref_pa=MARS.mean_surface_pressure_pa, s
     bad = ~(np.abs(z) <= 10.0 * scale_height_m)
     if np.any(bad):
         raise ValidityError(
-            f"elevation_m: {z[bad].flat[0] if z.ndim else float(z)!r} m is outside "
+            f"elevation_m: {float(z[bad].flat[0]) if z.ndim else float(z)!r} m is outside "
             f"+-{10 * scale_height_m:g} m (10 scale heights)"
         )
     p = p_ref_pa * np.exp(-z / scale_height_m)

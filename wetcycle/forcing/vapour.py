@@ -84,7 +84,7 @@ def _finite_nonneg(name, x, unit):
     a = np.asarray(x, dtype=float)
     bad = ~(np.isfinite(a) & (a >= 0))
     if np.any(bad):
-        raise ValidityError(f"{name}: {a[bad].flat[0] if a.ndim else float(a)!r} {unit} is not allowed; allowed: finite, >= 0")
+        raise ValidityError(f"{name}: {float(a[bad].flat[0]) if a.ndim else float(a)!r} {unit} is not allowed; allowed: finite, >= 0")
     return a
 
 
@@ -113,7 +113,7 @@ def vapor_pressure_from_vmr(vmr, surface_pressure_pa):
     """
     v = _finite_nonneg("vmr", vmr, "mol/mol")
     if np.any(v > 1):
-        raise ValidityError(f"vmr: {np.max(v)!r} is not allowed; allowed: 0-1 mol/mol")
+        raise ValidityError(f"vmr: {float(np.max(v))!r} is not allowed; allowed: 0-1 mol/mol")
     p = _finite_nonneg("surface_pressure_pa", surface_pressure_pa, "Pa")
     e = v * p
     return float(e) if e.ndim == 0 else e
@@ -227,7 +227,7 @@ def vapor_pressure_from_relative_humidity(rh, temperature_k):
     """
     r = _finite_nonneg("relative_humidity", rh, "")
     if np.any(r > 1):
-        raise ValidityError(f"relative_humidity: {np.max(r)!r} is not allowed; allowed: 0-1 (fraction)")
+        raise ValidityError(f"relative_humidity: {float(np.max(r))!r} is not allowed; allowed: 0-1 (fraction)")
     e = r * saturation_vapor_pressure_liquid(temperature_k)
     return float(e) if np.ndim(e) == 0 else e
 
@@ -371,7 +371,7 @@ def frost_exchange(e_air_pa, t_surface_k, frost0_kg_m2, dt_s,
                           f"{np.shape(t_surface_k)} must match, (n_steps, n_cells)")
     bad = ~((t >= 110.0) & (t <= 332.0))
     if np.any(bad):
-        raise ValidityError(f"t_surface_k: {t[bad][0]!r} K is outside 110-332 K "
+        raise ValidityError(f"t_surface_k: {float(t[bad][0])!r} K is outside 110-332 K "
                             "(Murphy & Koop 2005 ice/liquid vapour pressure)")
     m0 = np.broadcast_to(_finite_nonneg("frost0_kg_m2", frost0_kg_m2, "kg m-2"), (e.shape[1],)).astype(float)
     dt = _positive("dt_s", dt_s, "s")
