@@ -58,8 +58,8 @@ LATENT_HEAT_CO2 = 5.9e5
 #: Pressure range of the CO2 frost-point fit [Pa] (Mars surface to above 1 atm; 0.5 K from
 #: the handbook sublimation point at 1 atm).
 CO2_PRESSURE_RANGE = (10.0, 1.2e5)
-#: Newton iteration on the surface equation: stop when the root-sum-square update
-#: over a block of cells is below NEWTON_TOL [K]; at most NEWTON_MAXIT sweeps.
+#: Newton iteration on the surface equation: each cell stops when its own update is below
+#: NEWTON_TOL [K] (so results do not depend on which cells share a block); at most NEWTON_MAXIT.
 NEWTON_TOL = 1e-7
 NEWTON_MAXIT = 30
 
@@ -118,8 +118,8 @@ def energy_block_kernel(temp, co2, fa, fd, ff, fg, theta, dt, cellp, diffuse_fra
     Blocked layout (:func:`wetcycle.forcing.regolith.to_blocks`): ``b`` block,
     ``c`` cell within the block.  Per step and block: upward elimination, a
     few SIMD loops over cells for geometry, the absorbed flux, the frost test
-    and the Newton iteration (sweeps over the block until the root-sum-square
-    update is below ``NEWTON_TOL``), back substitution, then the outputs.  The
+    and the Newton iteration (per cell, until its update is below ``NEWTON_TOL``;
+    sweeps end when every cell has converged), back substitution, then the outputs.  The
     slant-path exponential is :func:`exp_neg` (a polynomial, so that loop
     stays SIMD too).
 
@@ -151,9 +151,9 @@ def energy_block_kernel(temp, co2, fa, fd, ff, fg, theta, dt, cellp, diffuse_fra
     r = om / theta
     want_diag = diag_out.shape[0] > 0
     e = np.empty((nn, cb))
-    wk = np.empty((9, cb))    # scratch rows
-    sw, s_in, qq, rhs, r_f, hold, tn, t1o, tprobe = (wk[0], wk[1], wk[2], wk[3], wk[4], wk[5],
-                                                     wk[6], wk[7], wk[8])
+    wk = np.empty((10, cb))   # scratch rows
+    sw, s_in, qq, rhs, r_f, hold, tn, t1o, tprobe, act = (wk[0], wk[1], wk[2], wk[3], wk[4], wk[5],
+                                                          wk[6], wk[7], wk[8], wk[9])
     nc = ts_out.shape[1]
     dg = np.empty((6, cb))
     for b in range(nb):
@@ -201,16 +201,23 @@ def energy_block_kernel(temp, co2, fa, fd, ff, fg, theta, dt, cellp, diffuse_fra
                 tn[c] = max(t0, tf)
                 t1o[c] = t1
             # Newton on P T + Q T^4 = rhs (convex, increasing)
+            # per-cell convergence (a cell's iterations never depend on its block-mates, so a
+            # result is the same whatever the chunking); branch-free to stay SIMD
+            for c in range(cb):
+                act[c] = 1.0
             for it in range(NEWTON_MAXIT):
-                dsq = 0.0
+                nact = 0.0
                 for c in range(cb):
                     t = tn[c]
                     pp = ff[b, 0, c]
                     t3 = t * t * t
                     d = (pp * t + qq[c] * t3 * t - rhs[c]) / (pp + 4.0 * qq[c] * t3)
-                    tn[c] = t - d
-                    dsq += d * d
-                if dsq < NEWTON_TOL * NEWTON_TOL:
+                    a = act[c]
+                    tn[c] = t - a * d
+                    a = a * (1.0 if d * d >= NEWTON_TOL * NEWTON_TOL else 0.0)
+                    act[c] = a
+                    nact += a
+                if nact == 0.0:
                     break
             for c in range(cb):
                 hd = hold[c] > 0.0
