@@ -61,8 +61,8 @@ def test_blocks_chain_exactly(setup):
 
 def test_results_do_not_depend_on_chunking(setup):
     # A chunk is a pure function of its cells: each cell alone gives the same numbers as the
-    # three together (invariant; Newton converges per cell).  To 1e-9, not bit for bit: NumPy's
-    # SIMD transcendentals in the per-cell set-up may differ by an ulp between array lengths.
+    # three together (invariant; Newton converges per cell).  To 1e-9, not bit for bit: the
+    # layouts still differ in the last bits (source not yet found; NumPy's sin/cos/exp ruled out).
     clock, cells, model = setup
     _, together = dr.forcing_block(model, dr.initial_state(model, clock), clock, 48)
     for i in range(cells.n_cells):
