@@ -1,0 +1,252 @@
+"""Maps: one per-cell statistic of a gridded result, one panel per salt.
+
+>>> import wetcycle.maps as wm
+>>> path = wm.plot_map(ds, "/tmp/liquid-hours.png")              # doctest: +SKIP
+
+A gridded result has dimensions ``(salt, lat, lon)``: coordinates ``lat``
+[degree_north] and ``lon`` [degree_east, east-positive], both 1-D, and per-cell
+statistics named as in :mod:`wetcycle.vocabulary`; NaN marks a masked cell (not
+modelled).  As in :mod:`wetcycle.plots`, matplotlib is imported inside the
+functions and figures are drawn on the Agg canvas, never through ``pyplot``.
+
+Cells are drawn as quadrilaterals (``pcolormesh``) between cell edges: the CF
+``bounds`` variable of ``lat``/``lon`` where the dataset has one, otherwise
+midway between neighbouring centres, the outer edges half a spacing beyond the
+outer centres (latitude edges clipped to ±90°).  Axes are equal in degrees
+(plate carrée).  Colours: the sequential "cividis" map, designed to read the
+same with red-green colour-vision deficiency (Nuñez, Anderton & Renslow 2018,
+PLoS ONE 13, e0199239, doi:10.1371/journal.pone.0199239); one colour scale is
+shared by every panel so salts compare directly; masked cells are light grey.
+"""
+
+from __future__ import annotations
+
+import os
+import textwrap
+from pathlib import Path
+
+import numpy as np
+
+from .errors import ConfigError, InputDataError
+from .plots import CAVEAT, _check_path, _new_figure, _salt_names, _save
+
+__all__ = ["plot_map", "map_figure", "MAP_COLORMAP", "MASKED_COLOUR"]
+
+MAP_COLORMAP = "cividis"
+MASKED_COLOUR = "0.84"        # light grey: no value, clearly apart from cividis' dark-blue low end
+GRID_DIMS = ("salt", "lat", "lon")
+#: statistics that count something from zero: their colour scale starts at 0
+_COUNT_UNITS = ("hour", "h")
+_COUNT_NAMES = ("wet_events_per_year", "clamped_steps")
+
+
+# ---- input -------------------------------------------------------------------------
+def _open_grid(ds):
+    """A gridded result from an ``xarray.Dataset`` or a NetCDF path."""
+    import xarray as xr
+    if isinstance(ds, (str, os.PathLike)):
+        if not Path(ds).is_file():
+            raise InputDataError(f"result: file {str(ds)!r} does not exist")
+        try:
+            with xr.open_dataset(ds) as f:
+                ds = f.load()
+        except (OSError, ValueError) as exc:
+            raise InputDataError(f"result: {str(ds)!r} is not a readable NetCDF file ({exc})") from None
+    if not isinstance(ds, xr.Dataset):
+        raise InputDataError(f"result: expected an xarray.Dataset or a NetCDF path, got {type(ds).__name__}")
+    missing = [d for d in ("lat", "lon") if d not in ds.dims]
+    if missing:
+        raise InputDataError(f"result: dataset has no {' and '.join(repr(d) for d in missing)} "
+                             f"dimension; not a gridded result: use wetcycle plot")
+    if "salt" not in ds.dims:
+        raise InputDataError("result: gridded dataset has no 'salt' dimension; expected (salt, lat, lon)")
+    return ds
+
+
+def _grid_stats(ds):
+    return [str(v) for v in ds.data_vars if set(ds[v].dims) == set(GRID_DIMS)]
+
+
+def _check_stat(ds, stat):
+    if not isinstance(stat, str) or stat not in ds.data_vars:
+        have = _grid_stats(ds)
+        raise ConfigError(f"stat: {stat!r} is not in the result; per-cell statistics in it: "
+                          f"{', '.join(have) if have else '(none)'}")
+    dims = tuple(ds[stat].dims)
+    if set(dims) != set(GRID_DIMS):
+        raise ConfigError(f"stat: {stat!r} has dimensions {dims}, a map needs (salt, lat, lon); "
+                          f"per-cell statistics in the result: {', '.join(_grid_stats(ds)) or '(none)'}")
+
+
+def _edges(ds, name, lo, hi):
+    """Cell edges [degree] along coordinate ``name``: CF bounds if given, else midway between centres."""
+    c = np.asarray(ds[name].values, dtype=float)
+    if c.ndim != 1 or not np.all(np.isfinite(c)):
+        raise InputDataError(f"{name}: coordinate must be 1-D and finite")
+    if c.size > 1 and not np.all(np.diff(c) > 0):
+        raise InputDataError(f"{name}: centres must be strictly ascending; got {c[:4].tolist()}...")
+    bname = ds[name].attrs.get("bounds")
+    if bname and bname in ds.variables:
+        b = np.asarray(ds[bname].values, dtype=float)
+        if b.shape != (c.size, 2):
+            raise InputDataError(f"{bname}: bounds of {name} must have shape ({c.size}, 2), got {b.shape}")
+        b = np.sort(b, axis=1)
+        if c.size > 1 and not np.allclose(b[1:, 0], b[:-1, 1]):
+            raise InputDataError(f"{bname}: cells of {name} are not contiguous; a map needs adjoining cells")
+        e = np.concatenate([b[:, 0], b[-1:, 1]])
+    elif c.size == 1:
+        raise InputDataError(f"{name}: one centre and no CF bounds variable; the cell width is unknown")
+    else:
+        mid = 0.5 * (c[1:] + c[:-1])
+        e = np.concatenate([[c[0] - (mid[0] - c[0])], mid, [c[-1] + (c[-1] - mid[-1])]])
+    if lo is not None:
+        e = np.clip(e, lo, hi)
+    return e
+
+
+def _scale(values, stat, units):
+    """Shared colour limits over every panel."""
+    finite = values[np.isfinite(values)]
+    if finite.size == 0:
+        return 0.0, 1.0
+    vmin, vmax = float(finite.min()), float(finite.max())
+    if vmin >= 0.0 and (units in _COUNT_UNITS or stat in _COUNT_NAMES):
+        vmin = 0.0
+    if vmax <= vmin:
+        vmax = vmin + (abs(vmin) * 0.05 if vmin else 1.0)
+    return vmin, vmax
+
+
+def _units_text(units):
+    return "–" if units in ("1", "") else units
+
+
+def _layout(n, aspect):
+    """(rows, columns) of panels: wide maps stack in two columns at most."""
+    ncols = min(n, 2 if aspect >= 1.4 else 3)
+    return -(-n // ncols), ncols
+
+
+# ---- figure ------------------------------------------------------------------------
+def map_figure(ds, *, salts=None, stat="liquid_hours_per_year"):
+    """The figure of :func:`plot_map` (a ``matplotlib.figure.Figure``); same arguments."""
+    from matplotlib import colormaps
+    from matplotlib.patches import Patch
+    from matplotlib.ticker import MaxNLocator
+    ds = _open_grid(ds)
+    _check_stat(ds, stat)
+    salts = _salt_names(ds, salts)
+    lat_e = _edges(ds, "lat", -90.0, 90.0)
+    lon_e = _edges(ds, "lon", None, None)
+    var = ds[stat].sel(salt=salts).transpose(*GRID_DIMS)
+    values = np.asarray(var.values, dtype=float)
+    units = str(var.attrs.get("units", ""))
+    long_name = str(var.attrs.get("long_name", stat))
+    vmin, vmax = _scale(values, stat, units)
+    cmap = colormaps[MAP_COLORMAP].with_extremes(bad=MASKED_COLOUR)
+
+    span_x, span_y = lon_e[-1] - lon_e[0], lat_e[-1] - lat_e[0]
+    aspect = span_x / span_y
+    nrows, ncols = _layout(len(salts), aspect)
+    panel_w = min(7.5, 11.0 / ncols)                 # the whole figure stays within ~13 in
+    panel_h = panel_w / aspect
+    if panel_h > 6.0:                                # tall regions: limit the height instead
+        panel_w, panel_h = 6.0 * aspect, 6.0
+    panel_h = max(panel_h, 1.4)
+    # width: panels + latitude label + colour bar.  Height: panels with their titles and x labels,
+    # plus fixed bands in inches for the title and for the foot (masked-cell note, caveat), kept
+    # outside the layout engine so panel titles never run into them.
+    width = max(5.5, panel_w * ncols + 0.4 * (ncols - 1) + 2.0)
+    title = str(ds.attrs.get("scenario_name") or ds.attrs.get("title") or "wetcycle result")
+    head = (textwrap.fill(f"{title} — {long_name} ({stat})", width=int(width * 11))
+            + "\none panel per salt, shared colour scale")
+    top = (head.count("\n") + 1) * 11 * 1.3 / 72 + 0.15
+    foot = 0.5
+    height = (panel_h + 0.75) * nrows + top + foot + 0.2
+    fig = _new_figure(width, height)
+    fig.get_layout_engine().set(rect=(0.0, foot / height, 1.0, 1.0 - (foot + top) / height),
+                                w_pad=0.06, h_pad=0.06)
+    fig.text(0.5, 1.0 - 0.08 / height, head, ha="center", va="top", fontsize=11,
+             linespacing=1.3).set_in_layout(False)
+    gs = fig.add_gridspec(nrows, ncols)
+    axes, mesh = [], None
+    for k, name in enumerate(salts):
+        ax = fig.add_subplot(gs[k // ncols, k % ncols], label=f"map {name}")
+        data = np.ma.masked_invalid(values[k])
+        mesh = ax.pcolormesh(lon_e, lat_e, data, cmap=cmap, vmin=vmin, vmax=vmax, shading="flat",
+                             rasterized=True)
+        ax.set_xlim(lon_e[0], lon_e[-1])
+        ax.set_ylim(lat_e[0], lat_e[-1])
+        ax.set_aspect("equal")
+        ax.xaxis.set_major_locator(MaxNLocator(nbins=int(np.clip(panel_w * 1.1, 3, 7)),
+                                               steps=[1, 2, 3, 5, 6, 10]))
+        ax.yaxis.set_major_locator(MaxNLocator(nbins=7, steps=[1, 2, 3, 5, 6, 10]))
+        ax.grid(color="white", lw=0.4, alpha=0.5)
+        ax.tick_params(labelsize=8)
+        if k + ncols >= len(salts):            # no panel below this one
+            ax.set_xlabel("longitude [°E]")
+        if k % ncols == 0:
+            ax.set_ylabel("latitude [°N]")
+        n_ok = int(np.isfinite(values[k]).sum())
+        note = (f"max {np.nanmax(values[k]):.3g}" + ("" if units in ("1", "") else f" {units}")
+                if n_ok else "no modelled cell")
+        if panel_w >= 3.5:
+            ax.set_title(name, fontsize=10, fontweight="bold", loc="left")
+            ax.set_title(note, fontsize=8, loc="right", color="0.3")
+        else:                                        # narrow panel: the note goes under the name
+            ax.set_title(f"{name}\n{note}", fontsize=9, loc="left")
+        axes.append(ax)
+    cbar = fig.colorbar(mesh, ax=axes, shrink=0.9 if nrows == 1 else 0.7, aspect=25, pad=0.02)
+    cbar.set_label(f"{long_name} [{_units_text(units)}]")
+    cbar.ax.set_label("colour bar")
+    cbar.ax.tick_params(labelsize=8)
+    masked = int((~np.isfinite(values)).sum())
+    if masked:
+        fig.legend(handles=[Patch(facecolor=MASKED_COLOUR, edgecolor="0.5", lw=0.5,
+                                  label="no value: cell masked (not modelled)")],
+                   loc="lower left", bbox_to_anchor=(0.0, 0.2 / height), borderaxespad=0.2,
+                   frameon=False, fontsize=8).set_in_layout(False)
+    fig.text(0.5, 0.06 / height, CAVEAT, ha="center", va="bottom", fontsize=8, style="italic", color="0.3")
+    return fig
+
+
+def plot_map(ds, path, *, salts=None, stat="liquid_hours_per_year"):
+    """Map one per-cell statistic of a gridded result, one panel per salt; save to ``path``.
+
+    Each panel shows the statistic over the latitude-longitude grid as
+    cells (``pcolormesh`` between cell edges; see the module docstring), equal
+    aspect in degrees, in the colour-blind-safe sequential map "cividis" with
+    one colour scale for all panels (from 0 for hours and counts, else the data
+    range).  Masked cells (NaN) are light grey and named in a legend.  The
+    colour bar carries the variable's ``long_name`` and ``units``; the title the
+    scenario name and the statistic.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset or path
+        A gridded wetcycle result with dimensions ``(salt, lat, lon)`` (``lat``
+        [degree_north] and ``lon`` [degree_east] 1-D ascending), or its NetCDF file.
+    path : str or Path
+        Output file, ``.png``, ``.pdf`` or ``.svg``; its directory must exist.
+        Written to a temporary file in the same directory, then moved into place.
+    salts : str or list of str, optional
+        Salts to show (case ignored); default all of the result's.
+    stat : str
+        A variable of the result with dimensions ``(salt, lat, lon)``;
+        default ``"liquid_hours_per_year"`` [hour].
+
+    Returns
+    -------
+    pathlib.Path
+
+    Raises
+    ------
+    InputDataError
+        Not a gridded result (no ``lat``/``lon`` dimensions), unreadable file,
+        coordinates not strictly ascending or a single cell without bounds.
+    ConfigError
+        ``stat`` not in the result or not on (salt, lat, lon); a salt not in the
+        result; bad suffix or missing directory.
+    """
+    _check_path(path)
+    return _save(map_figure(ds, salts=salts, stat=stat), path)
