@@ -120,13 +120,20 @@ def _demo_path():
 
 
 def cmd_run(args):
-    from .output import summary_text
-    from .run import run
-
-    ds = run(args.scenario, progress=not args.quiet, output_path=args.output)
     from .config import load_scenario
-    out = args.output or load_scenario(args.scenario).output_path
-    print(summary_text(ds))
+    from .output import summary_text
+
+    sc = load_scenario(args.scenario)
+    out = args.output or sc.output_path
+    if sc["grid"] is not None:
+        from .grid import grid_summary_text, run_grid
+        ds = run_grid(sc, workers=getattr(args, "workers", 1), progress=not args.quiet, output_path=out,
+                      fresh=getattr(args, "fresh", False))
+        print(grid_summary_text(ds))
+    else:
+        from .run import run
+        ds = run(sc, progress=not args.quiet, output_path=out)
+        print(summary_text(ds))
     print(f"result written to {out}")
     return 0
 
@@ -135,13 +142,27 @@ def cmd_demo(args):
     """The built-in demo: the demo scenario (invented site), then its table."""
     path = _demo_path()
     print(f"wetcycle demo: {path.name}, one Mars year at an invented mid-latitude site\n")
-    return cmd_run(argparse.Namespace(scenario=path, output=None, quiet=args.quiet))
+    return cmd_run(argparse.Namespace(scenario=path, output=None, quiet=args.quiet, workers=1, fresh=False))
 
 
 def cmd_summary(args):
     from .output import open_result, summary_text
 
-    print(summary_text(open_result(args.result)))
+    ds = open_result(args.result)
+    if "lat" in ds.dims:
+        from .grid import grid_summary_text
+        print(grid_summary_text(ds))
+    else:
+        print(summary_text(ds))
+    return 0
+
+
+def cmd_map(args):
+    from .maps import plot_map
+    from .output import open_result
+
+    path = plot_map(open_result(args.result), args.output, salts=args.salt or None, stat=args.stat)
+    print(f"figure written to {path}")
     return 0
 
 
@@ -194,6 +215,10 @@ def build_parser():
     pr.add_argument("scenario", help="scenario TOML file (see runs/demo.toml)")
     pr.add_argument("-o", "--output", help="NetCDF result path (default: the scenario's output)")
     pr.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
+    pr.add_argument("--workers", type=int, default=1, metavar="N",
+                    help="gridded runs: local worker processes (default 1: in this process)")
+    pr.add_argument("--fresh", action="store_true",
+                    help="gridded runs: discard finished chunks of an earlier run and start over")
     pr.set_defaults(func=cmd_run)
 
     pd = sub.add_parser("demo", help="run the built-in demo scenario",
@@ -214,6 +239,14 @@ def build_parser():
     pp.add_argument("--sols", type=int, nargs=2, metavar=("FIRST", "LAST"), help="sols to show")
     pp.add_argument("--salt", action="append", help="salt to show (repeatable; default all)")
     pp.set_defaults(func=cmd_plot)
+
+    pmap = sub.add_parser("map", help="map of a statistic from a gridded result",
+                          description="Map of a per-cell statistic of a gridded result, one panel per salt.")
+    pmap.add_argument("result", help="NetCDF result of a gridded run")
+    pmap.add_argument("-o", "--output", required=True, help="figure path (PNG, PDF, SVG)")
+    pmap.add_argument("--salt", action="append", help="salt to map (repeatable; default all)")
+    pmap.add_argument("--stat", default="liquid_hours_per_year", help="statistic (default liquid_hours_per_year)")
+    pmap.set_defaults(func=cmd_map)
 
     pg = sub.add_parser("diagram", help="temperature-RH phase diagram of a salt system",
                         description="Phase diagram of one salt-water system in temperature and relative "

@@ -86,6 +86,21 @@ SCHEMA = {
         "gap_policy": (str, "refuse", None, None, "refuse | interpolate"),
         "max_gap_s": (NUM, None, 0.0, 1e9, "s"),
     },
+    "grid": {
+        "lat_min": (NUM, REQUIRED, -90.0, 90.0, "degrees north, centre of the first row"),
+        "lat_max": (NUM, REQUIRED, -90.0, 90.0, "degrees north, centre of the last row"),
+        "lat_step": (NUM, REQUIRED, 0.01, 90.0, "degrees"),
+        "lon_min": (NUM, REQUIRED, -360.0, 360.0, "degrees east"),
+        "lon_max": (NUM, REQUIRED, -360.0, 360.0, "degrees east"),
+        "lon_step": (NUM, REQUIRED, 0.01, 360.0, "degrees"),
+        "mask_abs_latitude_above": (NUM, None, 0.0, 90.0, "skip cells poleward of this latitude"),
+        "chunk_cells": (int, 64, 1, 1000000, "cells per chunk"),
+        "elevation": (NUM, 0.0, -9000.0, 25000.0, "m"),
+        "albedo": (NUM, 0.25, 0.0, 1.0, ""),
+        "thermal_inertia": (NUM, 250.0, 10.0, 5000.0, "J m-2 K-1 s-1/2"),
+        "emissivity": (NUM, 0.95, 0.5, 1.0, ""),
+        "salt_depth": (NUM, 0.0, 0.0, 1.0, "m"),
+    },
     "salt": {
         "name": (str, REQUIRED, None, None, "a salt system, e.g. NaCl, Mg(ClO4)2"),
         "loading": (NUM, 0.05, 1e-6, 100.0, "kg m-2 of anhydrous salt"),
@@ -106,6 +121,7 @@ SCHEMA = {
     },
 }
 ARRAYS = ("site", "salt")
+OPTIONAL_TABLES = ("grid",)
 
 
 def _check_table(where, table, schema, src):
@@ -174,7 +190,20 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
     for t, schema in SCHEMA.items():
         if t in ARRAYS:
             continue
+        if t in OPTIONAL_TABLES:
+            tables[t] = _check_table(t, doc[t], schema, source) if t in doc else None
+            continue
         tables[t] = _check_table(t, doc.get(t, {}), schema, source)
+    grid = tables["grid"]
+    if grid is not None:
+        if "site" in doc:
+            raise ConfigError(f"{source}: [grid] and [[site]]: give one or the other, not both")
+        if grid["lat_max"] < grid["lat_min"] or grid["lon_max"] < grid["lon_min"]:
+            raise ConfigError(f"{source}: grid: lat_max/lon_max must not be below lat_min/lon_min")
+        if not tables["forcing"]["kind"] == "energy_balance":
+            raise ConfigError(f"{source}: grid: gridded runs need forcing.kind = energy_balance")
+        doc = dict(doc, site=grid_sites(grid))
+        tables["output"]["series"] = False  # a grid keeps statistics only
     lists = {}
     for t in ARRAYS:
         items = doc.get(t, [])
@@ -226,6 +255,32 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
         raise ConfigError(f"{source}: site.name: site names must be unique, got {site_names}")
     return Scenario(name=sc["name"], tables=tables, sites=lists["site"], salts=lists["salt"],
                     text=text, base_dir=Path(base_dir), source=source)
+
+
+def grid_sites(grid):
+    """The cells of a ``[grid]`` table as site tables (row-major, south to north, west to east)."""
+    import numpy as np
+    lats, lons = grid_axes(grid)
+    out = []
+    for i, la in enumerate(lats):
+        if grid["mask_abs_latitude_above"] is not None and abs(la) > grid["mask_abs_latitude_above"]:
+            continue
+        for j, lo in enumerate(lons):
+            out.append({"name": f"cell_{i}_{j}", "latitude": float(la), "longitude": float(lo),
+                        **{k: grid[k] for k in ("elevation", "albedo", "thermal_inertia", "emissivity",
+                                                 "salt_depth")}})
+    if not out:
+        raise ConfigError("grid: every cell is masked")
+    return out
+
+
+def grid_axes(grid):
+    """Latitude and longitude centres [degrees] of a ``[grid]`` table."""
+    import numpy as np
+    n_lat = int(round((grid["lat_max"] - grid["lat_min"]) / grid["lat_step"])) + 1
+    n_lon = int(round((grid["lon_max"] - grid["lon_min"]) / grid["lon_step"])) + 1
+    return (grid["lat_min"] + grid["lat_step"] * np.arange(n_lat),
+            grid["lon_min"] + grid["lon_step"] * np.arange(n_lon))
 
 
 def load_scenario(path):
