@@ -61,8 +61,8 @@ def test_blocks_chain_exactly(setup):
 
 def test_results_do_not_depend_on_chunking(setup):
     # A chunk is a pure function of its cells: each cell alone gives the same numbers as the
-    # three together (invariant; Newton converges per cell).  To 1e-9, not bit for bit: the
-    # layouts still differ in the last bits (source not yet found; NumPy's sin/cos/exp ruled out).
+    # three together, bit for bit (invariant: per-cell Newton convergence and per-cell reductions
+    # in a fixed summation order).
     clock, cells, model = setup
     _, together = dr.forcing_block(model, dr.initial_state(model, clock), clock, 48)
     for i in range(cells.n_cells):
@@ -70,7 +70,7 @@ def test_results_do_not_depend_on_chunking(setup):
         m1 = dr.prepare_forcing(one, clock)
         _, alone = dr.forcing_block(m1, dr.initial_state(m1, clock), clock, 48)
         for k in together:
-            np.testing.assert_allclose(alone[k][:, 0], together[k][:, i], rtol=1e-9, atol=1e-12)
+            np.testing.assert_array_equal(alone[k][:, 0], together[k][:, i])
 
 
 def test_iter_forcing_covers_the_clock(setup):

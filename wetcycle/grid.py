@@ -11,10 +11,10 @@ temporary name and renamed into place.
 
 Chunk independence: grid runs spin the surface energy balance up for exactly
 ``clock.spinup_max_years`` (no early stop, which would depend on the slowest
-cell of a chunk), and the energy kernel converges its Newton iteration per
-cell.  Statistics agree across chunkings and worker counts to rounding
-(1e-9 relative; the vectorised energy kernel still differs in the last bits
-between layouts).
+cell of a chunk), the energy kernel converges its Newton iteration per cell,
+and per-cell reductions in the forcing sum each cell's values in a fixed order.
+Statistics are bitwise identical whatever the chunk size or worker count
+(``tests/test_grid.py``).
 """
 
 from __future__ import annotations

@@ -278,6 +278,20 @@ def _energy_inputs(model, clock, i0, i1):
             _tau(model, ls)[:, None], _pressure(model, ls))
 
 
+def _per_cell_sum(a):
+    """Sum of ``a[..., cell]`` over every axis but the last, cell by cell, in an order that does
+    not depend on how many cells there are (each cell's values summed as one contiguous row),
+    so that a chunk's results do not depend on the chunking."""
+    a = np.asarray(a, dtype=float)
+    rows = np.ascontiguousarray(np.moveaxis(a, -1, 0).reshape(a.shape[-1], -1))
+    return rows.sum(axis=1)
+
+
+def _per_cell_mean(a):
+    a = np.asarray(a, dtype=float)
+    return _per_cell_sum(a) / (a.size // a.shape[-1])
+
+
 def initial_state(model, clock, temperature=None):
     """A first-guess state at the start of ``clock``.
 
@@ -301,9 +315,9 @@ def initial_state(model, clock, temperature=None):
         n_year = int(round(model.planet.year_sols))
         yclock = make_clock(model.planet, steps_per_sol=1, n_sols=n_year,
                             start_jd_tt=float(clock.jd_tt[0]), align_to_midnight=False)
-        q = daily_mean_toa_insolation(np.deg2rad(c.latitude_deg)[None, :],
-                                      yclock.declination_rad[:, None],
-                                      yclock.distance_au[:, None]).mean(axis=0)
+        q = _per_cell_mean(daily_mean_toa_insolation(np.deg2rad(c.latitude_deg)[None, :],
+                                                     yclock.declination_rad[:, None],
+                                                     yclock.distance_au[:, None]))
         temperature = ((1.0 - c.albedo) * q / (c.emissivity * STEFAN_BOLTZMANN)) ** 0.25
         if model.options.co2_frost:
             temperature = np.maximum(temperature, co2_frost_point(model.p_datum) + 1.0)
@@ -401,10 +415,11 @@ def _year_stats(model, estate, yclock, spd, block_sols, bottom_model):
         estate, eo = energy_block(bottom_model, estate, dec, dist, h0, tau, p)
         ts = eo["surface_temperature"].reshape(s1 - s0, spd, -1)
         stats[0, s0:s1] = ts.min(axis=1)
-        stats[1, s0:s1] = ts.mean(axis=1)
+        # daily means over a contiguous last axis: the same summation order for any cell count
+        stats[1, s0:s1] = np.ascontiguousarray(ts.transpose(0, 2, 1)).mean(axis=2)
         stats[2, s0:s1] = ts.max(axis=1)
-        ts_sum += ts.sum(axis=(0, 1))
-        bot_sum += eo["probe_temperature"].sum(axis=0)
+        ts_sum += _per_cell_sum(ts.reshape(-1, ts.shape[-1]))
+        bot_sum += _per_cell_sum(eo["probe_temperature"])
     n = n_sols * spd
     return estate, stats, ts_sum / n, bot_sum / n
 
