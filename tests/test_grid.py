@@ -69,6 +69,19 @@ def test_statistics_do_not_depend_on_worker_count(tmp_path, reference):
     same(run_grid(scenario_from_dict(grid_doc(tmp_path, chunk_cells=2)), workers=2), reference)
 
 
+def test_dask_local_cluster_gives_the_same_statistics(tmp_path, reference):
+    # The same chunk function on a local dask.distributed cluster of two worker processes.
+    pytest.importorskip("dask.distributed")
+    same(run_grid(scenario_from_dict(grid_doc(tmp_path, chunk_cells=3)), workers=2, scheduler="local"),
+         reference)
+
+
+def test_unreachable_scheduler_is_one_clear_error(tmp_path):
+    pytest.importorskip("dask.distributed")
+    with pytest.raises(ConfigError, match="scheduler"):
+        run_grid(scenario_from_dict(grid_doc(tmp_path)), scheduler="tcp://127.0.0.1:1")
+
+
 def test_kill_and_resume_gives_the_same_result(tmp_path, reference):
     sc = scenario_from_dict(grid_doc(tmp_path, chunk_cells=2))
     with pytest.raises(KeyboardInterrupt):

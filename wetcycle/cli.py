@@ -128,7 +128,7 @@ def cmd_run(args):
     if sc["grid"] is not None:
         from .grid import grid_summary_text, run_grid
         ds = run_grid(sc, workers=getattr(args, "workers", 1), progress=not args.quiet, output_path=out,
-                      fresh=getattr(args, "fresh", False))
+                      fresh=getattr(args, "fresh", False), scheduler=getattr(args, "scheduler", None))
         print(grid_summary_text(ds))
     else:
         from .run import run
@@ -217,6 +217,9 @@ def build_parser():
     pr.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
     pr.add_argument("--workers", type=int, default=1, metavar="N",
                     help="gridded runs: local worker processes (default 1: in this process)")
+    pr.add_argument("--scheduler", metavar="ADDRESS",
+                    help="gridded runs on dask.distributed: 'local' starts a local cluster of --workers "
+                    "processes; otherwise the address of a running scheduler (tcp://host:8786)")
     pr.add_argument("--fresh", action="store_true",
                     help="gridded runs: discard finished chunks of an earlier run and start over")
     pr.set_defaults(func=cmd_run)

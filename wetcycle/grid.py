@@ -6,8 +6,9 @@ statistics are written to the run's folder as soon as it finishes
 (``<output>.chunks/chunk_NNNNN.npz``, atomically).  A run started again with
 the same scenario skips finished chunks; a changed scenario refuses to resume
 into an old folder unless told to start over (``fresh=True``).  Chunks run in
-this process or in a local process pool; the final NetCDF is written under a
-temporary name and renamed into place.
+this process, in a local process pool, or on a dask.distributed cluster (a
+local one started for the run, or an existing scheduler); the final NetCDF is
+written under a temporary name and renamed into place.
 
 Chunk independence: grid runs spin the surface energy balance up for exactly
 ``clock.spinup_max_years`` (no early stop, which would depend on the slowest
@@ -111,15 +112,38 @@ def _prepare_dir(sc, rdir, fresh):
     return rdir
 
 
+def _dask_client(scheduler, workers):
+    """A dask.distributed Client: ``"local"`` starts a local cluster, else join ``scheduler``."""
+    try:
+        from dask.distributed import Client, LocalCluster
+    except ImportError:
+        raise ConfigError("scheduler: dask.distributed is not installed; install with "
+                          "pip install 'wetcycle[distributed]'") from None
+    if scheduler == "local":
+        cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
+                               dashboard_address=None)
+        return Client(cluster), cluster
+    try:
+        return Client(scheduler, timeout="10s"), None
+    except (OSError, TimeoutError) as exc:
+        raise ConfigError(f"scheduler: {scheduler!r} could not be reached ({exc}); allowed: 'local' "
+                          "or the address of a running dask scheduler (e.g. tcp://host:8786)") from None
+
+
 def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=None, fresh=False,
-             stop_after_chunks=None):
+             stop_after_chunks=None, scheduler=None):
     """Run a gridded scenario chunk by chunk; return the statistics on (salt, lat, lon).
 
     Parameters
     ----------
     scenario : Scenario or path
     workers : int
-        1: chunks in this process; > 1: a local process pool of that many workers.
+        1: chunks in this process; > 1: a local process pool of that many workers (or, with
+        ``scheduler="local"``, a local dask cluster of that many worker processes).
+    scheduler : str, optional
+        Run the chunks on dask.distributed: ``"local"`` starts a local cluster for the run,
+        any other value is the address of a running scheduler to join.  The same chunk
+        function runs everywhere, so the numbers are the same as in-process.
     fresh : bool
         Discard finished chunks of an earlier run in the run folder.
     stop_after_chunks : int, optional
@@ -152,7 +176,18 @@ def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=Non
             raise KeyboardInterrupt("stopped after the requested number of chunks")
 
     try:
-        if workers == 1:
+        if scheduler is not None:
+            from dask.distributed import as_completed as dask_completed
+            client, cluster = _dask_client(scheduler, workers)
+            try:
+                futs = {client.submit(run_chunk, sc, i0, i1, pure=False): k for k, i0, i1 in todo}
+                for f in dask_completed(list(futs)):
+                    finished(futs[f], f.result())
+            finally:
+                client.close()
+                if cluster is not None:
+                    cluster.close()
+        elif workers == 1:
             for k, i0, i1 in todo:
                 finished(k, run_chunk(sc, i0, i1))
         else:
