@@ -105,6 +105,28 @@ def test_changed_scenario_refuses_to_resume(tmp_path):
     assert ds.sizes["lat"] == 5
 
 
+def test_property_map_reaches_the_cells():
+    # forcing/demo_region.nc (invented): albedo/inertia/elevation per cell from the file, the
+    # NaN crater floor masks its cell, unmapped properties keep the grid-wide value.
+    import xarray as xr
+    doc = tomllib.loads((ROOT / "runs" / "grid_demo.toml").read_text())
+    sc = scenario_from_dict(doc, base_dir=ROOT / "runs")
+    f = xr.open_dataset(ROOT / "forcing" / "demo_region.nc")
+    names = {s["name"] for s in sc.sites}
+    assert len(sc.sites) == 9 * 7 - 1 and "cell_4_3" not in names  # (0 N, 45 E) lies in the crater
+    for site in sc.sites[:10]:
+        v = f.sel(lat=site["latitude"], lon=site["longitude"])
+        assert site["albedo"] == pytest.approx(float(v.alb))
+        assert site["thermal_inertia"] == pytest.approx(float(v.ti))
+        assert site["emissivity"] == 0.95
+    doc["grid"]["property_variables"] = {"albedo": "nope"}
+    with pytest.raises(ConfigError, match="'nope' is not in"):
+        scenario_from_dict(doc, base_dir=ROOT / "runs")
+    doc["grid"]["property_variables"] = {"colour": "alb"}
+    with pytest.raises(ConfigError, match="colour"):
+        scenario_from_dict(doc, base_dir=ROOT / "runs")
+
+
 def test_grid_config_errors():
     doc = grid_doc(Path("/tmp"))
     doc["site"] = [{"name": "x", "latitude": 0.0, "longitude": 0.0}]
@@ -120,7 +142,8 @@ def test_cli_grid_run_summary_and_map(tmp_path, capsys):
     text = (ROOT / "runs" / "grid_demo.toml").read_text()
     text = (text.replace("years = 1.0", "sols = 2").replace("spinup_max_years = 4", "spinup_max_years = 2")
             .replace("lat_step = 10.0", "lat_step = 40.0").replace("lon_step = 15.0", "lon_step = 45.0")
-            .replace('output = "grid_demo/grid_demo.nc"', 'output = "g.nc"'))
+            .replace('output = "grid_demo/grid_demo.nc"', 'output = "g.nc"')
+            .replace('"../forcing/demo_region.nc"', f'"{ROOT / "forcing" / "demo_region.nc"}"'))
     p = tmp_path / "g.toml"
     p.write_text(text)
     assert cli.main(["run", str(p), "-q"]) == 0

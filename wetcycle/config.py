@@ -95,6 +95,8 @@ SCHEMA = {
         "lon_step": (NUM, REQUIRED, 0.01, 360.0, "degrees"),
         "mask_abs_latitude_above": (NUM, None, 0.0, 90.0, "skip cells poleward of this latitude"),
         "chunk_cells": (int, 64, 1, 1000000, "cells per chunk"),
+        "properties": (str, None, None, None, "NetCDF file of surface properties on (lat, lon)"),
+        "property_variables": (dict, None, None, None, "our name = the file's variable name"),
         "elevation": (NUM, 0.0, -9000.0, 25000.0, "m"),
         "albedo": (NUM, 0.25, 0.0, 1.0, ""),
         "thermal_inertia": (NUM, 250.0, 10.0, 5000.0, "J m-2 K-1 s-1/2"),
@@ -143,8 +145,12 @@ def _check_table(where, table, schema, src):
         if typ == NUM and isinstance(v, bool):
             ok = False
         if not ok:
-            want = {str: "a string", bool: "true or false", int: "an integer"}.get(typ, "a number")
+            want = {str: "a string", bool: "true or false", int: "an integer",
+                    dict: "a table"}.get(typ, "a number")
             raise ConfigError(f"{src}: {name}: {v!r} is not {want}")
+        if typ is dict:
+            out[key] = dict(v)
+            continue
         if typ in (NUM, int):
             if not math.isfinite(v) or (lo is not None and v < lo) or (hi is not None and v > hi):
                 raise ConfigError(f"{src}: {name}: {v!r} is outside the allowed range {lo:g} to {hi:g}"
@@ -202,7 +208,7 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
             raise ConfigError(f"{source}: grid: lat_max/lon_max must not be below lat_min/lon_min")
         if not tables["forcing"]["kind"] == "energy_balance":
             raise ConfigError(f"{source}: grid: gridded runs need forcing.kind = energy_balance")
-        doc = dict(doc, site=grid_sites(grid))
+        doc = dict(doc, site=grid_sites(grid, base_dir=Path(base_dir), source=source))
         tables["output"]["series"] = False  # a grid keeps statistics only
     lists = {}
     for t in ARRAYS:
@@ -257,20 +263,61 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
                     text=text, base_dir=Path(base_dir), source=source)
 
 
-def grid_sites(grid):
-    """The cells of a ``[grid]`` table as site tables (row-major, south to north, west to east)."""
+GRID_PROPERTIES = ("elevation", "albedo", "thermal_inertia", "emissivity", "salt_depth")
+
+
+def _property_maps(grid, lats, lons, base_dir, source):
+    """Surface properties on the grid from ``grid.properties`` (NetCDF, variables on lat/lon).
+
+    Each mapped variable is taken at the nearest file cell within half a grid step; a NaN masks
+    the cell; properties the mapping does not name keep the grid-wide value.
+    """
     import numpy as np
+    import xarray as xr
+    mapping = grid["property_variables"] or {}
+    unknown = sorted(set(mapping) - set(GRID_PROPERTIES))
+    if unknown:
+        raise ConfigError(f"{source}: grid.property_variables.{unknown[0]}: unknown; allowed: "
+                          f"{', '.join(GRID_PROPERTIES)}")
+    path = Path(grid["properties"])
+    path = path if path.is_absolute() else base_dir / path
+    try:
+        ds = xr.open_dataset(path)
+    except (OSError, ValueError) as exc:
+        raise ConfigError(f"{source}: grid.properties: {str(path)!r} could not be read as NetCDF ({exc})") from None
+    with ds:
+        if "lat" not in ds.coords or "lon" not in ds.coords:
+            raise ConfigError(f"{source}: grid.properties: {path.name} needs lat and lon coordinates")
+        out = {}
+        for ours, theirs in mapping.items():
+            if theirs not in ds:
+                raise ConfigError(f"{source}: grid.property_variables.{ours}: {theirs!r} is not in {path.name}; "
+                                  f"it has {', '.join(map(str, ds.data_vars))}")
+            try:
+                v = ds[theirs].sel(lat=lats, lon=lons, method="nearest",
+                                   tolerance=0.5 * min(grid["lat_step"], grid["lon_step"]))
+            except KeyError:
+                raise ConfigError(f"{source}: grid.properties: {path.name} does not cover the grid "
+                                  f"(variable {theirs!r})") from None
+            out[ours] = np.asarray(v.transpose("lat", "lon").values, dtype=float)
+    return out
+
+
+def grid_sites(grid, base_dir=Path("."), source="scenario"):
+    """The cells of a ``[grid]`` table as site tables (row-major, south to north, west to east)."""
     lats, lons = grid_axes(grid)
+    maps = _property_maps(grid, lats, lons, base_dir, source) if grid["properties"] else {}
     out = []
     for i, la in enumerate(lats):
         if grid["mask_abs_latitude_above"] is not None and abs(la) > grid["mask_abs_latitude_above"]:
             continue
         for j, lo in enumerate(lons):
-            out.append({"name": f"cell_{i}_{j}", "latitude": float(la), "longitude": float(lo),
-                        **{k: grid[k] for k in ("elevation", "albedo", "thermal_inertia", "emissivity",
-                                                 "salt_depth")}})
+            props = {k: (float(maps[k][i, j]) if k in maps else grid[k]) for k in GRID_PROPERTIES}
+            if any(v != v for v in props.values()):
+                continue  # a NaN property masks the cell
+            out.append({"name": f"cell_{i}_{j}", "latitude": float(la), "longitude": float(lo), **props})
     if not out:
-        raise ConfigError("grid: every cell is masked")
+        raise ConfigError(f"{source}: grid: every cell is masked")
     return out
 
 
