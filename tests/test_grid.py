@@ -69,6 +69,11 @@ def test_statistics_do_not_depend_on_worker_count(tmp_path, reference):
     same(run_grid(scenario_from_dict(grid_doc(tmp_path, chunk_cells=2)), workers=2), reference)
 
 
+def test_threads_give_the_same_statistics(tmp_path, reference):
+    # In-process executor with two threads (the kernels release the GIL).
+    same(run_grid(scenario_from_dict(grid_doc(tmp_path, chunk_cells=2)), workers=2, threads=True), reference)
+
+
 def test_dask_local_cluster_gives_the_same_statistics(tmp_path, reference):
     # The same chunk function on a local dask.distributed cluster of two worker processes.
     pytest.importorskip("dask.distributed")

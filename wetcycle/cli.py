@@ -128,7 +128,8 @@ def cmd_run(args):
     if sc["grid"] is not None:
         from .grid import grid_summary_text, run_grid
         ds = run_grid(sc, workers=getattr(args, "workers", 1), progress=not args.quiet, output_path=out,
-                      fresh=getattr(args, "fresh", False), scheduler=getattr(args, "scheduler", None))
+                      fresh=getattr(args, "fresh", False), scheduler=getattr(args, "scheduler", None),
+                      threads=getattr(args, "threads", False))
         print(grid_summary_text(ds))
     else:
         from .run import run
@@ -217,6 +218,8 @@ def build_parser():
     pr.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
     pr.add_argument("--workers", type=int, default=1, metavar="N",
                     help="gridded runs: local worker processes (default 1: in this process)")
+    pr.add_argument("--threads", action="store_true",
+                    help="gridded runs: use --workers threads in this process instead of processes")
     pr.add_argument("--scheduler", metavar="ADDRESS",
                     help="gridded runs on dask.distributed: 'local' starts a local cluster of --workers "
                     "processes; otherwise the address of a running scheduler (tcp://host:8786)")

@@ -6,7 +6,8 @@ statistics are written to the run's folder as soon as it finishes
 (``<output>.chunks/chunk_NNNNN.npz``, atomically).  A run started again with
 the same scenario skips finished chunks; a changed scenario refuses to resume
 into an old folder unless told to start over (``fresh=True``).  Chunks run in
-this process, in a local process pool, or on a dask.distributed cluster (a
+this process (one at a time, or in threads: the numba kernels release the GIL),
+in a local process pool, or on a dask.distributed cluster (a
 local one started for the run, or an existing scheduler); the final NetCDF is
 written under a temporary name and renamed into place.
 
@@ -26,7 +27,7 @@ import json
 import os
 import shutil
 import tempfile
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor, as_completed
 from pathlib import Path
 
 import numpy as np
@@ -131,7 +132,7 @@ def _dask_client(scheduler, workers):
 
 
 def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=None, fresh=False,
-             stop_after_chunks=None, scheduler=None):
+             stop_after_chunks=None, scheduler=None, threads=False):
     """Run a gridded scenario chunk by chunk; return the statistics on (salt, lat, lon).
 
     Parameters
@@ -140,6 +141,9 @@ def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=Non
     workers : int
         1: chunks in this process; > 1: a local process pool of that many workers (or, with
         ``scheduler="local"``, a local dask cluster of that many worker processes).
+    threads : bool
+        With ``workers > 1``: run chunks in threads of this process instead of worker
+        processes (the heavy numba kernels release the GIL; set-up between them does not).
     scheduler : str, optional
         Run the chunks on dask.distributed: ``"local"`` starts a local cluster for the run,
         any other value is the address of a running scheduler to join.  The same chunk
@@ -191,7 +195,8 @@ def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=Non
             for k, i0, i1 in todo:
                 finished(k, run_chunk(sc, i0, i1))
         else:
-            with ProcessPoolExecutor(max_workers=workers) as pool:
+            pool_kind = ThreadPoolExecutor if threads else ProcessPoolExecutor
+            with pool_kind(max_workers=workers) as pool:
                 futs = {pool.submit(run_chunk, sc, i0, i1): k for k, i0, i1 in todo}
                 for f in as_completed(futs):
                     finished(futs[f], f.result())

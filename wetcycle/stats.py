@@ -40,7 +40,7 @@ def _liquid(st):
     return st == BRINE or st == SUPERSATURATED or st == BRINE_WITH_SALT or st == BRINE_WITH_ICE or st == SUPERCOOLED
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def accumulate(liq, phase, aw, T, ls, ltst, clamped, dt, aw_thr, T_thr, n_ls_bins,
                liquid_s, habitable_s, events, spell_cur, spell_max, by_ls, by_hour,
                T_lo, T_hi, aw_lo, aw_hi, n_clamped, wet_prev):

@@ -109,7 +109,7 @@ def exp_neg(x):
     return p
 
 
-@njit(cache=True, fastmath=True, boundscheck=False, error_model="numpy")
+@njit(cache=True, fastmath=True, boundscheck=False, error_model="numpy", nogil=True)
 def energy_block_kernel(temp, co2, fa, fd, ff, fg, theta, dt, cellp, diffuse_fraction,
                         sin_dec, cos_dec, toa_flux, sin_h0, cos_h0, tau, frost_point,
                         probe_idx, probe_w, ts_out, probe_out, co2_out, diag_out):

@@ -245,7 +245,7 @@ def _psat_surface(t):
     return psat_liquid_kernel(t)
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def frost_kernel(e_air, t_surface, frost0, dt_s, transfer_velocity, layer_thickness,
                  e_surface_out, frost_out, exchange_out):
     """Surface water-frost exchange, stepped through a block (numba kernel).

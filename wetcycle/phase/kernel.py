@@ -187,7 +187,7 @@ def _aw_of(n_diss, w_brine, T, p):
     return math.exp(pz.ln_aw_kernel(n_diss / w_brine, T, p))
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, error_model="numpy", nogil=True)
 def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                T0, dT, lnk, msat, drh, stable, mice, awice, hyd, scal, p, inv_T0, inv_dT, inv_ds, inv_m,
                st, solid, w_hyd, w_brine, w_ice, n_diss, prev, started,
