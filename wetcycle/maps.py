@@ -21,14 +21,12 @@ shared by every panel so salts compare directly; masked cells are light grey.
 
 from __future__ import annotations
 
-import os
 import textwrap
-from pathlib import Path
 
 import numpy as np
 
 from .errors import ConfigError, InputDataError
-from .plots import CAVEAT, _check_path, _new_figure, _salt_names, _save
+from .plots import CAVEAT, _check_path, _new_figure, _read_dataset, _salt_names, _save
 
 __all__ = ["plot_map", "map_figure", "MAP_COLORMAP", "MASKED_COLOUR"]
 
@@ -43,17 +41,7 @@ _COUNT_NAMES = ("wet_events_per_year", "clamped_steps")
 # ---- input -------------------------------------------------------------------------
 def _open_grid(ds):
     """A gridded result from an ``xarray.Dataset`` or a NetCDF path."""
-    import xarray as xr
-    if isinstance(ds, (str, os.PathLike)):
-        if not Path(ds).is_file():
-            raise InputDataError(f"result: file {str(ds)!r} does not exist")
-        try:
-            with xr.open_dataset(ds) as f:
-                ds = f.load()
-        except (OSError, ValueError) as exc:
-            raise InputDataError(f"result: {str(ds)!r} is not a readable NetCDF file ({exc})") from None
-    if not isinstance(ds, xr.Dataset):
-        raise InputDataError(f"result: expected an xarray.Dataset or a NetCDF path, got {type(ds).__name__}")
+    ds = _read_dataset(ds)
     missing = [d for d in ("lat", "lon") if d not in ds.dims]
     if missing:
         raise InputDataError(f"result: dataset has no {' and '.join(repr(d) for d in missing)} "

@@ -101,8 +101,8 @@ def _runs(values):
     return [(int(a), int(b), v[a]) for a, b in zip(starts, stops)]
 
 
-def _open(ds):
-    """A result dataset from an ``xarray.Dataset`` or a NetCDF path; single series made site/salt-shaped."""
+def _read_dataset(ds):
+    """An ``xarray.Dataset`` given as itself or as a NetCDF path (one-line errors otherwise)."""
     import xarray as xr
     if isinstance(ds, (str, os.PathLike)):
         if not Path(ds).is_file():
@@ -114,6 +114,12 @@ def _open(ds):
             raise InputDataError(f"result: {str(ds)!r} is not a readable NetCDF file ({exc})") from None
     if not isinstance(ds, xr.Dataset):
         raise InputDataError(f"result: expected an xarray.Dataset or a NetCDF path, got {type(ds).__name__}")
+    return ds
+
+
+def _open(ds):
+    """A result dataset from an ``xarray.Dataset`` or a NetCDF path; single series made site/salt-shaped."""
+    ds = _read_dataset(ds)
     if "site" not in ds.dims and "time" in ds.dims and "salt" in ds.attrs:
         # a wetcycle.run_series result: one salt at one place
         per_salt = [v for v in ds.data_vars if v in _SALT_VARS]
