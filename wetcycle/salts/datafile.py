@@ -45,6 +45,7 @@ class DataTable:
     use: str
     sigma: float
     sigma_composition: float  # relative molality uncertainty of the salt side of eutectic points
+    sigma_temperature: float  # K; peritectic tables: uncertainty of the transition temperature (0 = unused)
     solid: str | None
     solids: tuple[str, ...]
     temperature: np.ndarray = field(compare=False)
@@ -115,6 +116,7 @@ def _normalise_table(path, i, t, molar_mass):
     return DataTable(
         index=i, kind=kind, source=str(t["source"]), flag=t["flag"], use=use,
         sigma=float(t["sigma"]), sigma_composition=float(t.get("sigma_composition", 0.02)),
+        sigma_temperature=float(t.get("sigma_temperature", 0.0)),
         solid=solid, solids=solids,
         temperature=temp, molality=molality, value=value,
     )

@@ -131,6 +131,26 @@ def _sol_resid(p, lnk, n, m, T):
     return f / d
 
 
+def _transition_resid(p, lnk_a, n_a, lnk_b, n_b, m, T):
+    """Peritectic-temperature residual in kelvin.
+
+    Two solids coexist with one solution when ln K_a - ln K_b = (n_a - n_b) ln a_w
+    (their dissolution reactions differ only by n_a - n_b waters).  The mismatch
+    at the tabulated point, divided by its temperature derivative, is the shift
+    of the transition temperature.  Solubility curves that cross at a shallow
+    angle (halite/hydrohalite) need this: their composition residuals barely
+    constrain where they cross.
+    """
+    def g(t):
+        return _lnk_at(lnk_a, t) - _lnk_at(lnk_b, t) - (n_a - n_b) * pz.ln_aw_kernel(m, t, p)
+
+    h = 0.05
+    d = (g(T + h) - g(T - h)) / (2 * h)
+    if abs(d) < 1e-6:
+        return math.nan
+    return g(T) / d
+
+
 def table_residuals(table, p, lnk_all, solid_index, hyd, m_hi):
     """Residuals of one data table in its natural units (K, relative, RH, phi, aw).
 
@@ -155,6 +175,9 @@ def table_residuals(table, p, lnk_all, solid_index, hyd, m_hi):
                 else:
                     j = solid_index[s]
                     res.append(_sol_resid(p, lnk_all[j], hyd[j], m, T))
+            if kind == "peritectic" and table.sigma_temperature > 0.0:
+                a, b = (solid_index[s] for s in table.solids)
+                res.append(_transition_resid(p, lnk_all[a], hyd[a], lnk_all[b], hyd[b], m, T))
         elif kind == "deliquescence":
             j = solid_index[table.solid]
             ms = pz.saturation_molality_kernel(_lnk_at(lnk_all[j], T), T, p, hyd[j], m_hi)
@@ -185,8 +208,11 @@ def _sigma_units(table):
         # (relative molality; default 2 %); a hydrate-hydrate eutectic has no ice side.
         per = [table.sigma if s == "ice" else table.sigma_composition for s in table.solids]
         return np.tile(per, table.temperature.size)
-    n = table.temperature.size * (2 if table.kind == "peritectic" else 1)
-    return np.full(n, table.sigma)
+    if table.kind == "peritectic":
+        # two composition residuals (relative), then the transition temperature (K) if given
+        per = [table.sigma, table.sigma] + ([table.sigma_temperature] if table.sigma_temperature > 0.0 else [])
+        return np.tile(per, table.temperature.size)
+    return np.full(table.temperature.size, table.sigma)
 
 
 def fit_info(info, use=("fit",), verbose=0):
@@ -225,12 +251,15 @@ def residual_report(info, coef, lnk):
     rows = []
     for t in info["tables"]:
         r = table_residuals(t, p, lnk, model.solid_index, model.hyd, model.m_hi)
-        ok = r[~np.isnan(r)]
+        good = ~np.isnan(r)
+        ok = r[good]
+        z = ok / _sigma_units(t)[good]
         rows.append(dict(
-            table=t.index + 1, kind=t.kind, use=t.use, source=t.source, units=UNITS[t.kind],
+            table=t.index + 1, kind=t.kind, use=t.use, source=t.source, units=UNITS[t.kind] + ("|K" if t.sigma_temperature > 0.0 else ""),
             sigma=t.sigma, n=int(r.size), n_missing=int(np.isnan(r).sum()),
             rms=float(np.sqrt(np.mean(ok**2))) if ok.size else float("nan"),
             max_abs=float(np.max(np.abs(ok))) if ok.size else float("nan"),
+            rms_sigma=float(np.sqrt(np.mean(z**2))) if z.size else float("nan"),
         ))
     return rows
 
@@ -263,7 +292,7 @@ def fitted_section(info, coef, lnk, result):
         src = r["source"].replace("\\", "\\\\").replace('"', '\\"')
         lines.append(f'table = {r["table"]}\nkind = "{r["kind"]}"\nuse = "{r["use"]}"\nsource = "{src}"')
         lines.append(f'units = "{r["units"]}"\nsigma = {_fmt(r["sigma"])}\nn = {r["n"]}\nn_missing = {r["n_missing"]}')
-        lines.append(f'rms = {_fmt(r["rms"])}\nmax_abs = {_fmt(r["max_abs"])}'.replace("nan", "nan"))
+        lines.append(f'rms = {_fmt(r["rms"])}\nmax_abs = {_fmt(r["max_abs"])}\nrms_sigma = {_fmt(r["rms_sigma"])}')
     return "\n".join(lines) + "\n"
 
 
