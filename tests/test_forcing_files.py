@@ -158,3 +158,35 @@ def test_netcdf_units_checked(tmp_path):
     m = {"time": "time", "temperature": "T", "vapor_pressure": "e"}
     with pytest.raises(InputDataError, match="units 'F' not allowed; allowed: K, degC"):
         files.read_netcdf_forcing(path, c, m)
+
+
+def _raw_series(tmp_path, name, calendar, n_t=5, n_T=5):
+    # numbers as stored in a file; time attributes written verbatim (no xarray encoding)
+    attrs = {"units": "hours since 2024-12-10 00:00:00"}
+    if calendar is not None:
+        attrs["calendar"] = calendar
+    ds = xr.Dataset({"time": ("t", np.arange(n_t) * 6.0, attrs),
+                     "tsurf": ("t2" if n_T != n_t else "t", np.linspace(250.0, 262.0, n_T), {"units": "K"}),
+                     "e": ("t", np.full(n_t, 0.5), {"units": "Pa"})})
+    path = tmp_path / name
+    ds.to_netcdf(path)
+    return path
+
+
+@pytest.mark.parametrize("calendar", [None, "standard", "noleap", "365_day", "360_day", "all_leap"])
+def test_netcdf_cf_calendars_give_elapsed_time(tmp_path, calendar):
+    # CF conventions 1.11 sec. 4.4.1: offsets from the reference date count elapsed time in every
+    # calendar, so a day's record reads the same whatever the calendar (within one day no label differs).
+    path = _raw_series(tmp_path, f"cal_{calendar}.nc", calendar)
+    f = files.read_netcdf_forcing(path, earth_clock(steps=8),
+                                  {"time": "time", "temperature": "tsurf", "vapor_pressure": "e"})
+    # hand-computed: linear 250 -> 262 K over 24 h, sampled every 3 h
+    np.testing.assert_allclose(f.temperature_K, 250.0 + 12.0 * np.arange(8) * 3.0 / 24.0, rtol=1e-12)
+
+
+def test_netcdf_calendar_and_length_refused(tmp_path):
+    m = {"time": "time", "temperature": "tsurf", "vapor_pressure": "e"}
+    with pytest.raises(InputDataError, match="calendar 'julian' not allowed; allowed: standard"):
+        files.read_netcdf_forcing(_raw_series(tmp_path, "j.nc", "julian"), earth_clock(steps=8), m)
+    with pytest.raises(InputDataError, match=r"'tsurf' \(temperature\) has dimensions \{'t2': 4\}"):
+        files.read_netcdf_forcing(_raw_series(tmp_path, "l.nc", "standard", n_T=4), earth_clock(steps=8), m)

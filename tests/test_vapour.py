@@ -174,3 +174,17 @@ def test_periodic_table_validation():
         pressure.PeriodicTable([0, 10], [1, -2], name="t", lower=0.0)
     with pytest.raises(ValidityError, match="elevation_m"):
         pressure.pressure_at_elevation(1e6)
+
+
+def test_periodic_interpolation_wraps_and_refuses_bad_input():
+    # Linear interpolation across the Ls = 360/0 seam, by hand (common practice for periodic tables):
+    # halfway between Ls 350 (value 3) and Ls 10 (value 1) lies Ls 0 with value 2.
+    assert pressure.interp_periodic(0.0, [10.0, 180.0, 350.0], [1.0, 5.0, 3.0]) == pytest.approx(2.0)
+    assert pressure.interp_periodic(-360.0 + 95.0, [10.0, 180.0, 350.0], [1.0, 5.0, 3.0]) == pytest.approx(3.0)
+    # NaN Ls must not pass through silently as NaN forcing
+    with pytest.raises(ValidityError, match="non-finite"):
+        pressure.interp_periodic(np.array([10.0, np.nan]), [0.0, 180.0], [1.0, 2.0])
+    with pytest.raises(ValidityError, match="non-finite"):
+        vapour.vapor_pressure_from_column_table(np.array([np.nan]))
+    with pytest.raises(ValidityError, match="strictly increasing"):
+        pressure.interp_periodic(5.0, [0.0, 180.0, 90.0], [1.0, 2.0, 3.0])

@@ -24,6 +24,16 @@ surface pressure    ``surface_pressure_Pa``, ``_hPa``       ``Pa``, ``hPa``
 
 Relative times count from the clock start (``time_sol`` in sols of the
 clock's planet).  Absolute times are placed with the clock's ``jd_tt``.
+
+NetCDF ``calendar`` (CF conventions, sec. 4.4.1): ``standard``,
+``gregorian`` and ``proleptic_gregorian`` are decoded as real dates.  Model
+calendars (``noleap``/``365_day``, ``all_leap``/``366_day``, ``360_day``)
+are read as elapsed time: the reference date of ``<unit> since <date>`` is
+taken as a (proleptic Gregorian) UTC date and the offsets as elapsed
+seconds, so the series stays continuous in time; the file's date labels
+drift from real dates by the calendar's missing or extra days, which is the
+model's own convention, not an error.  Other calendars (``julian``, ``none``)
+are refused.
 Relative humidity is with respect to liquid water.  Lines of a CSV file that
 begin with ``#`` are comments.
 
@@ -78,6 +88,12 @@ NETCDF_UNITS = {
                           "%": lambda x: 0.01 * x, "percent": lambda x: 0.01 * x},
 }
 _MISSING = {"", "nan", "na", "n/a"}
+_REAL_CALENDARS = ("standard", "gregorian", "proleptic_gregorian")
+_MODEL_CALENDARS = ("noleap", "365_day", "all_leap", "366_day", "360_day")
+_SINCE_UNITS = {"s": 1.0, "sec": 1.0, "secs": 1.0, "second": 1.0, "seconds": 1.0,
+                "min": 60.0, "mins": 60.0, "minute": 60.0, "minutes": 60.0,
+                "h": 3600.0, "hr": 3600.0, "hrs": 3600.0, "hour": 3600.0, "hours": 3600.0,
+                "d": 86400.0, "day": 86400.0, "days": 86400.0}
 _GAP_POLICIES = ("refuse", "interpolate")
 
 
@@ -99,6 +115,24 @@ def _relative_seconds(kind, values, clock):
     if kind == "sol":
         return np.asarray(values, dtype=float) * clock.planet.sol_s
     return np.asarray(values, dtype=float)
+
+
+def _model_calendar_seconds(src, tname, tunits, values, clock):
+    """'<unit> since <date>' in a model calendar -> seconds since the clock start (elapsed time)."""
+    unit, _, ref = tunits.partition(" since ")
+    factor = _SINCE_UNITS.get(unit.strip().lower())
+    if factor is None:
+        raise InputDataError(f"{src}: variable {tname!r}: time unit {unit.strip()!r} not allowed; allowed: "
+                             "seconds, minutes, hours, days")
+    try:
+        t0 = pd.Timestamp(ref.strip())
+    except (ValueError, TypeError):
+        raise InputDataError(f"{src}: variable {tname!r}: reference date {ref.strip()!r} could not be read "
+                             "as a date") from None
+    if t0.tzinfo is not None:
+        t0 = t0.tz_convert("UTC").tz_localize(None)
+    t0_rel = _relative_seconds("utc", np.array([t0.to_datetime64()], dtype="datetime64[ns]"), clock)[0]
+    return t0_rel + values * factor
 
 
 def _assemble(src, t_file, cols, clock, gap_policy, max_gap_s, label):
@@ -329,11 +363,25 @@ def read_netcdf_forcing(path, clock, variables, *, gap_policy="refuse", max_gap_
                 raise InputDataError(f"{src}: variable {theirs!r} has no units attribute")
             arrays[ours] = (da, str(units).strip())
         tda, tunits = arrays.pop("time")
-        if " since " in tunits:
-            dec = xr.decode_cf(xr.Dataset({"_t": ("_n", tda.values, dict(tda.attrs))}))["_t"].values
+        tname = variables["time"]
+        for ours, (da, _) in arrays.items():
+            if da.dims != tda.dims or da.size != tda.size:
+                raise InputDataError(f"{src}: variable {variables[ours]!r} ({ours}) has dimensions "
+                                     f"{dict(da.sizes)}; allowed: the time variable's {dict(tda.sizes)}")
+        calendar = str(tda.attrs.get("calendar", "standard")).strip().lower()
+        if " since " in tunits and calendar in _MODEL_CALENDARS:
+            t_file = _model_calendar_seconds(src, tname, tunits, np.asarray(tda.values, dtype=float), clock)
+        elif " since " in tunits and calendar in _REAL_CALENDARS:
+            try:
+                dec = xr.decode_cf(xr.Dataset({"_t": ("_n", tda.values, dict(tda.attrs))}))["_t"].values
+            except (ValueError, TypeError, OverflowError):
+                dec = np.array([], dtype=object)
             if dec.dtype.kind != "M":
-                raise InputDataError(f"{src}: variable {variables['time']!r}: units {tunits!r} could not be decoded")
+                raise InputDataError(f"{src}: variable {tname!r}: units {tunits!r} could not be decoded")
             t_file = _relative_seconds("utc", dec.astype("datetime64[ns]"), clock)
+        elif " since " in tunits:
+            raise InputDataError(f"{src}: variable {tname!r}: calendar {calendar!r} not allowed; allowed: "
+                                 f"{', '.join(_REAL_CALENDARS + _MODEL_CALENDARS)}")
         elif tunits in ("s", "seconds", "second"):
             t_file = _relative_seconds("s", tda.values, clock)
         elif tunits in ("sol", "sols"):

@@ -42,12 +42,26 @@ def interp_periodic(x, xp, fp, period=360.0):
     -------
     float or ndarray, linear between neighbouring table points, wrapping from the
     last point to the first.
+
+    Raises
+    ------
+    ValidityError   if ``x`` holds a non-finite value (NaN Ls would otherwise pass
+                    through as NaN forcing), or the table is not strictly increasing
+                    within [0, period) with values matching it.
     """
     xp = np.asarray(xp, dtype=float)
     fp = np.asarray(fp, dtype=float)
+    if (xp.ndim != 1 or fp.shape != xp.shape or xp.size < 1 or not np.all(np.isfinite(xp))
+            or xp[0] < 0.0 or xp[-1] >= period or np.any(np.diff(xp) <= 0.0)):
+        raise ValidityError(
+            f"periodic table abscissae {xp.tolist()} not allowed: strictly increasing in [0, {period:g}), "
+            f"one value each (got {fp.size} values)")
+    xa = np.asarray(x, dtype=float)
+    if not np.all(np.isfinite(xa)):
+        raise ValidityError("periodic interpolation: abscissa (e.g. Ls) has non-finite values; allowed: finite")
     xw = np.concatenate([xp[-1:] - period, xp, xp[:1] + period])
     fw = np.concatenate([fp[-1:], fp, fp[:1]])
-    res = np.interp(np.mod(np.asarray(x, dtype=float), period), xw, fw)
+    res = np.interp(np.mod(xa, period), xw, fw)
     return float(res) if np.ndim(x) == 0 else res
 
 
