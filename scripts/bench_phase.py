@@ -69,7 +69,7 @@ def main():
             print(f"  {law:15s} {salt:10s} {r:10.3e}   ({100 * wet:4.1f} % of salt-steps with brine)")
     print("  target: >= 2.0e+07 salt-steps/s/core in equilibrium mode")
 
-    from wetcycle.run import run
+    from wetcycle.runner import run
     sc = ROOT / "runs" / "demo.toml"
     run(sc, write=False)  # compile and build tables
     t0 = time.perf_counter()

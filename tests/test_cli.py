@@ -32,7 +32,9 @@ def test_salts_json(capsys):
     code, out, _ = run(["salts", "--json"], capsys)
     rows = json.loads(out)
     nacl = next(r for r in rows if r["system"] == "NaCl")
-    assert float(nacl["drh_298K"]) == pytest.approx(0.753, abs=0.01)
+    # Greenspan (1977): NaCl DRH 0.753 at 25 °C; JSON numbers are numbers, not strings
+    assert isinstance(nacl["drh_298K"], float) and nacl["drh_298K"] == pytest.approx(0.753, abs=0.01)
+    assert isinstance(nacl["eutectic_temperature_K"], float)
 
 
 def test_salt_nacl_json_done_when(capsys):
@@ -92,3 +94,15 @@ def test_console_script_module_entry():
     # The installed entry point is wetcycle.cli:main; run it as a module in a subprocess.
     r = subprocess.run([sys.executable, "-m", "wetcycle.cli", "salt", "nope"], capture_output=True, text=True)
     assert r.returncode == 2 and "traceback" not in r.stderr.lower()
+
+
+def test_hydration_above_the_drh_is_marked_as_via_brine(capsys):
+    # Common practice (binary phase diagrams): a solid whose hydration RH lies above its own DRH
+    # deliquesces first, so the change goes through the brine.  NaCl at 25 °C: DRH 0.753
+    # (Greenspan 1977) below its hydrohalite hydration RH; at 250 K the hydration RH is below the DRH.
+    code, out, _ = run(["salt", "NaCl", "--json", "--at", "298.15", "250"], capsys)
+    at = json.loads(out)["at"]
+    hot = at[0]["hydrate_transitions"][0]
+    assert hot["rh"] > at[0]["deliquescence_rh"] and hot["solid_state"] is False
+    cold = at[1]["hydrate_transitions"][0]
+    assert cold["rh"] < at[1]["deliquescence_rh"] and cold["solid_state"] is True

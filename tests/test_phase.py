@@ -243,3 +243,34 @@ def test_brine_with_crystals_does_not_supercool():
     assert np.all(ph[2:] == states.FROZEN)
     # the liquid ends inside the step that crosses the eutectic
     assert 0.0 < float(ds.liquid_fraction[2]) < 1.0
+
+
+def test_supercooled_brine_below_validity_limit_freezes_flagged():
+    # Ca(ClO4)2 brines supercool to ~150 K (data file, Toner et al. 2014), below the Pitzer
+    # model's lower validity limit T_min: the kernel freezes them at T_min and flags it (3), never
+    # following a brine with properties it cannot compute (no silent extrapolation).
+    s = salts.load("Ca(ClO4)2")
+    assert s.supercooling_limit < s.T_min < s.eutectic()["temperature_K"]
+    T = np.concatenate([np.full(50, 230.0), np.linspace(230.0, s.T_min - 5.0, 300)])
+    rh = np.concatenate([np.full(50, 0.6), np.full(300, 0.45)])
+    ds = wetcycle.run_series("Ca(ClO4)2", np.arange(T.size) * 300.0, T, rh, loading_kg_m2=0.02)
+    i = first_change(ds, states.SUPERCOOLED, states.FROZEN)
+    assert i is not None and T[i - 1] >= s.T_min > T[i]
+    assert int(ds.validity_flag[i]) == 3
+    assert np.all(ds.validity_flag.values[:i][T[:i] >= s.T_min] == 0)
+
+
+def test_frozen_parcel_keeps_its_ice_in_ice_supersaturated_air_below_validity():
+    # Murphy & Koop (2005): ice is stable wherever the vapour pressure exceeds p_ice(T), i.e.
+    # RH_liquid >= a_w,ice(T).  Below a salt's validity limit the salt tables are clamped, but the
+    # ice test must use the true temperature: at 221 K with RH over ice 1.05 the ice stays.
+    s = salts.load("MgCl2")
+    T = np.concatenate([np.linspace(s.eutectic()["temperature_K"] + 5.0, s.T_min - 11.0, 40),
+                        np.full(40, s.T_min - 11.0)])
+    rh = np.minimum(1.05 * ice_water_activity(T), 1.0)
+    ds = wetcycle.run_series("MgCl2", np.arange(T.size) * 600.0, T, rh, frost_kg_m2=np.r_[1e-3, np.zeros(79)],
+                             loading_kg_m2=0.02)
+    ph = ds.phase_state.values
+    k = np.flatnonzero(T < s.T_min)
+    assert np.all(ph[k] == states.FROZEN)
+    assert np.all(ds.ice_water.values[k] > 0.0)

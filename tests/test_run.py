@@ -20,7 +20,7 @@ from wetcycle.config import load_scenario, scenario_from_dict
 from wetcycle.errors import ConfigError
 from wetcycle.output import open_result
 from wetcycle.phase import states
-from wetcycle.run import run
+from wetcycle.runner import run
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "runs" / "demo.toml"
@@ -175,3 +175,61 @@ def test_file_scenario_runs(tmp_path):
     ds = run(scenario_from_dict(doc))
     assert ds.sizes["time"] == 48
     assert np.all(np.isfinite(ds.relative_humidity))
+
+
+def test_package_run_stays_callable_after_use(tmp_path):
+    # Python import semantics (common practice): a submodule named like a package attribute
+    # replaces that attribute once imported; wetcycle.run must stay the documented function.
+    import wetcycle
+    f = wetcycle.run
+    import wetcycle.runner  # noqa: F401  (the orchestrator module, imported as the CLI does)
+    assert callable(wetcycle.run) and wetcycle.run is f
+
+
+def test_sols_and_years_together_refused():
+    # A scenario must say how long it runs once (one clear line; common practice for configs).
+    doc = tomllib.loads(DEMO.read_text())
+    doc["clock"]["sols"] = 3
+    with pytest.raises(ConfigError, match=r"clock.sols and clock.years: give one or the other") as exc:
+        scenario_from_dict(doc, source="demo.toml")
+    assert "\n" not in str(exc.value)
+
+
+@pytest.mark.parametrize("bad", ["a_folder", "missing_parent_is_a_file/x.nc", "ends_with_slash/"])
+def test_cli_unwritable_output_refused_before_computing(tmp_path, capsys, bad):
+    (tmp_path / "a_folder").mkdir()
+    (tmp_path / "missing_parent_is_a_file").write_text("not a folder")
+    code = cli.main(["run", str(DEMO), "-o", str(tmp_path / bad) + ("/" if bad.endswith("/") else ""), "-q"])
+    err = capsys.readouterr().err
+    assert code == 2 and err.count("\n") == 1 and "--output" in err
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a_folder", "missing_parent_is_a_file"]
+
+
+def test_result_file_mode_follows_umask(demo_result, tmp_path):
+    # POSIX (common practice): a new file gets mode 0666 & ~umask; mkstemp's 0600 must not leak.
+    import os
+    from wetcycle.output import write_result
+    old = os.umask(0o022)
+    os.umask(old)
+    p = write_result(demo_result[0], tmp_path / "m.nc")
+    assert (p.stat().st_mode & 0o777) == (0o666 & ~old)
+
+
+def test_site_series_carry_validity_flag_and_limit_notes(demo_result):
+    # CF-1.8 flags: validity_flag with flag_values/flag_meanings; the summary names the model
+    # limits a result leans on, and says when '/yr' figures come from less than a year.
+    from wetcycle.output import summary_text
+    demo_result = open_result(demo_result[1])  # as read back from the file
+    vf = demo_result["validity_flag"]
+    assert vf.dims == ("salt", "site", "time") and list(vf.attrs["flag_values"]) == [0, 1, 2, 3]
+    assert len(vf.attrs["flag_meanings"].split()) == 4
+    for k in ("clamped_liquid_steps", "molality_limit_steps", "lower_limit_freezes"):
+        counted = {"clamped_liquid_steps": None, "molality_limit_steps": 2, "lower_limit_freezes": 3}[k]
+        if counted is not None:  # the statistics count the flags of the saved series
+            np.testing.assert_array_equal(demo_result[k].values, (vf.values == counted).sum(axis=-1))
+    text = summary_text(demo_result)
+    assert "scaled up from it" in text  # 4 sols < 1 year
+    for salt in demo_result.salt.values:
+        n = int(demo_result[["molality_limit_steps", "lower_limit_freezes", "clamped_liquid_steps"]]
+                .sel(salt=salt).to_array().sum())
+        assert (f"Model limits, {salt}:" in text) == (n > 0)

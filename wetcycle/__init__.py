@@ -14,7 +14,7 @@ def __getattr__(name):
         from .series import run_series
         return run_series
     if name == "run":
-        from .run import run
+        from .runner import run
         return run
     if name == "open_result":
         from .output import open_result

@@ -42,22 +42,25 @@ def _safe(fn, *args):
 def cmd_salts(args):
     from . import salts
 
-    rows = []
+    values = []
     for name in salts.names():
         s = salts.load(name)
         eut = s.eutectic()
-        rows.append((
+        values.append((
             s.name,
-            _fmt(eut and eut["temperature_K"], ".1f"),
-            _fmt(eut and eut["molality"], ".2f"),
-            _fmt(_safe(s.deliquescence_rh, 298.15), ".3f"),
-            _fmt(_safe(s.deliquescence_rh, 273.15), ".3f"),
-            _safe(s.stable_solid, 273.15) or "—",
+            eut and float(eut["temperature_K"]),
+            eut and float(eut["molality"]),
+            _safe(s.deliquescence_rh, 298.15),
+            _safe(s.deliquescence_rh, 273.15),
+            _safe(s.stable_solid, 273.15) or None,
         ))
     if args.json:
         keys = ("system", "eutectic_temperature_K", "eutectic_molality", "drh_298K", "drh_273K", "stable_solid_273K")
-        print(json.dumps([dict(zip(keys, r)) for r in rows], ensure_ascii=False, indent=1))
+        clean = lambda v: None if isinstance(v, float) and v != v else v
+        print(json.dumps([{k: clean(v) for k, v in zip(keys, r)} for r in values], ensure_ascii=False, indent=1))
         return 0
+    rows = [(n, _fmt(t, ".1f"), _fmt(m, ".2f"), _fmt(d1, ".3f"), _fmt(d2, ".3f"), st or "—")
+            for n, t, m, d1, d2, st in values]
     head = ("system", "eutectic T [K]", "eutectic m [mol/kg]", "DRH 298.15 K", "DRH 273.15 K", "stable solid 273.15 K")
     _print_table(head, rows)
     print("DRH: deliquescence relative humidity (fraction, liquid-water reference) of the stable solid.")
@@ -89,13 +92,18 @@ def cmd_salt(args):
         print(f"peritectic: {p['temperature_K']:.2f} K, {p['molality']:.3f} mol/kg, {' / '.join(p['solids'])}")
     for me in info["metastable_eutectics"]:
         print(f"metastable eutectic: {me['temperature_K']:.2f} K, {me['molality']:.3f} mol/kg, {' + '.join(me['solids'])}")
+    floor = info["model_supercooling_floor_K"]
+    note = (f" (the model follows brine down to {floor:.1f} K, its validity limit)"
+            if floor is not None and floor != info["supercooling_limit_K"] else "")
     print(f"efflorescence RH: {_fmt(info['efflorescence_rh'], '.2f')};  "
-          f"supercooling limit: {_fmt(info['supercooling_limit_K'], '.1f')} K")
+          f"supercooling limit: {_fmt(info['supercooling_limit_K'], '.1f')} K{note}")
     if info["at"]:
         head = ("T [K]", "stable solid", "m_sat [mol/kg]", "DRH", "a_w,ice", "m_ice [mol/kg]", "hydration RH")
         rows = []
         for a in info["at"]:
-            hyd = "; ".join(f"{h['lower']}→{h['higher']} {_fmt(h['rh'], '.3f')}" for h in a["hydrate_transitions"]) or "—"
+            hyd = "; ".join(f"{h['lower']}→{h['higher']} {_fmt(h['rh'], '.3f')}"
+                            + (" (above DRH: via brine)" if h["solid_state"] is False else "")
+                            for h in a["hydrate_transitions"]) or "—"
             rows.append((f"{a['temperature_K']:.2f}" + (" *" if a["below_eutectic"] else ""), a["stable_solid"] or "—",
                          _fmt(a["saturation_molality"], ".3f"), _fmt(a["deliquescence_rh"], ".3f"),
                          _fmt(a["ice_water_activity"], ".4f"), _fmt(a["ice_liquidus_molality"], ".3f"), hyd))
@@ -121,10 +129,12 @@ def _demo_path():
 
 def cmd_run(args):
     from .config import load_scenario
-    from .output import summary_text
+    from .output import check_output_path, summary_text
 
     sc = load_scenario(args.scenario)
-    out = args.output or sc.output_path
+    out = check_output_path(args.output or sc.output_path, "--output" if args.output else "output")
+    if sc["grid"] is None and getattr(args, "workers", 1) not in (None, 1):
+        print(f"note: --workers {args.workers} is ignored: {sc.source} is a site scenario (runs in one process)")
     if sc["grid"] is not None:
         from .grid import grid_summary_text, run_grid
         ds = run_grid(sc, workers=getattr(args, "workers", 1), progress=not args.quiet, output_path=out,
@@ -132,7 +142,7 @@ def cmd_run(args):
                       threads=getattr(args, "threads", False))
         print(grid_summary_text(ds))
     else:
-        from .run import run
+        from .runner import run
         ds = run(sc, progress=not args.quiet, output_path=out)
         print(summary_text(ds))
     print(f"result written to {out}")

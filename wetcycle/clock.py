@@ -37,7 +37,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import ConfigError
+from .errors import ConfigError, shown
 from .orbit import (Planet, earth_solar_coordinates, get_planet, jd_tt_at_ls, mars_sol_date,
                     mars_solar_coordinates)
 from .timescales import jd_tt_to_utc, tt_minus_utc_days, utc_to_jd_tt
@@ -121,7 +121,7 @@ class Clock:
 
 def _positive_int(name, value):
     if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
-        raise ConfigError(f"{name}: {value!r} is not allowed; allowed: a whole number >= 1")
+        raise ConfigError(f"{name}: {shown(value)} is not allowed; allowed: a whole number >= 1")
     return int(value)
 
 
@@ -131,7 +131,7 @@ def _finite_float(name, value, allowed):
     except (TypeError, ValueError):
         x = float("nan")
     if isinstance(value, bool) or not np.isfinite(x):
-        raise ConfigError(f"{name}: {value!r} is not allowed; allowed: {allowed}")
+        raise ConfigError(f"{name}: {shown(value)} is not allowed; allowed: {allowed}")
     return x
 
 

@@ -15,7 +15,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .errors import ConfigError, WetcycleError
+from .errors import ConfigError, WetcycleError, shown
 from .phase.model import TIME_LAWS, time_law
 from .stats import HABITABILITY_DEFAULTS
 
@@ -147,13 +147,13 @@ def _check_table(where, table, schema, src):
         if not ok:
             want = {str: "a string", bool: "true or false", int: "an integer",
                     dict: "a table"}.get(typ, "a number")
-            raise ConfigError(f"{src}: {name}: {v!r} is not {want}")
+            raise ConfigError(f"{src}: {name}: {shown(v)} is not {want}")
         if typ is dict:
             out[key] = dict(v)
             continue
         if typ in (NUM, int):
             if not math.isfinite(v) or (lo is not None and v < lo) or (hi is not None and v > hi):
-                raise ConfigError(f"{src}: {name}: {v!r} is outside the allowed range {lo:g} to {hi:g}"
+                raise ConfigError(f"{src}: {name}: {shown(v)} is outside the allowed range {lo:g} to {hi:g}"
                                   + (f" ({note})" if note else ""))
         out[key] = v
     return out
@@ -239,6 +239,10 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
         raise ConfigError(f"{source}: forcing.vapour: {f['vapour']!r} is not one of vmr, column")
     if f["gap_policy"] not in ("refuse", "interpolate"):
         raise ConfigError(f"{source}: forcing.gap_policy: {f['gap_policy']!r} is not one of refuse, interpolate")
+    raw_clock = doc.get("clock", {})
+    if isinstance(raw_clock, dict) and "years" in raw_clock and "sols" in raw_clock:
+        raise ConfigError(f"{source}: clock.sols and clock.years: give one or the other, not both "
+                          f"(got sols = {raw_clock['sols']!r}, years = {raw_clock['years']!r})")
     if tables["clock"]["spinup_max_years"] == 1:
         raise ConfigError(f"{source}: clock.spinup_max_years: 1 is not allowed; 0 (no spin-up) or 2-60 "
                           "(periodicity needs two years to compare)")

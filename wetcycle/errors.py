@@ -26,3 +26,14 @@ class ValidityError(WetcycleError):
 
 class UnknownNameError(WetcycleError):
     """A name (salt system, forcing kind, time law) is not in its registry."""
+
+
+def shown(value):
+    """A value as written in an error message: NumPy scalars as plain Python numbers.
+
+    ``repr(np.float64(1.2))`` reads ``np.float64(1.2)`` under NumPy >= 2; a user should read ``1.2``.
+    """
+    item = getattr(value, "item", None)
+    if item is not None and getattr(value, "ndim", None) == 0:
+        value = item()
+    return repr(value)

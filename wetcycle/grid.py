@@ -1,7 +1,7 @@
 """Gridded runs: a latitude-longitude grid split into chunks of cells.
 
 A chunk is a pure function of its inputs: its cells go through exactly the
-same path as a site run (:func:`wetcycle.run.run`, statistics only), and its
+same path as a site run (:func:`wetcycle.runner.run`, statistics only), and its
 statistics are written to the run's folder as soon as it finishes
 (``<output>.chunks/chunk_NNNNN.npz``, atomically).  A run started again with
 the same scenario skips finished chunks; a changed scenario refuses to resume
@@ -36,7 +36,7 @@ import xarray as xr
 from . import __version__
 from .config import Scenario, grid_axes, load_scenario
 from .errors import ConfigError
-from .output import CAUTION, write_result
+from .output import CAUTION, limit_notes, set_new_file_mode, write_result
 from .vocabulary import attrs
 
 #: Spin-up tolerance used for grid chunks: effectively zero, so every chunk spins up
@@ -65,7 +65,7 @@ def _sub_scenario(sc, i0, i1):
 
 def run_chunk(sc, i0, i1):
     """Statistics of cells [i0, i1) of a grid scenario: dict name -> array [salt, cell, ...]."""
-    from .run import run
+    from .runner import run
 
     ds = run(_sub_scenario(sc, i0, i1), write=False)
     out = {}
@@ -84,6 +84,7 @@ def _save_npz(path, data):
     try:
         with open(tmp, "wb") as fh:
             np.savez(fh, **data)
+        set_new_file_mode(tmp)
         os.replace(tmp, path)
     finally:
         if os.path.exists(tmp):
@@ -262,5 +263,6 @@ def grid_summary_text(ds):
         ok = np.isfinite(lh)
         lines.append(f"{str(salt):<10s}  {int(ok.sum()):5d}  {int((lh[ok] > 0).sum()):11d}  "
                      f"{np.nanmean(lh):16.1f}  {np.nanmax(lh):15.1f}  {np.nanmax(hh):18.1f}")
+    lines += limit_notes(ds)
     lines.append("Caution: " + ds.attrs.get("caution", CAUTION))
     return "\n".join(lines)

@@ -35,7 +35,8 @@ MASKED_COLOUR = "0.84"        # light grey: no value, clearly apart from cividis
 GRID_DIMS = ("salt", "lat", "lon")
 #: statistics that count something from zero: their colour scale starts at 0
 _COUNT_UNITS = ("hour", "h")
-_COUNT_NAMES = ("wet_events_per_year", "clamped_steps")
+_COUNT_NAMES = ("wet_events_per_year", "clamped_steps", "clamped_liquid_steps", "molality_limit_steps",
+                "lower_limit_freezes")
 
 
 # ---- input -------------------------------------------------------------------------

@@ -19,7 +19,7 @@ import numpy as np
 import xarray as xr
 
 from . import __version__
-from .errors import InputDataError
+from .errors import ConfigError, InputDataError
 from .vocabulary import attrs
 
 CAUTION = ("Model estimates with stated uncertainties, not evidence of liquid water or of life. "
@@ -82,6 +82,30 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
     return ds
 
 
+def check_output_path(path, field="output"):
+    """Refuse, before any computing, a result path that cannot be written.
+
+    The path must name a file (not an existing folder, not ending in a path separator) whose folder
+    exists or can be created and accepts new files.  Returns the path.
+    """
+    raw = str(path)
+    path = Path(path)
+    if raw.endswith(("/", os.sep)) or path.is_dir():
+        raise ConfigError(f"{field}: {raw!r} is a folder; allowed: a file path such as {str(path / 'result.nc')!r}")
+    parent = path.parent
+    try:
+        parent.mkdir(parents=True, exist_ok=True)
+        fd, probe = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".probe", dir=parent)
+        os.close(fd)
+        os.remove(probe)
+    except OSError as exc:
+        raise ConfigError(f"{field}: {raw!r} cannot be written ({exc.strerror or exc}); allowed: a file in a "
+                          "writable folder") from None
+    if path.exists() and not os.access(path, os.W_OK):
+        raise ConfigError(f"{field}: {raw!r} exists and is not writable; allowed: a writable file path")
+    return path
+
+
 def write_result(ds, path):
     """Write ``ds`` to NetCDF at ``path`` atomically (temporary file + rename)."""
     path = Path(path)
@@ -94,12 +118,28 @@ def write_result(ds, path):
     os.close(fd)
     try:
         ds.to_netcdf(tmp, engine="netcdf4", encoding=enc)
+        set_new_file_mode(tmp)
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
             os.remove(tmp)
         raise
     return path
+
+
+def _read_umask():
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+#: The process umask, read once at import (reading it means setting it, which is not thread-safe).
+_UMASK = _read_umask()
+
+
+def set_new_file_mode(path):
+    """Give a file made by ``tempfile.mkstemp`` (mode 0600) the mode of an ordinary new file."""
+    os.chmod(path, 0o666 & ~_UMASK)
 
 
 def open_result(path):
@@ -146,5 +186,36 @@ def summary_text(ds):
                  f"after {ds.attrs.get('spinup_years', 0)} spin-up year(s); habitable: a_w >= "
                  f"{ds.attrs.get('habitability_min_water_activity', float('nan')):g} and T >= "
                  f"{ds.attrs.get('habitability_min_temperature_K', float('nan')):g} K)")
+    lines += limit_notes(ds)
     lines.append("Caution: " + ds.attrs.get("caution", CAUTION))
     return "\n".join(lines)
+
+
+def limit_notes(ds):
+    """Lines naming where a result leans on the model's limits (empty when it does not).
+
+    Uses the counts of the kernel's validity flags (see :mod:`wetcycle.stats`).  Steps of dry salt
+    outside a salt's validity range are not reported: below its eutectic a dry salt cannot
+    deliquesce, so clamping its tables there changes no liquid statistic.
+    """
+    out = []
+    yrs = float(ds.attrs.get("years", float("nan")))
+    if np.isfinite(yrs) and yrs < 1.0:
+        out.append(f"Note: the run covers {yrs:.3g} year(s); '/yr' figures are scaled up from it, "
+                   "not statistics of a whole year.")
+    names = (("clamped_liquid_steps", "step(s) with brine outside the salt's validity temperature range "
+              "(salt properties taken at the nearest valid temperature)"),
+             ("molality_limit_steps", "step(s) in which a brine was crystallised at the model's molality limit "
+              "before its efflorescence RH"),
+             ("lower_limit_freezes", "freeze(s) of supercooled brine forced at the salt's lower validity "
+              "limit (liquid hours below it are not counted)"))
+    for salt in ds.salt.values:
+        parts = []
+        for k, text in names:
+            if k in ds:
+                n = int(np.nansum(ds[k].sel(salt=salt).values))
+                if n > 0:
+                    parts.append(f"{n} {text}")
+        if parts:
+            out.append(f"Model limits, {salt}: " + "; ".join(parts) + " (see validity_flag).")
+    return out

@@ -488,11 +488,14 @@ def diagram_figure(name, *, trajectory=None, site=0, T_range=None, n_points=400)
     erh = system.efflorescence_rh
     scl = system.supercooling_limit
     if eut and scl is not None and Te > lo:
-        sc = (T >= max(scl, lo)) & (T <= Te)
+        # the model follows a supercooled brine only down to its validity limit T_min
+        t_low = max(scl, system.T_min)
+        sc = (T >= max(t_low, lo)) & (T <= Te)
         ax.fill_between(T, erh or 0.0, 1.0, where=sc, facecolor="none", edgecolor=STATE_COLOURS[SUPERCOOLED],
                         hatch="///", lw=0, zorder=1)
+        where = (f"{t_low:.0f} K; published limit {scl:.0f} K" if scl < system.T_min else f"{scl:.0f} K")
         handles.append(Patch(facecolor="none", edgecolor=STATE_COLOURS[SUPERCOOLED], hatch="///",
-                             label=f"supercooled brine possible\n(eutectic down to {scl:.0f} K, above ERH)"))
+                             label=f"supercooled brine possible\n(eutectic down to {where}, above ERH)"))
     # lines
     for j, s in enumerate(ordered):
         colour = SALT_COLOURS[j % 7]

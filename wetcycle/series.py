@@ -14,6 +14,7 @@ import xarray as xr
 
 from . import __version__
 from .errors import ConfigError
+from .forcing.prescribed import RANGES
 from .phase import PhaseModel
 from .vocabulary import attrs
 
@@ -50,8 +51,8 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibri
     Raises
     ------
     ConfigError
-        For an unknown option, mismatched lengths, non-increasing time, RH outside
-        [0, 1] or non-finite values.
+        For an unknown option, mismatched lengths, non-increasing time, temperature
+        outside 50-400 K (the forcing range), RH outside [0, 1] or non-finite values.
     """
     unknown = set(options) - set(OPTIONS)
     if unknown:
@@ -68,8 +69,12 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibri
             raise ConfigError(f"{name}: non-finite value at index {int(np.flatnonzero(~np.isfinite(a))[0])}")
     if np.any(np.diff(t) <= 0):
         raise ConfigError(f"time_s: must increase strictly (index {int(np.flatnonzero(np.diff(t) <= 0)[0]) + 1})")
+    lo, hi = RANGES["temperature_K"]
+    if np.any((T < lo) | (T > hi)):
+        raise ConfigError(f"temperature_K: {float(T[(T < lo) | (T > hi)][0])!r} is outside {lo:g}-{hi:g} K "
+                          "(kelvin, not degrees Celsius)")
     if np.any((rh < 0) | (rh > 1)):
-        raise ConfigError(f"relative_humidity: {rh[(rh < 0) | (rh > 1)][0]!r} is outside [0, 1] (a fraction, not %)")
+        raise ConfigError(f"relative_humidity: {float(rh[(rh < 0) | (rh > 1)][0])!r} is outside [0, 1] (a fraction, not %)")
     loading = options.get("loading_kg_m2", 0.01)
     P = np.broadcast_to(np.asarray(options.get("surface_pressure_Pa", 600.0), dtype=float), t.shape)
     frost = np.broadcast_to(np.asarray(options.get("frost_kg_m2", 0.0), dtype=float), t.shape)

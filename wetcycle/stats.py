@@ -18,7 +18,13 @@ kernel).  Definitions:
   review bodies;
 * liquid hours by Ls bin (default 12 bins of 30°) and by local-time bin
   (24 bins of one hour of local true solar time, at the end of the step);
-* temperature and water-activity range of the liquid.
+* temperature and water-activity range of the liquid;
+* model-limit counts from the kernel's validity flag (see
+  :func:`wetcycle.phase.kernel.step_block`): steps whose temperature lay
+  outside the salt's validity range (flags 1 and 3), those of them with
+  liquid brine present (the ones that can bias liquid statistics), steps in
+  which a brine was crystallised at the molality limit (flag 2) and freezes
+  forced by the lower validity limit (flag 3).
 """
 
 from __future__ import annotations
@@ -43,7 +49,7 @@ def _liquid(st):
 @njit(cache=True, nogil=True)
 def accumulate(liq, phase, aw, T, ls, ltst, clamped, dt, aw_thr, T_thr, n_ls_bins,
                liquid_s, habitable_s, events, spell_cur, spell_max, by_ls, by_hour,
-               T_lo, T_hi, aw_lo, aw_hi, n_clamped, wet_prev):
+               T_lo, T_hi, aw_lo, aw_hi, n_flags, wet_prev):
     """Add one block ([step, cell] arrays; ``ls`` [step]; ``dt`` [step] s) to the accumulators."""
     nstep, ncell = liq.shape
     ls_width = 360.0 / n_ls_bins
@@ -55,8 +61,15 @@ def accumulate(liq, phase, aw, T, ls, ltst, clamped, dt, aw_thr, T_thr, n_ls_bin
             f = liq[k, c]
             d = f * dt[k]
             wet_end = _liquid(phase[k, c])
-            if clamped[k, c] != 0:
-                n_clamped[c] += 1
+            fl = clamped[k, c]
+            if fl == 1 or fl == 3:
+                n_flags[0, c] += 1
+                if f > 0.0:
+                    n_flags[1, c] += 1
+            if fl == 2:
+                n_flags[2, c] += 1
+            elif fl == 3:
+                n_flags[3, c] += 1
             if f > 0.0:
                 if wet_prev[c] == 0:
                     events[c] += 1
@@ -98,7 +111,7 @@ class Accumulator:
     T_hi: np.ndarray
     aw_lo: np.ndarray
     aw_hi: np.ndarray
-    n_clamped: np.ndarray
+    n_flags: np.ndarray  # [4, cell]: clamped, clamped with liquid, molality-limit, lower-limit freezes
     wet_prev: np.ndarray
     aw_thr: float
     T_thr: float
@@ -108,7 +121,7 @@ class Accumulator:
         z = lambda: np.zeros(n_cells)
         return cls(z(), z(), np.zeros(n_cells, np.int64), z(), z(), np.zeros((n_ls_bins, n_cells)),
                    np.zeros((N_HOUR_BINS, n_cells)), np.full(n_cells, np.inf), np.full(n_cells, -np.inf),
-                   np.full(n_cells, np.inf), np.full(n_cells, -np.inf), np.zeros(n_cells, np.int64),
+                   np.full(n_cells, np.inf), np.full(n_cells, -np.inf), np.zeros((4, n_cells), np.int64),
                    np.zeros(n_cells, np.int64), float(min_water_activity), float(min_temperature_K))
 
     def add(self, liquid_fraction, phase, water_activity, temperature_K, ls_deg, ltst_h, clamped, dt_s):
@@ -121,7 +134,7 @@ class Accumulator:
                    np.ascontiguousarray(clamped), dt, self.aw_thr, self.T_thr, self.by_ls.shape[0],
                    self.liquid_s, self.habitable_s, self.events, self.spell_cur, self.spell_max,
                    self.by_ls, self.by_hour, self.T_lo, self.T_hi, self.aw_lo, self.aw_hi,
-                   self.n_clamped, self.wet_prev)
+                   self.n_flags, self.wet_prev)
 
     def finish(self, years):
         """Statistics per year as a dict of arrays (hours; NaN ranges where never liquid)."""
@@ -142,5 +155,8 @@ class Accumulator:
             "liquid_temperature_max": rng(self.T_hi),
             "liquid_water_activity_min": rng(self.aw_lo),
             "liquid_water_activity_max": rng(self.aw_hi),
-            "clamped_steps": self.n_clamped.copy(),
+            "clamped_steps": self.n_flags[0].copy(),
+            "clamped_liquid_steps": self.n_flags[1].copy(),
+            "molality_limit_steps": self.n_flags[2].copy(),
+            "lower_limit_freezes": self.n_flags[3].copy(),
         }

@@ -46,13 +46,19 @@ VARIABLES = {
     "liquid_water_activity_min": ("1", "lowest water activity of the liquid brine", None),
     "liquid_water_activity_max": ("1", "highest water activity of the liquid brine", None),
     "clamped_steps": ("1", "steps whose temperature lay outside the salt's validity range", None),
+    "clamped_liquid_steps": ("1", "steps with liquid brine whose temperature lay outside the salt's validity range",
+                             None),
+    "molality_limit_steps": ("1", "steps in which a brine was crystallised at the model's molality limit", None),
+    "lower_limit_freezes": ("1", "supercooled brine frozen at the salt's lower validity limit, above its "
+                            "supercooling limit", None),
 }
 
 #: Extra attributes for categorical variables (CF flags).
 FLAGS = {
     "phase_state": dict(flag_values=list(FLAG_VALUES), flag_meanings=FLAG_MEANINGS),
-    "validity_flag": dict(flag_values=[0, 1, 2],
-                          flag_meanings="ok temperature_outside_salt_validity molality_limit_crystallised"),
+    "validity_flag": dict(flag_values=[0, 1, 2, 3],
+                          flag_meanings="ok temperature_outside_salt_validity molality_limit_crystallised "
+                                        "frozen_at_lower_validity_limit"),
 }
 
 

@@ -146,7 +146,7 @@ def _assemble(src, t_file, cols, clock, gap_policy, max_gap_s, label):
     if np.any(~(d > 0)):
         i = int(np.flatnonzero(~(d > 0))[0]) + 1
         raise InputDataError(f"{src}: {label(i)}, time column: times must increase strictly "
-                             f"({t_file[i - 1]!r} s then {t_file[i]!r} s)")
+                             f"({t_file[i - 1]:.3f} s then {t_file[i]:.3f} s after the clock start)")
     if gap_policy == "refuse":
         med = float(np.median(d))
         big = d > 1.5 * med

@@ -31,7 +31,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import ConfigError, InputDataError
+from ..errors import ConfigError, InputDataError, shown
 
 __all__ = ["ForcingSeries", "Sinusoid", "prescribed_forcing", "Segment", "ChamberProgramme",
            "chamber_programme_from_dict", "load_chamber_programme", "RANGES"]
@@ -57,7 +57,7 @@ def _check_range(name, values, where="", exc=ConfigError):
         idx = np.argwhere(bad)[0] if a.ndim else ()
         v = float(a[tuple(idx)]) if a.ndim else float(a)
         at = f" at index {tuple(int(i) for i in idx)}" if a.ndim else ""
-        raise exc(f"{where}{name}: {v!r} {_UNITS[name]}{at} is not allowed; allowed: {lo:g}-{hi:g} {_UNITS[name]}")
+        raise exc(f"{where}{name}: {shown(v)} {_UNITS[name]}{at} is not allowed; allowed: {lo:g}-{hi:g} {_UNITS[name]}")
     return a
 
 
@@ -162,7 +162,7 @@ class Sinusoid:
                 ok = rng[0] <= v <= rng[1]
             if not ok:
                 allowed = "a finite number" if rng is None else f"a number in {rng[0]}-{rng[1]}"
-                raise ConfigError(f"sinusoid {name}: {v!r} is not allowed; allowed: {allowed}")
+                raise ConfigError(f"sinusoid {name}: {shown(v)} is not allowed; allowed: {allowed}")
 
     def __call__(self, ltst_h, ls_deg):
         """Value for local true solar time [h] and Ls [deg] (broadcast)."""
@@ -332,7 +332,7 @@ def _num(where, key, v, lo, hi, unit, strict_lo=False):
     ok = ok and (v > lo if strict_lo else v >= lo) and v <= hi
     if not ok:
         rng = f"{'>' if strict_lo else '>='} {lo:g}" + ("" if hi == np.inf else f" and <= {hi:g}")
-        raise ConfigError(f"{where}{key}: {v!r} is not allowed; allowed: a number {rng} {unit}".rstrip())
+        raise ConfigError(f"{where}{key}: {shown(v)} is not allowed; allowed: a number {rng} {unit}".rstrip())
     return float(v)
 
 

@@ -42,7 +42,7 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit
 
-from ..errors import ConfigError, ValidityError
+from ..errors import ConfigError, ValidityError, shown
 from ..orbit import MARS, get_planet
 from ..water import (MOLAR_MASS_WATER, psat_ice_kernel, psat_liquid_kernel,
                      saturation_vapor_pressure_ice, saturation_vapor_pressure_liquid)
@@ -90,7 +90,7 @@ def _finite_nonneg(name, x, unit):
 
 def _positive(name, x, unit):
     if isinstance(x, bool) or not (np.isfinite(x) and x > 0):
-        raise ConfigError(f"{name}: {x!r} {unit} is not allowed; allowed: a finite number > 0")
+        raise ConfigError(f"{name}: {shown(x)} {unit} is not allowed; allowed: a finite number > 0")
     return float(x)
 
 

@@ -27,7 +27,10 @@ Physics (phase boundaries from the Pitzer model via the tables)
   saturation.  Air within a relative 1e-5 of ice saturation, or over water
   frost, counts as ice-saturated.  A brine that was
   liquid above the eutectic survives cooling below it as supercooled brine
-  down to the supercooling limit, then freezes to ice + hydrate; a frozen parcel melts at
+  down to the supercooling limit or the salt's lower validity limit T_min,
+  whichever is warmer, then freezes to ice + hydrate (a freeze forced by T_min
+  is flagged 3: the liquid hours below it are not counted, a conservative
+  choice); a frozen parcel melts at
   the eutectic; a crystalline salt touching water frost at T >= T_eut
   dissolves into it up to the liquidus (contact melting, not vapour-limited).
 * Solid hydrates follow the stable hydrate at (T, RH) at once:
@@ -59,9 +62,12 @@ interpolation between the two samples, so liquid hours converge as the step
 shrinks.
 
 Limits (flagged in the output, never silent): temperatures outside the salt's
-validity range are clamped for table look-ups (flag 1); a supersaturated brine
-that would pass the model's molality limit m_max before reaching its
-efflorescence RH crystallises there (flag 2).
+validity range are clamped for the salt's table look-ups (flag 1; properties of
+water itself -- ice activity, vapour pressure, diffusivity -- always use the
+true temperature); a supersaturated brine that would pass the model's molality
+limit m_max before reaching its efflorescence RH crystallises there (flag 2); a
+supercooled brine reaching T_min above its supercooling limit freezes there
+(flag 3).
 
 Water is conserved to rounding: w_hyd + w_brine + w_ice changes exactly by
 the water exchanged with the surroundings (vapour or frost), which is
@@ -207,7 +213,9 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
         brine), brine/hydrate/ice water [kg m-2], water gained from the surroundings in the step
         [kg m-2], and a validity flag: 0 ok; 1 T lay outside the salt's validity range and was
         clamped for the table look-ups; 2 a crystal-free brine was driven beyond the model's
-        molality limit m_max before reaching its efflorescence RH and was crystallised there.
+        molality limit m_max before reaching its efflorescence RH and was crystallised there; 3 a
+        supercooled brine froze at the salt's lower validity limit T_min although its supercooling
+        limit lies lower (the model cannot follow a brine below T_min).
     """
     nstep, ncell = T.shape
     nT = lnk.shape[1]
@@ -237,16 +245,23 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             kk = solid[c]
             wh, wb, wi, nd = w_hyd[c], w_brine[c], w_ice[c], n_diss[c]
             W0 = wh + wb + wi
-            aw_i = _lin(awice, ib, fb) if Tb <= T_MELT else 2.0
+            # Properties of water itself (ice activity, vapour pressure, diffusion) use the true
+            # temperature; only the salt's tables are read at the clamped one.
+            if Tb_raw > T_MELT:
+                aw_i = 2.0
+            elif flag == 0:
+                aw_i = _lin(awice, ib, fb)
+            else:
+                aw_i = ice_activity_kernel(Tb_raw)
             # air at ice saturation (within ICE_SAT_TOL, or frost present) counts as saturated:
             # the forcing holds vapour exactly at p_ice over frost, so an exact test would be a knife edge
-            ice_sat = Tb <= T_MELT and (Fb > 0.0 or RHb >= aw_i * (1.0 - ICE_SAT_TOL))
+            ice_sat = Tb_raw <= T_MELT and (Fb > 0.0 or RHb >= aw_i * (1.0 - ICE_SAT_TOL))
             psat = 0.0
             kx = 0.0
             if not instant and (s0 != CRYSTALLINE or RHb >= _lin(drh[kk], ib, fb)):
-                psat = psat_liquid_kernel(Tb)
-                D = dfactor * D_REF * (Tb / 273.15) * math.sqrt(Tb / 273.15) * (1e5 / max(P[k, c], 1.0))
-                kx = D * MW / (R_GAS * Tb * layer_m)  # kg m-2 s-1 Pa-1
+                psat = psat_liquid_kernel(Tb_raw)
+                D = dfactor * D_REF * (Tb_raw / 273.15) * math.sqrt(Tb_raw / 273.15) * (1e5 / max(P[k, c], 1.0))
+                kx = D * MW / (R_GAS * Tb_raw * layer_m)  # kg m-2 s-1 Pa-1
             liq = 0.0
             eq_brine = False  # brine water set from a_w = RH this step (equilibrium law)
             lnrh = math.log(RHb) if nsolid > 1 else 0.0
@@ -303,6 +318,8 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             else:
                 # liquid states
                 if Tb_raw < T_sup or Tb_raw < T_min:
+                    if Tb_raw >= T_sup:
+                        flag = 3  # frozen at the model's lower validity limit, above the supercooling limit
                     ks = _stable(stable, ib, fb)
                     if ks < 0:
                         ks = kk
@@ -406,7 +423,10 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                                 lim_b = math.exp(pz.ln_aw_kernel(m_max, Tb, p))
                                 liq = _frac(RHa - lim_a, RHb - lim_b)
                             elif erh == erh:
-                                liq = _frac(RHa - erh, RHb - erh)
+                                # efflorescence can never lie above the deliquescence RH
+                                e_a = min(erh, _lin(drh[kk], ia, fa))
+                                e_b = min(erh, _lin(drh[kk], ib, fb))
+                                liq = _frac(RHa - e_a, RHb - e_b)
                             else:
                                 d_a = _lin(drh[kk], ia, fa)
                                 d_b = _lin(drh[kk], ib, fb)

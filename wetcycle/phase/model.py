@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import ConfigError, UnknownNameError
+from ..errors import ConfigError, UnknownNameError, shown
 from ..salts import load as load_salt
 from ..salts.tables import build_phase_tables
 from . import kernel
@@ -124,7 +124,7 @@ class PhaseModel:
         tb = self.tables
         load = np.broadcast_to(np.asarray(loading_kg_m2, dtype=float), (n_cells,)).copy()
         if np.any(~(load > 0)):
-            raise ConfigError(f"loading: {load[~(load > 0)][0]!r} kg/m2 must be > 0")
+            raise ConfigError(f"loading: {shown(load[~(load > 0)][0])} kg/m2 must be > 0")
         n = load / tb.molar_mass
         T = np.broadcast_to(np.asarray(temperature_K, dtype=float), (n_cells,))
         rh = np.clip(np.broadcast_to(np.asarray(relative_humidity, dtype=float), (n_cells,)), 1e-9, 1.0)

@@ -30,7 +30,7 @@ import numpy as np
 from numba import njit
 from scipy.optimize import brentq, minimize_scalar
 
-from ..errors import ValidityError
+from ..errors import ValidityError, shown
 from ..water import ice_activity_kernel
 from . import pitzer as pz
 
@@ -335,7 +335,7 @@ class SaltSystem:
         self._check_T(T)
         a = np.asarray(aw, dtype=float)
         if np.any(~((a > 0) & (a <= 1))):
-            raise ValidityError(f"water activity: values must lie in (0, 1], got {a[~((a > 0) & (a <= 1))].flat[0]!r}")
+            raise ValidityError(f"water activity: values must lie in (0, 1], got {shown(a[~((a > 0) & (a <= 1))].flat[0])}")
         shape, (aa, tt) = _bcast(a, T)
         return _out(_inverse_curve(np.log(aa), tt, self.packed, self.m_max, np.empty_like(aa)), shape)
 
@@ -495,6 +495,9 @@ class SaltSystem:
             congruent_melting=self.congruent_melting_points(),
             efflorescence_rh=self.efflorescence_rh,
             supercooling_limit_K=self.supercooling_limit,
+            # the time-stepping model follows a supercooled brine down to the warmer of the two
+            model_supercooling_floor_K=(None if self.supercooling_limit is None
+                                        else max(float(self.supercooling_limit), self.T_min)),
             at=[],
         )
         for T in temperatures:
@@ -513,10 +516,18 @@ class SaltSystem:
                 ice_water_activity=_num(aw_ice),
                 ice_liquidus_molality=_num(mice),
                 below_eutectic=bool(eut is not None and T < eut["temperature_K"]),
-                hydrate_transitions=[dict(lower=h["lower"], higher=h["higher"], rh=_num(h["rh"]))
+                hydrate_transitions=[dict(lower=h["lower"], higher=h["higher"], rh=_num(h["rh"]),
+                                          solid_state=_solid_state(h["rh"], self.deliquescence_rh(T, h["lower"])))
                                      for h in self.hydration_transitions(T)],
             ))
         return out
+
+
+def _solid_state(rh, drh_lower):
+    """True if a hydration RH lies below the lower solid's DRH (a solid-state change); False if that
+    solid deliquesces first (the change then goes through the brine); None if either is undefined."""
+    rh, d = _num(rh), _num(drh_lower)
+    return None if rh is None or d is None else bool(rh < d)
 
 
 def _num(x):

@@ -132,7 +132,8 @@ class PhaseTables:
     metastably below the eutectic), ``awice[i]`` the water activity of ice
     (Murphy & Koop 2005; 2.0 above 273.15 K, where ice cannot exist).  ``hydration[s]`` holds the waters of
     hydration.  Scalars: eutectic temperature ``T_eut`` and its solid index,
-    the supercooling limit ``T_super`` and the efflorescence RH ``erh`` (NaN:
+    the supercooling limit ``T_super`` (as published; the kernel freezes at
+    max(T_super, T_min) and flags a freeze at T_min) and the efflorescence RH ``erh`` (NaN:
     none published, crystallise at the DRH).  ``inverse`` is the
     :class:`InverseTable`.
     """
@@ -203,7 +204,7 @@ def build_phase_tables(system, dT=0.25):
         name=system.name, T0=float(T[0]), dT=float(dT), lnk=lnk, msat=msat, drh=drh,
         stable=stable.astype(np.int64), mice=mice, awice=awice,
         hydration=np.array([s.hydration for s in system.solids], dtype=float),
-        T_eut=T_eut, eut_solid=eut_solid, T_super=max(T_super, system.T_min), erh=erh,
+        T_eut=T_eut, eut_solid=eut_solid, T_super=T_super, erh=erh,
         molar_mass=system.molar_mass, T_min=system.T_min, T_max=system.T_max, m_max=system.m_max,
         packed=system.packed, inverse=build_inverse_table(system),
     )

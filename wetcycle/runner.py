@@ -23,7 +23,7 @@ from .water import saturation_vapor_pressure_ice, saturation_vapor_pressure_liqu
 FORCING_KEYS = ("surface_temperature", "salt_temperature", "vapor_pressure", "relative_humidity",
                 "relative_humidity_ice", "surface_pressure", "water_frost", "co2_frost")
 PHASE_KEYS = ("phase_state", "brine_water_activity", "liquid_water", "hydrate_water", "ice_water",
-              "liquid_fraction")
+              "liquid_fraction", "validity_flag")
 
 
 @dataclass
@@ -237,6 +237,8 @@ def run(scenario, *, write=True, progress=False, output_path=None):
         Overrides the scenario's ``scenario.output``.
     """
     sc = scenario if isinstance(scenario, Scenario) else load_scenario(scenario)
+    if write:  # refuse an unwritable result path before computing anything
+        output.check_output_path(output_path or sc.output_path, "output_path" if output_path else "output")
     src = forcing_source(sc, progress=progress)
     ph = sc["phase"]
     models = [PhaseModel(s["name"], law=ph["law"], layer_thickness_m=ph["layer_thickness"],
@@ -272,6 +274,7 @@ def run(scenario, *, write=True, progress=False, output_path=None):
                 ps["hydrate_water"].append(r.hydrate_water.astype(np.float32))
                 ps["ice_water"].append(r.ice_water.astype(np.float32))
                 ps["liquid_fraction"].append(r.liquid_fraction.astype(np.float32))
+                ps["validity_flag"].append(r.clamped.astype(np.int8))
         if keep:
             for k in FORCING_KEYS:
                 series[k].append(np.asarray(d[k], dtype=np.float32))
