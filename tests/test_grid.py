@@ -106,8 +106,20 @@ def test_changed_scenario_refuses_to_resume(tmp_path):
     changed = scenario_from_dict(grid_doc(tmp_path, chunk_cells=3, albedo=0.3))
     with pytest.raises(ConfigError, match="--fresh"):
         run_grid(changed)
+    # an unreachable scheduler fails before --fresh discards anything (port 9 'discard': nothing listens)
+    with pytest.raises(ConfigError, match="could not be reached"):
+        run_grid(changed, fresh=True, scheduler="tcp://127.0.0.1:9")
+    assert len(list(run_dir_for(tmp_path / "grid.nc").glob("chunk_*.npz"))) == 1
     ds = run_grid(changed, fresh=True)
     assert ds.sizes["lat"] == 5
+
+
+def test_grid_axes_stop_at_the_maximum():
+    # A step that does not divide the span stops short of the maximum (never past it).
+    from wetcycle.config import grid_axes
+    lats, lons = grid_axes(dict(lat_min=-10.0, lat_max=10.0, lat_step=7.0, lon_min=0.0, lon_max=20.0, lon_step=5.0))
+    np.testing.assert_allclose(lats, [-10.0, -3.0, 4.0])
+    np.testing.assert_allclose(lons, [0.0, 5.0, 10.0, 15.0, 20.0])
 
 
 def test_property_map_reaches_the_cells():

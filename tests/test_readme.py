@@ -28,3 +28,13 @@ def test_ci_runs_the_readme_commands_verbatim():
 def test_readme_states_the_cautions():
     text = (ROOT / "README.md").read_text(encoding="utf-8").lower()
     assert "not evidence" in text and "planetary-protection" in text
+
+
+def test_developer_guide_lists_every_scenario_field():
+    # The guide's field table is generated from the schema; it must be current (documentation
+    # that drifts from the code is a defect; common practice: generated reference sections).
+    from wetcycle.config import SCHEMA, schema_markdown
+    text = (ROOT / "DEVELOPERS.md").read_text()
+    block = text.split("<!-- fields:begin -->\n")[1].split("<!-- fields:end -->")[0]
+    assert block == schema_markdown(), "run: python scripts/field_reference.py"
+    assert sum(len(v) for v in SCHEMA.values()) == block.count("\n") - 2

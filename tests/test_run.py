@@ -233,3 +233,31 @@ def test_site_series_carry_validity_flag_and_limit_notes(demo_result):
         n = int(demo_result[["molality_limit_steps", "lower_limit_freezes", "clamped_liquid_steps"]]
                 .sel(salt=salt).to_array().sum())
         assert (f"Model limits, {salt}:" in text) == (n > 0)
+
+
+def test_time_coordinate_is_cf_and_forcing_files_are_recorded(demo_result, tmp_path):
+    # CF-1.8 sec. 4.4: a time coordinate carries "<unit> since <date>"; xarray (a general reference
+    # library) must decode it to the run's start date.  Forcing files are named by sha256 (FIPS 180-4).
+    import hashlib
+    path = demo_result[1]
+    raw = xr.open_dataset(path, decode_times=False)
+    assert raw.time.attrs["units"] == f"seconds since {raw.attrs['start_utc']}"
+    dec = xr.open_dataset(path)
+    assert dec.time.values[0] == np.datetime64(raw.attrs["start_utc"].replace(" ", "T"))
+    # a file forcing records its file; a chamber programme has no date (no CF time) but its text
+    csv = ROOT / "forcing" / "analog_site_demo.csv"
+    rows = [l for l in csv.read_text().splitlines() if l and not l.startswith("#")]
+    doc = {"scenario": {"name": "analog", "planet": "earth", "output": str(tmp_path / "a.nc")},
+           "clock": {"start_utc": rows[1].split(",")[0], "sols": 1, "steps_per_sol": 24},
+           "site": [{"name": "Site Kestrel", "latitude": -24.0, "longitude": 10.0}],
+           "forcing": {"kind": "file", "path": str(csv), "gap_policy": "interpolate", "max_gap_s": 7200.0},
+           "salt": [{"name": "NaCl"}]}
+    ds = run(scenario_from_dict(doc))
+    assert ds.attrs["forcing_file_sha256"] == hashlib.sha256(csv.read_bytes()).hexdigest()
+    prog = ROOT / "forcing" / "chamber_demo.toml"
+    doc = {"scenario": {"name": "chamber", "output": str(tmp_path / "c.nc")}, "clock": {"step_s": 600.0},
+           "site": [{"name": "chamber", "latitude": 0.0, "longitude": 0.0}],
+           "forcing": {"kind": "chamber", "programme": str(prog)}, "salt": [{"name": "CaCl2"}]}
+    ds = run(scenario_from_dict(doc))
+    assert ds.attrs["forcing_programme_text"] == prog.read_text()
+    assert "standard_name" not in ds.time.attrs and ds.time.attrs["units"] == "s"

@@ -126,6 +126,21 @@ ARRAYS = ("site", "salt")
 OPTIONAL_TABLES = ("grid",)
 
 
+def schema_markdown():
+    """The scenario fields as a Markdown table (the reference section of DEVELOPERS.md)."""
+    names = {str: "text", bool: "true/false", int: "integer", dict: "table", NUM: "number", list: "list"}
+    lines = ["| table | field | type | default | allowed | unit / meaning |", "|---|---|---|---|---|---|"]
+    for table, fields in SCHEMA.items():
+        shown_table = f"[[{table}]]" if table in ARRAYS else f"[{table}]"
+        for key, (typ, default, lo, hi, doc) in fields.items():
+            d = "required" if default is REQUIRED else ("—" if default is None else f"`{default!r}`")
+            rng = (f"{lo:g} to {hi:g}" if lo is not None and hi is not None else f">= {lo:g}" if lo is not None
+                   else f"<= {hi:g}" if hi is not None else "")
+            lines.append(f"| {shown_table} | `{key}` | {names.get(typ, getattr(typ, '__name__', str(typ)))} | "
+                         f"{d} | {rng} | {doc.replace('|', '/')} |")
+    return "\n".join(lines) + "\n"
+
+
 def _check_table(where, table, schema, src):
     if not isinstance(table, dict):
         raise ConfigError(f"{src}: {where}: must be a table")
@@ -326,10 +341,14 @@ def grid_sites(grid, base_dir=Path("."), source="scenario"):
 
 
 def grid_axes(grid):
-    """Latitude and longitude centres [degrees] of a ``[grid]`` table."""
+    """Latitude and longitude centres [degrees] of a ``[grid]`` table.
+
+    Centres run from the minimum in whole steps up to the maximum, never past it (a step that
+    does not divide the span stops short of the maximum).
+    """
     import numpy as np
-    n_lat = int(round((grid["lat_max"] - grid["lat_min"]) / grid["lat_step"])) + 1
-    n_lon = int(round((grid["lon_max"] - grid["lon_min"]) / grid["lon_step"])) + 1
+    n_lat = int(np.floor((grid["lat_max"] - grid["lat_min"]) / grid["lat_step"] + 1e-9)) + 1
+    n_lon = int(np.floor((grid["lon_max"] - grid["lon_min"]) / grid["lon_step"] + 1e-9)) + 1
     return (grid["lat_min"] + grid["lat_step"] * np.arange(n_lat),
             grid["lon_min"] + grid["lon_step"] * np.arange(n_lon))
 

@@ -36,7 +36,7 @@ import xarray as xr
 from . import __version__
 from .config import Scenario, grid_axes, load_scenario
 from .errors import ConfigError
-from .output import CAUTION, limit_notes, set_new_file_mode, write_result
+from .output import CAUTION, check_output_path, limit_notes, set_new_file_mode, write_result
 from .vocabulary import attrs
 
 #: Spin-up tolerance used for grid chunks: effectively zero, so every chunk spins up
@@ -161,8 +161,18 @@ def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=Non
     if not (isinstance(workers, int) and workers >= 1):
         raise ConfigError(f"workers: {workers!r} is not allowed; allowed: a whole number >= 1")
     out_path = Path(output_path) if output_path else sc.output_path
+    if write:
+        check_output_path(out_path, "output_path" if output_path else "output")
     out_path.parent.mkdir(parents=True, exist_ok=True)
-    rdir = _prepare_dir(sc, run_dir_for(out_path), fresh)
+    client = cluster = None
+    if scheduler is not None:
+        # connect first: an unreachable scheduler must not cost the finished chunks of --fresh
+        client, cluster = _dask_client(scheduler, workers)
+    try:
+        rdir = _prepare_dir(sc, run_dir_for(out_path), fresh)
+    except BaseException:
+        _close_dask(client, cluster)
+        raise
     chunks = _chunks(sc)
     todo = [c for c in chunks if not (rdir / f"chunk_{c[0]:05d}.npz").is_file()]
     bar = None
@@ -181,17 +191,11 @@ def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=Non
             raise KeyboardInterrupt("stopped after the requested number of chunks")
 
     try:
-        if scheduler is not None:
+        if client is not None:
             from dask.distributed import as_completed as dask_completed
-            client, cluster = _dask_client(scheduler, workers)
-            try:
-                futs = {client.submit(run_chunk, sc, i0, i1, pure=False): k for k, i0, i1 in todo}
-                for f in dask_completed(list(futs)):
-                    finished(futs[f], f.result())
-            finally:
-                client.close()
-                if cluster is not None:
-                    cluster.close()
+            futs = {client.submit(run_chunk, sc, i0, i1, pure=False): k for k, i0, i1 in todo}
+            for f in dask_completed(list(futs)):
+                finished(futs[f], f.result())
         elif workers == 1:
             for k, i0, i1 in todo:
                 finished(k, run_chunk(sc, i0, i1))
@@ -202,12 +206,20 @@ def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=Non
                 for f in as_completed(futs):
                     finished(futs[f], f.result())
     finally:
+        _close_dask(client, cluster)
         if bar is not None:
             bar.close()
     ds = assemble(sc, rdir, chunks)
     if write:
         write_result(ds, out_path)
     return ds
+
+
+def _close_dask(client, cluster):
+    if client is not None:
+        client.close()
+    if cluster is not None:
+        cluster.close()
 
 
 def assemble(sc, rdir, chunks):
@@ -227,6 +239,7 @@ def assemble(sc, rdir, chunks):
                 arr[:, i, j] = part[name][:, c]
         dims = ("salt", "lat", "lon") + {1: ("ls_bin",) if name == "liquid_hours_by_ls" else ("hour_bin",)}.get(
             len(trailing), ())
+        # counts are stored as floats here (unlike a site result) so that masked cells can be NaN
         data[name] = (dims, arr, attrs(name))
     n_ls = parts[0]["liquid_hours_by_ls"].shape[2]
     coords = {

@@ -4,7 +4,7 @@
 >>> path = wm.plot_map(ds, "/tmp/liquid-hours.png")              # doctest: +SKIP
 
 A gridded result has dimensions ``(salt, lat, lon)``: coordinates ``lat``
-[degree_north] and ``lon`` [degree_east, east-positive], both 1-D, and per-cell
+[degrees_north] and ``lon`` [degrees_east, east-positive], both 1-D, and per-cell
 statistics named as in :mod:`wetcycle.vocabulary`; NaN marks a masked cell (not
 modelled).  As in :mod:`wetcycle.plots`, matplotlib is imported inside the
 functions and figures are drawn on the Agg canvas, never through ``pyplot``.
@@ -214,7 +214,7 @@ def plot_map(ds, path, *, salts=None, stat="liquid_hours_per_year"):
     ----------
     ds : xarray.Dataset or path
         A gridded wetcycle result with dimensions ``(salt, lat, lon)`` (``lat``
-        [degree_north] and ``lon`` [degree_east] 1-D ascending), or its NetCDF file.
+        [degrees_north] and ``lon`` [degrees_east] 1-D ascending), or its NetCDF file.
     path : str or Path
         Output file, ``.png``, ``.pdf`` or ``.svg``; its directory must exist.
         Written to a temporary file in the same directory, then moved into place.

@@ -50,7 +50,15 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
         arr = np.stack([st[name].T if name in STAT_DIMS else st[name] for st in stats])
         data[name] = (dims, arr, attrs(name))
     if series is not None:
-        coords["time"] = ("time", np.asarray(src.time_s, dtype=float), attrs("time"))
+        t_attrs = attrs("time")
+        if src.info.get("start_utc"):
+            # CF-1.8 sec. 4.4: a time coordinate's units name its reference date
+            t_attrs.update(units=f"seconds since {src.info['start_utc']}", calendar="standard", axis="T")
+        else:
+            # a chamber programme has no date: elapsed seconds, not a CF time coordinate
+            t_attrs.pop("standard_name", None)
+            t_attrs["long_name"] = "time since the start of the programme"
+        coords["time"] = ("time", np.asarray(src.time_s, dtype=float), t_attrs)
         coords["sol"] = ("time", np.asarray(src.sol), attrs("sol"))
         coords["solar_longitude"] = ("time", np.asarray(src.ls_deg, dtype=float), attrs("solar_longitude"))
         coords["local_solar_time"] = (("site", "time"), np.asarray(src.ltst_h, dtype=float).T,
@@ -79,6 +87,9 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
         habitability_min_temperature_K=float(hab["min_temperature"]),
         spinup_years=int(src.info.get("spinup_years", 0)),
     )
+    for key in ("start_utc", "forcing_file", "forcing_file_sha256", "forcing_programme_text"):
+        if src.info.get(key):
+            ds.attrs[key] = str(src.info[key])
     return ds
 
 
@@ -148,7 +159,8 @@ def open_result(path):
     if not path.is_file():
         raise InputDataError(f"result: {str(path)!r} is not a file")
     try:
-        ds = xr.open_dataset(path, engine="netcdf4")
+        # times stay seconds since the start (their units name the reference date)
+        ds = xr.open_dataset(path, engine="netcdf4", decode_times=False)
         ds.load()
         ds.close()
     except (OSError, ValueError) as exc:

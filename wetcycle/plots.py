@@ -126,7 +126,8 @@ def _open(ds):
         ds = ds.expand_dims(site=[str(ds.attrs.get("site", "series"))])
         ds = ds.assign({v: ds[v].expand_dims(salt=[ds.attrs["salt"]]) for v in per_salt})
     if "site" not in ds.dims or "salt" not in ds.dims:
-        raise InputDataError("result: dataset has no 'site' and 'salt' dimensions (see OUTPUT_SPEC: a wetcycle result)")
+        raise InputDataError("result: dataset has no 'site' and 'salt' dimensions; allowed: a site result "
+                             "(a gridded result is drawn by 'wetcycle map')")
     return ds
 
 
@@ -396,7 +397,7 @@ def plot_result(ds, path, *, sols=None, salts=None, site=0):
     Parameters
     ----------
     ds : xarray.Dataset or path
-        A wetcycle result (OUTPUT_SPEC layout), its NetCDF file, or a
+        A wetcycle site result (see DEVELOPERS.md, "Result files"), its NetCDF file, or a
         :func:`wetcycle.run_series` dataset.
     path : str or Path
         Output file, ``.png``, ``.pdf`` or ``.svg``; its directory must exist.

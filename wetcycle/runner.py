@@ -18,6 +18,7 @@ from .config import Scenario, load_scenario
 from .errors import ConfigError
 from .phase import PhaseModel
 from .stats import Accumulator
+from .timescales import jd_tt_to_utc
 from .water import saturation_vapor_pressure_ice, saturation_vapor_pressure_liquid
 
 FORCING_KEYS = ("surface_temperature", "salt_temperature", "vapor_pressure", "relative_humidity",
@@ -188,12 +189,39 @@ def _chamber_source(sc):
                          {"forcing": "chamber", "programme": str(f["programme"])})
 
 
+def _file_record(path):
+    """sha256 of a forcing file, so a result names exactly the data it was run on."""
+    import hashlib
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            h.update(chunk)
+    return {"forcing_file": str(path), "forcing_file_sha256": h.hexdigest()}
+
+
 def forcing_source(sc, progress=False):
-    """Build the scenario's forcing as a :class:`ForcingSource`."""
+    """Build the scenario's forcing as a :class:`ForcingSource`.
+
+    ``info`` carries, besides the forcing kind: ``start_utc`` (ISO-8601, millisecond precision)
+    when the run has a calendar start (every forcing but a chamber programme), and the path and
+    sha256 of a forcing file or chamber programme (the programme's text too).
+    """
     kind = sc["forcing"]["kind"]
     if kind == "chamber":
-        return _chamber_source(sc)
+        src = _chamber_source(sc)
+        path = sc.resolve(sc["forcing"]["programme"])
+        src.info.update(_file_record(path), forcing_programme_text=path.read_text())
+        return src
     clock, planet = _clock(sc)
+    start = np.datetime_as_string(jd_tt_to_utc(clock.jd_tt[0])[0], unit="ms")
+    src = _forcing_from_clock(sc, clock, planet, kind, progress)
+    src.info["start_utc"] = start.replace("T", " ")
+    if kind == "file":
+        src.info.update(_file_record(sc.resolve(sc["forcing"]["path"])))
+    return src
+
+
+def _forcing_from_clock(sc, clock, planet, kind, progress):
     if kind == "energy_balance":
         return _energy_source(sc, clock, planet, progress)
     f = sc["forcing"]

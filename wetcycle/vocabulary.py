@@ -14,8 +14,8 @@ VARIABLES = {
     "sol": ("1", "sol number since the start of the run", None),
     "solar_longitude": ("degree", "areocentric solar longitude Ls", None),
     "local_solar_time": ("hour", "local true solar time", None),
-    "latitude": ("degree_north", "latitude", "latitude"),
-    "longitude": ("degree_east", "longitude", "longitude"),
+    "latitude": ("degrees_north", "latitude", "latitude"),
+    "longitude": ("degrees_east", "longitude", "longitude"),
     # forcing
     "surface_temperature": ("K", "surface temperature", "surface_temperature"),
     "salt_temperature": ("K", "temperature at the depth of the salt", None),
