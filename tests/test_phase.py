@@ -274,3 +274,66 @@ def test_frozen_parcel_keeps_its_ice_in_ice_supersaturated_air_below_validity():
     k = np.flatnonzero(T < s.T_min)
     assert np.all(ph[k] == states.FROZEN)
     assert np.all(ds.ice_water.values[k] > 0.0)
+
+
+@pytest.mark.parametrize("salt,T,rh", [("NaCl", 285.0, 0.9), ("MgCl2", 290.0, 0.6)])
+def test_hydrate_above_its_peritectic_gives_way_and_deliquesces(salt, T, rh):
+    # Hydrohalite decomposes above 0.1 °C (Salt Institute table) and MgCl2·8H2O above -3.4 °C
+    # (Linke & Seidell 1965, from memory); above the DRH of the stable solid (Greenspan 1977:
+    # NaCl 0.755, MgCl2 0.33) the salt must deliquesce, whatever hydrate the humid start suggests.
+    t = np.arange(50) * 600.0
+    ds = wetcycle.run_series(salt, t, np.full(t.size, T), np.full(t.size, rh))
+    assert ds.phase_state.values[-1] == states.BRINE
+    assert float(ds.brine_water_activity[-1]) == pytest.approx(rh, abs=1e-6)
+
+
+@pytest.mark.parametrize("law", ["equilibrium", "vapour_limited"])
+def test_saturated_air_keeps_diluting_the_brine(law):
+    # At RH -> 1 a brine takes up water (a_w -> 1 only at infinite dilution; common practice);
+    # it must not be flagged as beyond the molality limit.  The equilibrium law caps the dilution at
+    # the kernel's M_DILUTE (a model choice).
+    from wetcycle.phase.kernel import M_DILUTE
+    t = np.arange(200) * 600.0
+    rh = np.r_[0.7, np.linspace(0.99, 1.0, 199)]
+    load = 0.01
+    ds = wetcycle.run_series("NaCl", t, np.full(t.size, 290.0), rh, law=law, loading_kg_m2=load)
+    assert np.all(ds.phase_state.values[1:] == states.BRINE)
+    assert np.all(ds.validity_flag.values == 0)
+    w = ds.liquid_water.values
+    assert np.all(np.diff(w[1:]) >= -1e-12) and w[-1] > w[1]
+    assert w[-1] <= load / 0.0584428 / M_DILUTE * (1 + 1e-9)  # NaCl 58.443 g/mol (IUPAC)
+
+
+def test_vapour_limited_crystallisation_keeps_the_hydrate_water():
+    # MgCl2 crystallises as the hexahydrate (bischofite, Linke & Seidell 1965): a parcel that
+    # dries past the model's molality limit ends as MgCl2·6H2O holding 6 waters per salt.
+    t = np.arange(200) * 600.0
+    rh = np.r_[np.linspace(0.5, 0.05, 100), np.linspace(0.05, 0.5, 100)]
+    ds = wetcycle.run_series("MgCl2", t, np.full(t.size, 280.0), rh, law="vapour_limited", loading_kg_m2=0.01)
+    i = np.flatnonzero(ds.validity_flag.values == 2)
+    assert i.size
+    n = 0.01 / 0.095211  # mol m-2 (IUPAC atomic weights)
+    assert float(ds.hydrate_water[i[0]]) == pytest.approx(n * 6 * 0.018015268, rel=1e-9)
+
+
+def test_liquid_hours_converge_to_the_analytic_value():
+    # A sinusoidal RH at fixed T: liquid from the up-crossing of the DRH to the down-crossing of
+    # the ERH (hysteresis, common practice), computed in closed form from the same DRH/ERH.
+    s = salts.load("NaClO4")
+    d, e = float(s.deliquescence_rh(260.0)), s.efflorescence_rh
+    per_sol = (np.pi - np.arcsin((e - 0.375) / 0.325) - np.arcsin((d - 0.375) / 0.325)) / (2 * np.pi) * 24.0
+    for dt, tol in ((900.0, 0.002), (300.0, 0.001)):
+        t = np.arange(0.0, 3 * 86400.0 + 1.0, dt)
+        rh = 0.375 + 0.325 * np.sin(2 * np.pi * t / 86400.0)
+        ds = wetcycle.run_series("NaClO4", t, np.full(t.size, 260.0), rh)
+        hours = float((ds.liquid_fraction.values[1:] * dt).sum()) / 3600.0
+        assert hours == pytest.approx(3 * per_sol, rel=tol), dt
+
+
+def test_frost_is_a_budget_not_a_source():
+    # Water conservation (invariant): a salt touching 1e-4 kg m-2 of frost cannot draw more than
+    # that from it while the frost cover lasts.
+    t = np.arange(500) * 60.0
+    ds = wetcycle.run_series("NaCl", t, np.full(t.size, 260.0), np.full(t.size, 0.3), frost_kg_m2=1e-4)
+    gained = ds.water_exchanged.values.clip(min=0).sum()
+    assert gained <= 1e-4 * (1 + 1e-9)

@@ -35,7 +35,17 @@ Physics (phase boundaries from the Pitzer model via the tables)
   dissolves into it up to the liquidus (contact melting, not vapour-limited).
 * Solid hydrates follow the stable hydrate at (T, RH) at once:
   argmin_s [ln K_s(T) - n_s ln RH] (equivalently, transition RH
-  (K_high/K_low)^(1/dn)); their kinetics are not modelled.
+  (K_high/K_low)^(1/dn)); their kinetics are not modelled.  A hydrate with no
+  saturation curve at T (above its peritectic) cannot coexist with brine: the
+  stable solid's DRH decides its deliquescence.
+* Water frost is a budget: the parcel draws at most the frost present, less
+  what it has already drawn during the same frost cover (the frost forcing
+  itself does not see the salt's uptake).
+* Equilibrium law near saturation: as RH -> 1 the equilibrium molality goes
+  to 0; the brine is held at no more dilute than ``M_DILUTE`` (0.1 mol/kg).
+  A crystal-free brine whose equilibrium lies past saturation stays
+  supersaturated while RH >= min(ERH, DRH) (the DRH where no ERH is
+  published) and below that crystallises and dries within the step.
 
 Time laws
 ---------
@@ -92,6 +102,10 @@ D_REF = 1.387e-5  # m2 s-1, H2O in CO2 at 273.15 K and 1e5 Pa (from memory; see 
 T_MELT = 273.15
 #: Relative tolerance of the ice-saturation test (tabulated a_w,ice is exact to ~1e-6).
 ICE_SAT_TOL = 1e-5
+#: Most dilute brine the equilibrium law holds [mol kg-1]: as RH -> 1 the equilibrium molality
+#: goes to 0 and the water taken up without limit; a parcel is capped at this dilution (for
+#: 0.01 kg m-2 of NaCl, 1.7 kg m-2 of water).  A model choice, not a property of the salt.
+M_DILUTE = 0.1
 
 # indices into the scalar vector of PhaseTables.scalars
 S_TEUT, S_EUTSOLID, S_TSUPER, S_ERH, S_TMIN, S_TMAX, S_MMAX = 0, 1, 2, 3, 4, 5, 6
@@ -208,7 +222,8 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
     instant : bool, the equilibrium law; else vapour-limited with ``layer_m`` [m], ``dfactor`` [-].
     T0 ... inv_m : the salt's tables (see :class:`~wetcycle.salts.tables.PhaseTables`).
     st, solid, w_hyd, w_brine, w_ice, n_diss : [cell] state, updated in place.
-    prev : [3, cell] the previous sample (T, RH, frost); ``started`` [cell] 1 once prev is valid.
+    prev : [4, cell] the previous sample (T, RH, frost) and the frost already drawn by the parcel
+        in the current frost episode [kg m-2]; ``started`` [cell] 1 once prev is valid.
     out_* : [step, cell] outputs: state, liquid fraction of the step, brine a_w (NaN without
         brine), brine/hydrate/ice water [kg m-2], water gained from the surroundings in the step
         [kg m-2], and a validity flag: 0 ok; 1 T lay outside the salt's validity range and was
@@ -230,7 +245,13 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             Fb = frost[k, c]
             if started[c] == 0:
                 prev[0, c], prev[1, c], prev[2, c] = Tb_raw, RHb, Fb
+                prev[3, c] = 0.0
                 started[c] = 1
+            # The frost forcing knows nothing of the salt: what the parcel drew from the current
+            # frost cover (prev[3]) is no longer available to it; a frost-free sample ends the episode.
+            used = prev[3, c] if Fb > 0.0 else 0.0
+            Fb = max(Fb - used, 0.0)
+            drawn = 0.0
             Ta_raw, RHa = prev[0, c], prev[1, c]
             flag = 0
             Tb = Tb_raw
@@ -263,15 +284,27 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                 D = dfactor * D_REF * (Tb_raw / 273.15) * math.sqrt(Tb_raw / 273.15) * (1e5 / max(P[k, c], 1.0))
                 kx = D * MW / (R_GAS * Tb_raw * layer_m)  # kg m-2 s-1 Pa-1
             liq = 0.0
+            W_flux = 0.0  # vapour-limited drying with crystals: water the flux alone would leave
             eq_brine = False  # brine water set from a_w = RH this step (equilibrium law)
             lnrh = math.log(RHb) if nsolid > 1 else 0.0
             if s0 == CRYSTALLINE:
                 d_b = _lin(drh[kk], ib, fb)
+                if d_b != d_b and Tb_raw >= T_eut:
+                    # the current hydrate has no saturation curve here (e.g. above its peritectic):
+                    # it cannot coexist with brine, so the stable solid decides deliquescence (an
+                    # incongruent melt keeps the hydrate's water in the parcel)
+                    ks = _stable(stable, ib, fb)
+                    if ks >= 0 and ks != kk:
+                        d_s = _lin(drh[ks], ib, fb)
+                        if d_s == d_s and RHb >= d_s:
+                            kk = ks
+                            d_b = d_s
                 if Fb > 0.0 and Tb >= T_eut and Tb <= T_MELT:
                     # contact melting with water frost up to the liquidus
                     mi = _lin(mice, ib, fb)
                     need = n / mi - wh if mi == mi else 0.0
                     take = min(max(need, 0.0), Fb)
+                    drawn = take
                     W = wh + take
                     s1, kk, wh, wb, wi, nd = _partition(n, W, Tb, ib, fb, msat, stable, mice, hyd, kk,
                                                         False, erh, T_eut, p, m_max)
@@ -285,7 +318,9 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                             W = n / mi
                         else:
                             m_eq = molality_from_table(RHb, Tb, inv_T0, inv_dT, inv_ds, inv_m)
-                            W = n / m_eq if m_eq == m_eq and m_eq > 0.0 else wh
+                            if m_eq == m_eq and m_eq < M_DILUTE:
+                                m_eq = M_DILUTE
+                            W = n / m_eq if m_eq == m_eq else wh
                         s1, kk, wh, wb, wi, nd = _partition(n, W, Tb, ib, fb, msat, stable, mice, hyd, kk,
                                                             False, erh, T_eut, p, m_max)
                     else:
@@ -341,7 +376,8 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                         # in contact with water frost: the brine stays on the ice liquidus,
                         # drawing water from the frost (contact melting), whatever the air does
                         if W0 < n / mi_b:
-                            W = W0 + min(n / mi_b - W0, Fb)
+                            drawn = min(n / mi_b - W0, Fb)
+                            W = W0 + drawn
                     elif instant:
                         mi = _lin(mice, ib, fb) if Tb <= T_MELT else math.nan
                         if ice_sat and mi == mi:
@@ -349,15 +385,26 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                                 W = n / mi
                         else:
                             m_eq = molality_from_table(RHb, Tb, inv_T0, inv_dT, inv_ds, inv_m)
-                            if m_eq == m_eq and m_eq > 0.0:
+                            if m_eq == m_eq:
+                                eq_brine = m_eq >= M_DILUTE
+                                m_eq = max(m_eq, M_DILUTE)
                                 W = n / m_eq
-                                eq_brine = True
                             else:
                                 W = 0.0  # the air is drier than the model's most concentrated brine
                                 if not had_crystals:
                                     flag = 2
                             if had_crystals and ms_b == ms_b and m_eq == m_eq and m_eq > ms_b:
                                 W = 0.0  # crystals present: brine dries out below the DRH
+                            elif (not had_crystals) and ms_b == ms_b and m_eq == m_eq and m_eq > ms_b:
+                                # a crystal-free brine past saturation stays (supersaturated) while
+                                # a_w >= ERH; below the ERH (never above the DRH; the DRH where no
+                                # ERH is published) it crystallises and, the air being below the
+                                # DRH, dries at once
+                                e_b = _lin(drh[ks_b], ib, fb)
+                                if erh == erh and erh < e_b:
+                                    e_b = erh
+                                if RHb < e_b:
+                                    W = 0.0
                     else:
                         if had_ice:
                             # the parcel's own ice exchanges at ice saturation; it cannot lose more than its ice
@@ -365,15 +412,17 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                         elif had_crystals:
                             aws = _aw_of(nd, wb, Tb, p)
                             W = W0 + kx * (RHb - aws) * psat * dtk
+                            W_flux = W
                             if ks_b >= 0:  # a saturated brine dries down to the dry hydrate, no further
                                 W = max(W, n * hyd[ks_b] * MW)
                             if ms_b == ms_b and ms_b > 0:  # ...and grows until the salt is dissolved, no further
                                 W = min(W, max(W0, n / ms_b))
                         else:
                             m_eq = molality_from_table(RHb, Tb, inv_T0, inv_dT, inv_ds, inv_m)
-                            beyond = not (m_eq == m_eq and m_eq > 0.0)
+                            beyond = not (m_eq == m_eq)
                             if beyond:
                                 m_eq = m_max
+                            m_eq = max(m_eq, M_DILUTE)
                             W_eq = n / m_eq
                             # exponential relaxation toward W_eq with the secant time constant:
                             # the initial flux is exactly F = kx psat (RH - a_w) (Fick), no overshoot
@@ -385,7 +434,9 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                             else:
                                 W = W0
                             if beyond and W <= W_eq * (1.0 + 1e-6):
-                                W = 0.0  # reached the model's molality limit before the efflorescence RH
+                                # reached the model's molality limit before the efflorescence RH:
+                                # crystallise to the dry hydrate (its water stays in the solid)
+                                W = n * hyd[ks_b] * MW if ks_b >= 0 else 0.0
                                 flag = 2
                         W = max(W, 0.0)
                     allow = (not had_crystals) and (erh == erh) and W > 0.0  # _partition checks a_w >= ERH
@@ -432,7 +483,8 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                                 d_b = _lin(drh[kk], ib, fb)
                                 liq = _frac(RHa - d_a, RHb - d_b)
                         else:
-                            dW = W0 - W
+                            # the brine lasted while the flux removed the water above the dry hydrate
+                            dW = W0 - W_flux
                             liq = min(wb_prev_frac(W0, wh, dW), 1.0)
                     else:
                         liq = 1.0
@@ -452,7 +504,8 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             out_wi[k, c] = wi
             out_exch[k, c] = W1 - W0
             out_flag[k, c] = flag
-            prev[0, c], prev[1, c], prev[2, c] = Tb_raw, RHb, Fb
+            prev[0, c], prev[1, c], prev[2, c] = Tb_raw, RHb, frost[k, c]
+            prev[3, c] = used + drawn if frost[k, c] > 0.0 else 0.0
 
 
 @njit(cache=True, inline="always", error_model="numpy")

@@ -136,7 +136,7 @@ class PhaseModel:
         return ParcelState(
             phase=np.full(n_cells, CRYSTALLINE, dtype=np.int64), solid=solid,
             w_hyd=n * tb.hydration[solid] * MW, w_brine=np.zeros(n_cells), w_ice=np.zeros(n_cells),
-            n_diss=np.zeros(n_cells), n_salt=n, prev=np.zeros((3, n_cells)),
+            n_diss=np.zeros(n_cells), n_salt=n, prev=np.zeros((4, n_cells)),
             started=np.zeros(n_cells, dtype=np.int64), exchanged=np.zeros(n_cells),
         )
 
