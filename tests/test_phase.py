@@ -337,3 +337,14 @@ def test_frost_is_a_budget_not_a_source():
     ds = wetcycle.run_series("NaCl", t, np.full(t.size, 260.0), np.full(t.size, 0.3), frost_kg_m2=1e-4)
     gained = ds.water_exchanged.values.clip(min=0).sum()
     assert gained <= 1e-4 * (1 + 1e-9)
+
+
+def test_each_frost_cover_is_a_new_budget():
+    # Water conservation (invariant): two separate frost covers of 1e-4 kg m-2 each can give at
+    # most 2e-4 in all; the second cover is not spent by the first.
+    t = np.arange(600) * 60.0
+    frost = np.where((t < 100 * 60.0) | ((t >= 300 * 60.0) & (t < 400 * 60.0)), 1e-4, 0.0)
+    ds = wetcycle.run_series("NaCl", t, np.full(t.size, 260.0), np.full(t.size, 0.3), frost_kg_m2=frost)
+    gain = ds.water_exchanged.values.clip(min=0)
+    first, second = gain[:300].sum(), gain[300:].sum()
+    assert 0.0 < first <= 1e-4 * (1 + 1e-9) and 0.0 < second <= 1e-4 * (1 + 1e-9)

@@ -266,20 +266,26 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             kk = solid[c]
             wh, wb, wi, nd = w_hyd[c], w_brine[c], w_ice[c], n_diss[c]
             W0 = wh + wb + wi
+            # DRH of the current solid (NaN where it has no saturation curve: handled below)
+            d_cur = _lin(drh[kk], ib, fb) if s0 == CRYSTALLINE else 0.0
             # Properties of water itself (ice activity, vapour pressure, diffusion) use the true
             # temperature; only the salt's tables are read at the clamped one.
+            # A dry salt below its DRH never looks at ice, so the (costly, when clamped) ice
+            # activity is evaluated only where the step can use it.
             if Tb_raw > T_MELT:
                 aw_i = 2.0
             elif flag == 0:
                 aw_i = _lin(awice, ib, fb)
-            else:
+            elif s0 != CRYSTALLINE or Fb > 0.0 or not (RHb < d_cur):
                 aw_i = ice_activity_kernel(Tb_raw)
+            else:
+                aw_i = 2.0  # not used: a dry salt below its DRH, no frost
             # air at ice saturation (within ICE_SAT_TOL, or frost present) counts as saturated:
             # the forcing holds vapour exactly at p_ice over frost, so an exact test would be a knife edge
             ice_sat = Tb_raw <= T_MELT and (Fb > 0.0 or RHb >= aw_i * (1.0 - ICE_SAT_TOL))
             psat = 0.0
             kx = 0.0
-            if not instant and (s0 != CRYSTALLINE or RHb >= _lin(drh[kk], ib, fb)):
+            if not instant and (s0 != CRYSTALLINE or not (RHb < d_cur)):
                 psat = psat_liquid_kernel(Tb_raw)
                 D = dfactor * D_REF * (Tb_raw / 273.15) * math.sqrt(Tb_raw / 273.15) * (1e5 / max(P[k, c], 1.0))
                 kx = D * MW / (R_GAS * Tb_raw * layer_m)  # kg m-2 s-1 Pa-1
@@ -288,7 +294,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             eq_brine = False  # brine water set from a_w = RH this step (equilibrium law)
             lnrh = math.log(RHb) if nsolid > 1 else 0.0
             if s0 == CRYSTALLINE:
-                d_b = _lin(drh[kk], ib, fb)
+                d_b = d_cur
                 if d_b != d_b and Tb_raw >= T_eut:
                     # the current hydrate has no saturation curve here (e.g. above its peritectic):
                     # it cannot coexist with brine, so the stable solid decides deliquescence (an
@@ -505,7 +511,10 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             out_exch[k, c] = W1 - W0
             out_flag[k, c] = flag
             prev[0, c], prev[1, c], prev[2, c] = Tb_raw, RHb, frost[k, c]
-            prev[3, c] = used + drawn if frost[k, c] > 0.0 else 0.0
+            if frost[k, c] > 0.0:
+                prev[3, c] = used + drawn
+            elif prev[3, c] != 0.0:
+                prev[3, c] = 0.0  # the frost cover is gone: the next one is a new budget
 
 
 @njit(cache=True, inline="always", error_model="numpy")
