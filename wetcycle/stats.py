@@ -10,7 +10,8 @@ kernel).  Definitions:
   partial first and last steps counted by their liquid fraction;
 * wet events per year: transitions from no liquid to liquid;
 * habitable hours per year: liquid time in steps whose brine water activity
-  and temperature (at the end of the step) both reach the thresholds.  Defaults
+  and temperature (at the end of the step; in a step where the brine ended,
+  its water activity at the previous sample) both reach the thresholds.  Defaults
   (:data:`HABITABILITY_DEFAULTS`) follow the planetary-protection literature:
   water activity 0.5 and 245.15 K (-28 °C), the limits *with margin* of
   Rummel et al. (2014), Astrobiology 14, 887 (values from memory).  They are
@@ -29,6 +30,7 @@ kernel).  Definitions:
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -49,7 +51,7 @@ def _liquid(st):
 @njit(cache=True, nogil=True)
 def accumulate(liq, phase, aw, T, ls, ltst, clamped, dt, aw_thr, T_thr, n_ls_bins,
                liquid_s, habitable_s, events, spell_cur, spell_max, by_ls, by_hour,
-               T_lo, T_hi, aw_lo, aw_hi, n_flags, wet_prev):
+               T_lo, T_hi, aw_lo, aw_hi, n_flags, wet_prev, aw_last):
     """Add one block ([step, cell] arrays; ``ls`` [step]; ``dt`` [step] s) to the accumulators."""
     nstep, ncell = liq.shape
     ls_width = 360.0 / n_ls_bins
@@ -81,6 +83,9 @@ def accumulate(liq, phase, aw, T, ls, ltst, clamped, dt, aw_thr, T_thr, n_ls_bin
                 by_hour[h, c] += d
                 spell_cur[c] += d
                 a = aw[k, c]
+                if a != a:
+                    # the brine ended inside the step: its water activity is the last one seen
+                    a = aw_last[c]
                 t = T[k, c]
                 if a == a:
                     if a >= aw_thr and t >= T_thr:
@@ -89,6 +94,7 @@ def accumulate(liq, phase, aw, T, ls, ltst, clamped, dt, aw_thr, T_thr, n_ls_bin
                     aw_hi[c] = max(aw_hi[c], a)
                     T_lo[c] = min(T_lo[c], t)
                     T_hi[c] = max(T_hi[c], t)
+            aw_last[c] = aw[k, c] if wet_end else math.nan
             if not wet_end:
                 if spell_cur[c] > spell_max[c]:
                     spell_max[c] = spell_cur[c]
@@ -113,6 +119,7 @@ class Accumulator:
     aw_hi: np.ndarray
     n_flags: np.ndarray  # [4, cell]: clamped, clamped with liquid, molality-limit, lower-limit freezes
     wet_prev: np.ndarray
+    aw_last: np.ndarray  # brine water activity at the end of the previous step (NaN: no brine)
     aw_thr: float
     T_thr: float
 
@@ -122,7 +129,8 @@ class Accumulator:
         return cls(z(), z(), np.zeros(n_cells, np.int64), z(), z(), np.zeros((n_ls_bins, n_cells)),
                    np.zeros((N_HOUR_BINS, n_cells)), np.full(n_cells, np.inf), np.full(n_cells, -np.inf),
                    np.full(n_cells, np.inf), np.full(n_cells, -np.inf), np.zeros((4, n_cells), np.int64),
-                   np.zeros(n_cells, np.int64), float(min_water_activity), float(min_temperature_K))
+                   np.zeros(n_cells, np.int64), np.full(n_cells, np.nan), float(min_water_activity),
+                   float(min_temperature_K))
 
     def add(self, liquid_fraction, phase, water_activity, temperature_K, ls_deg, ltst_h, clamped, dt_s):
         """Add a block: arrays [step, cell]; ``ls_deg`` and ``dt_s`` per step."""
@@ -134,7 +142,7 @@ class Accumulator:
                    np.ascontiguousarray(clamped), dt, self.aw_thr, self.T_thr, self.by_ls.shape[0],
                    self.liquid_s, self.habitable_s, self.events, self.spell_cur, self.spell_max,
                    self.by_ls, self.by_hour, self.T_lo, self.T_hi, self.aw_lo, self.aw_hi,
-                   self.n_flags, self.wet_prev)
+                   self.n_flags, self.wet_prev, self.aw_last)
 
     def finish(self, years):
         """Statistics per year as a dict of arrays (hours; NaN ranges where never liquid)."""
