@@ -74,9 +74,13 @@ def test_eutectic_supercooling_and_melting():
     rh = ice_water_activity(T)
     ds = wetcycle.run_series("CaCl2", t, T, rh, loading_kg_m2=0.02)
     ph = ds.phase_state.values
-    assert ph[5] == states.BRINE  # deliquesced onto the ice liquidus
+    assert ph[0] == states.BRINE  # deliquesced onto the ice liquidus
     cooling = np.arange(T.size) <= np.argmin(T)
-    assert np.any(cooling & (ph == states.BRINE_WITH_ICE))  # ice grows from the brine on cooling
+    # inside the ice field the parcel is closed: ice grows from the brine on cooling, steadily
+    # (the brine on the liquidus, its molality the ice-liquidus molality at each T)
+    above = cooling & (T > T_eut + 0.1)
+    assert np.all(ph[above][1:] == states.BRINE_WITH_ICE)
+    assert np.all(np.diff(ds.ice_water.values[above]) > 0)
     sc = cooling & (T < T_eut - 0.1) & (T > T_sup + 0.1)
     assert sc.any() and np.all(ph[sc] == states.SUPERCOOLED)
     i_frz = np.flatnonzero(ph == states.FROZEN)[0]
@@ -348,3 +352,20 @@ def test_each_frost_cover_is_a_new_budget():
     gain = ds.water_exchanged.values.clip(min=0)
     first, second = gain[:300].sum(), gain[300:].sum()
     assert 0.0 < first <= 1e-4 * (1 + 1e-9) and 0.0 < second <= 1e-4 * (1 + 1e-9)
+
+
+@pytest.mark.parametrize("salt", ["CaCl2", "NaCl"])
+def test_closed_parcel_in_the_ice_field_grows_and_melts_ice_with_temperature(salt):
+    # Air at ice saturation (Murphy & Koop 2005) above the eutectic: the brine sits on the ice
+    # liquidus and the parcel is closed, so ice grows while T falls and melts while it rises --
+    # two state changes per temperature cycle, never a rounding flicker (invariant of the rule).
+    s = salts.load(salt)
+    t = np.arange(400) * 300.0
+    T = s.eutectic()["temperature_K"] + 6.0 + 2.0 * np.sin(2 * np.pi * t / 21600.0)
+    ds = wetcycle.run_series(salt, t, T, ice_water_activity(T), loading_kg_m2=0.02)
+    ph, wi = ds.phase_state.values, ds.ice_water.values
+    n_cycles = t[-1] / 21600.0
+    assert np.count_nonzero(np.diff(ph)) <= 2 * np.ceil(n_cycles) + 1
+    falling = np.r_[False, np.diff(T) < 0]
+    assert np.all(wi[falling & (t > 21600.0)] > 0.0)
+    assert np.all(np.isin(ph, states.LIQUID))

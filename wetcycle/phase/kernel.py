@@ -161,7 +161,7 @@ def _partition(n, W, T, i, f, msat, stable, mice, hyd, k_prev, allow_supersat, e
         return CRYSTALLINE, ks, 0.0, 0.0, 0.0, 0.0
     mi = _lin(mice, i, f) if T <= T_MELT else math.nan
     below = T < T_eut
-    if mi == mi and n / W < mi:
+    if mi == mi and n / W < mi * (1.0 - 1e-12):  # on the liquidus within rounding: brine, no ice
         wb = n / mi
         return (SUPERCOOLED if below else BRINE_WITH_ICE), ks, 0.0, wb, W - wb, n
     m = n / W
@@ -387,7 +387,12 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                     elif instant:
                         mi = _lin(mice, ib, fb) if Tb <= T_MELT else math.nan
                         if ice_sat and mi == mi:
-                            if not had_ice:
+                            # Inside the ice field the parcel is closed: a brine that was already on
+                            # the ice liquidus (with or without ice) keeps its water, so cooling grows
+                            # ice from it; one arriving from off the liquidus is set onto it.
+                            mi_a = _lin(mice, ia, fa) if Ta <= T_MELT else math.nan
+                            on_liq = mi_a == mi_a and abs(W0 * mi_a - n) <= 1e-9 * n
+                            if not (had_ice or on_liq):
                                 W = n / mi
                         else:
                             m_eq = molality_from_table(RHb, Tb, inv_T0, inv_dT, inv_ds, inv_m)
