@@ -173,10 +173,10 @@ def _raw_series(tmp_path, name, calendar, n_t=5, n_T=5):
     return path
 
 
-@pytest.mark.parametrize("calendar", [None, "standard", "noleap", "365_day", "360_day", "all_leap"])
-def test_netcdf_cf_calendars_give_elapsed_time(tmp_path, calendar):
-    # CF conventions 1.11 sec. 4.4.1: offsets from the reference date count elapsed time in every
-    # calendar, so a day's record reads the same whatever the calendar (within one day no label differs).
+@pytest.mark.parametrize("calendar", [None, "standard", "noleap", "365_day", "all_leap"])
+def test_netcdf_cf_calendars_within_a_day(tmp_path, calendar):
+    # CF conventions 1.11 sec. 4.4.1: within one day of the reference date no calendar's labels
+    # differ, so a day's record reads the same whatever the calendar.
     path = _raw_series(tmp_path, f"cal_{calendar}.nc", calendar)
     f = files.read_netcdf_forcing(path, earth_clock(steps=8),
                                   {"time": "time", "temperature": "tsurf", "vapor_pressure": "e"})
@@ -184,9 +184,29 @@ def test_netcdf_cf_calendars_give_elapsed_time(tmp_path, calendar):
     np.testing.assert_allclose(f.temperature_K, 250.0 + 12.0 * np.arange(8) * 3.0 / 24.0, rtol=1e-12)
 
 
+def test_netcdf_noleap_labels_are_read_as_real_dates(tmp_path):
+    # CF conventions sec. 4.4.1 / cftime: in "noleap", day 59 after 2024-01-01 is labelled 1 March
+    # (31 + 28 days), while 59 real days reach 29 February.  The label is what the model means.
+    attrs = {"units": "days since 2024-01-01 00:00:00", "calendar": "noleap"}
+    days = np.array([58.0, 58.5, 59.0, 59.5, 60.0])
+    ds = xr.Dataset({"time": ("t", days, attrs),
+                     "tsurf": ("t", np.array([250.0, 251.0, 252.0, 253.0, 254.0]), {"units": "K"}),
+                     "e": ("t", np.full(5, 0.5), {"units": "Pa"})})
+    path = tmp_path / "noleap.nc"
+    ds.to_netcdf(path)
+    c = make_clock("earth", steps_per_sol=24, n_sols=1, start_utc="2024-03-01T00:00:00Z")
+    f = files.read_netcdf_forcing(path, c, {"time": "time", "temperature": "tsurf", "vapor_pressure": "e"},
+                                  gap_policy="interpolate", max_gap_s=2 * 86400.0)
+    # 1 March 00:00 is the sample labelled 252 K (day 59), 12:00 the one labelled 253 K
+    assert f.temperature_K[0] == pytest.approx(252.0, abs=1e-6)
+    assert f.temperature_K[12] == pytest.approx(253.0, abs=1e-6)
+
+
 def test_netcdf_calendar_and_length_refused(tmp_path):
     m = {"time": "time", "temperature": "tsurf", "vapor_pressure": "e"}
     with pytest.raises(InputDataError, match="calendar 'julian' not allowed; allowed: standard"):
         files.read_netcdf_forcing(_raw_series(tmp_path, "j.nc", "julian"), earth_clock(steps=8), m)
+    with pytest.raises(InputDataError, match="360_day"):
+        files.read_netcdf_forcing(_raw_series(tmp_path, "d.nc", "360_day"), earth_clock(steps=8), m)
     with pytest.raises(InputDataError, match=r"'tsurf' \(temperature\) has dimensions \{'t2': 4\}"):
         files.read_netcdf_forcing(_raw_series(tmp_path, "l.nc", "standard", n_T=4), earth_clock(steps=8), m)

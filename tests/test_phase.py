@@ -251,7 +251,7 @@ def test_brine_with_crystals_does_not_supercool():
 
 def test_supercooled_brine_below_validity_limit_freezes_flagged():
     # Ca(ClO4)2 brines supercool to ~150 K (data file, Toner et al. 2014), below the Pitzer
-    # model's lower validity limit T_min: the kernel freezes them at T_min and flags it (3), never
+    # model's lower validity limit T_min: the kernel freezes them at T_min and flags it (bit 4), never
     # following a brine with properties it cannot compute (no silent extrapolation).
     s = salts.load("Ca(ClO4)2")
     assert s.supercooling_limit < s.T_min < s.eutectic()["temperature_K"]
@@ -260,7 +260,7 @@ def test_supercooled_brine_below_validity_limit_freezes_flagged():
     ds = wetcycle.run_series("Ca(ClO4)2", np.arange(T.size) * 300.0, T, rh, loading_kg_m2=0.02)
     i = first_change(ds, states.SUPERCOOLED, states.FROZEN)
     assert i is not None and T[i - 1] >= s.T_min > T[i]
-    assert int(ds.validity_flag[i]) == 3
+    assert int(ds.validity_flag[i]) == 1 + 4  # clamped below T_min, and frozen there (bit 4)
     assert np.all(ds.validity_flag.values[:i][T[:i] >= s.T_min] == 0)
 
 
@@ -314,7 +314,7 @@ def test_vapour_limited_crystallisation_keeps_the_hydrate_water():
     t = np.arange(200) * 600.0
     rh = np.r_[np.linspace(0.5, 0.05, 100), np.linspace(0.05, 0.5, 100)]
     ds = wetcycle.run_series("MgCl2", t, np.full(t.size, 280.0), rh, law="vapour_limited", loading_kg_m2=0.01)
-    i = np.flatnonzero(ds.validity_flag.values == 2)
+    i = np.flatnonzero(ds.validity_flag.values & 2)
     assert i.size
     n = 0.01 / 0.095211  # mol m-2 (IUPAC atomic weights)
     assert float(ds.hydrate_water[i[0]]) == pytest.approx(n * 6 * 0.018015268, rel=1e-9)
@@ -369,3 +369,27 @@ def test_closed_parcel_in_the_ice_field_grows_and_melts_ice_with_temperature(sal
     falling = np.r_[False, np.diff(T) < 0]
     assert np.all(wi[falling & (t > 21600.0)] > 0.0)
     assert np.all(np.isin(ph, states.LIQUID))
+
+
+def test_water_properties_outside_their_range_are_clamped_not_nan():
+    # Murphy & Koop (2005) hold for liquid water at 123-332 K: a brief excursion to 334 K under the
+    # vapour-limited law must leave finite water (clamped, flagged), not NaN thereafter.
+    t = np.arange(72) * 300.0
+    T = np.full(t.size, 290.0)
+    T[24:48] = 334.0
+    ds = wetcycle.run_series("NaCl", t, T, np.full(t.size, 0.8), law="vapour_limited", loading_kg_m2=0.01)
+    total = ds.liquid_water.values + ds.hydrate_water.values + ds.ice_water.values
+    assert np.all(np.isfinite(total))
+    assert np.all(ds.validity_flag.values[24:48] & 1) and not np.any(ds.validity_flag.values[48:] & 1)
+
+
+def test_lower_limit_freeze_flagged_when_a_step_jumps_past_both_limits():
+    # CaCl2: published supercooling limit 208 K lies below the model's T_min (215 K): a step from
+    # 218 K straight to 190 K freezes the brine at T_min, and says so (bit 4).
+    s = salts.load("CaCl2")
+    assert s.supercooling_limit < s.T_min
+    T = np.r_[np.full(20, 230.0), np.linspace(230.0, 218.0, 20), 190.0]
+    rh = np.r_[np.full(20, 0.65), np.full(21, 0.55)]  # DRH(230 K) 0.61 < 0.65 < a_w,ice 0.66
+    ds = wetcycle.run_series("CaCl2", np.arange(T.size) * 300.0, T, rh, loading_kg_m2=0.02)
+    assert int(ds.phase_state[-2]) in states.LIQUID and int(ds.phase_state[-1]) == states.FROZEN
+    assert int(ds.validity_flag[-1]) & 4

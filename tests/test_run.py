@@ -216,17 +216,19 @@ def test_result_file_mode_follows_umask(demo_result, tmp_path):
 
 
 def test_site_series_carry_validity_flag_and_limit_notes(demo_result):
-    # CF-1.8 flags: validity_flag with flag_values/flag_meanings; the summary names the model
+    # CF-1.8 flags: validity_flag as a bit field (flag_masks/flag_meanings); the summary names the model
     # limits a result leans on, and says when '/yr' figures come from less than a year.
     from wetcycle.output import summary_text
     demo_result = open_result(demo_result[1])  # as read back from the file
     vf = demo_result["validity_flag"]
-    assert vf.dims == ("salt", "site", "time") and list(vf.attrs["flag_values"]) == [0, 1, 2, 3]
-    assert len(vf.attrs["flag_meanings"].split()) == 4
-    for k in ("clamped_liquid_steps", "molality_limit_steps", "lower_limit_freezes"):
-        counted = {"clamped_liquid_steps": None, "molality_limit_steps": 2, "lower_limit_freezes": 3}[k]
-        if counted is not None:  # the statistics count the flags of the saved series
-            np.testing.assert_array_equal(demo_result[k].values, (vf.values == counted).sum(axis=-1))
+    assert vf.dims == ("salt", "site", "time") and list(vf.attrs["flag_masks"]) == [1, 2, 4]
+    assert len(vf.attrs["flag_meanings"].split()) == 3
+    # the statistics count the bits of the saved series
+    for k, bit in (("clamped_steps", 1), ("molality_limit_steps", 2), ("lower_limit_freezes", 4)):
+        np.testing.assert_array_equal(demo_result[k].values, ((vf.values & bit) != 0).sum(axis=-1))
+    lf = demo_result["liquid_fraction"].values
+    np.testing.assert_array_equal(demo_result["clamped_liquid_steps"].values,
+                                  (((vf.values & 1) != 0) & (lf > 0)).sum(axis=-1))
     text = summary_text(demo_result)
     assert "scaled up from it" in text  # 4 sols < 1 year
     for salt in demo_result.salt.values:

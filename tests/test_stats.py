@@ -36,3 +36,13 @@ def test_hand_counted_hours_events_spell_and_habitable():
     # judged by its last water activity (0.60); the final step's a_w 0.40 is below the threshold
     assert out["habitable_hours_per_year"][0] == pytest.approx(2.75)
     assert out["liquid_water_activity_min"][0] == pytest.approx(0.40)
+    # the step that ended dry is judged at its last wet sample (250 K), not its dry end
+    assert out["liquid_temperature_min"][0] == pytest.approx(250.0)
+
+
+def test_brine_ending_in_a_cold_step_does_not_widen_the_temperature_range():
+    acc = Accumulator.new(1)
+    C, B = states.CRYSTALLINE, states.BRINE
+    _add(acc, [1.0, 0.1], [B, C], [0.7, np.nan], [250.0, 190.0])
+    out = acc.finish(years=1.0)
+    assert out["liquid_temperature_min"][0] == pytest.approx(250.0)

@@ -4,7 +4,7 @@ Top-level helpers are imported lazily so that ``import wetcycle`` stays light
 and compiles nothing.
 """
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"
 
 __all__ = ["run", "run_series", "open_result", "__version__"]
 

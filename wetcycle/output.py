@@ -55,9 +55,11 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
             # CF-1.8 sec. 4.4: a time coordinate's units name its reference date
             t_attrs.update(units=f"seconds since {src.info['start_utc']}", calendar="standard", axis="T")
         else:
-            # a chamber programme has no date: elapsed seconds, not a CF time coordinate
+            # no date (a chamber programme, or a start before 1972 with no UTC leap-second table):
+            # elapsed seconds, not a CF time coordinate
             t_attrs.pop("standard_name", None)
-            t_attrs["long_name"] = "time since the start of the programme"
+            if src.info.get("forcing") == "chamber":
+                t_attrs["long_name"] = "time since the start of the programme"
         coords["time"] = ("time", np.asarray(src.time_s, dtype=float), t_attrs)
         coords["sol"] = ("time", np.asarray(src.sol), attrs("sol"))
         coords["solar_longitude"] = ("time", np.asarray(src.ls_deg, dtype=float), attrs("solar_longitude"))

@@ -15,7 +15,7 @@ import numpy as np
 from . import output
 from .clock import make_clock
 from .config import Scenario, load_scenario
-from .errors import ConfigError
+from .errors import ConfigError, ValidityError
 from .phase import PhaseModel
 from .stats import Accumulator
 from .timescales import jd_tt_to_utc
@@ -213,9 +213,12 @@ def forcing_source(sc, progress=False):
         src.info.update(_file_record(path), forcing_programme_text=path.read_text())
         return src
     clock, planet = _clock(sc)
-    start = np.datetime_as_string(jd_tt_to_utc(clock.jd_tt[0])[0], unit="ms")
     src = _forcing_from_clock(sc, clock, planet, kind, progress)
-    src.info["start_utc"] = start.replace("T", " ")
+    try:
+        start = np.datetime_as_string(jd_tt_to_utc(clock.jd_tt[0])[0], unit="ms")
+        src.info["start_utc"] = start.replace("T", " ")
+    except ValidityError:
+        pass  # before 1972 (no UTC leap-second table): times stay seconds since the start
     if kind == "file":
         src.info.update(_file_record(sc.resolve(sc["forcing"]["path"])))
     return src

@@ -11,7 +11,8 @@ kernel).  Definitions:
 * wet events per year: transitions from no liquid to liquid;
 * habitable hours per year: liquid time in steps whose brine water activity
   and temperature (at the end of the step; in a step where the brine ended,
-  its water activity at the previous sample) both reach the thresholds.  Defaults
+  its water activity and temperature at the previous sample) both reach the
+  thresholds; the same values enter the liquid's temperature and a_w ranges.  Defaults
   (:data:`HABITABILITY_DEFAULTS`) follow the planetary-protection literature:
   water activity 0.5 and 245.15 K (-28 °C), the limits *with margin* of
   Rummel et al. (2014), Astrobiology 14, 887 (values from memory).  They are
@@ -22,10 +23,10 @@ kernel).  Definitions:
 * temperature and water-activity range of the liquid;
 * model-limit counts from the kernel's validity flag (see
   :func:`wetcycle.phase.kernel.step_block`): steps whose temperature lay
-  outside the salt's validity range (flags 1 and 3), those of them with
-  liquid brine present (the ones that can bias liquid statistics), steps in
-  which a brine was crystallised at the molality limit (flag 2) and freezes
-  forced by the lower validity limit (flag 3).
+  outside the validity range (bit 1), those of them with liquid brine present
+  (the ones that can bias liquid statistics), steps in which a brine was
+  crystallised at the molality limit (bit 2) and freezes forced by the lower
+  validity limit (bit 4).
 """
 
 from __future__ import annotations
@@ -51,7 +52,7 @@ def _liquid(st):
 @njit(cache=True, nogil=True)
 def accumulate(liq, phase, aw, T, ls, ltst, clamped, dt, aw_thr, T_thr, n_ls_bins,
                liquid_s, habitable_s, events, spell_cur, spell_max, by_ls, by_hour,
-               T_lo, T_hi, aw_lo, aw_hi, n_flags, wet_prev, aw_last):
+               T_lo, T_hi, aw_lo, aw_hi, n_flags, wet_prev, aw_last, T_last):
     """Add one block ([step, cell] arrays; ``ls`` [step]; ``dt`` [step] s) to the accumulators."""
     nstep, ncell = liq.shape
     ls_width = 360.0 / n_ls_bins
@@ -63,14 +64,14 @@ def accumulate(liq, phase, aw, T, ls, ltst, clamped, dt, aw_thr, T_thr, n_ls_bin
             f = liq[k, c]
             d = f * dt[k]
             wet_end = _liquid(phase[k, c])
-            fl = clamped[k, c]
-            if fl == 1 or fl == 3:
+            fl = clamped[k, c]  # bits: 1 clamped, 2 molality limit, 4 lower-limit freeze
+            if fl & 1:
                 n_flags[0, c] += 1
                 if f > 0.0:
                     n_flags[1, c] += 1
-            if fl == 2:
+            if fl & 2:
                 n_flags[2, c] += 1
-            elif fl == 3:
+            if fl & 4:
                 n_flags[3, c] += 1
             if f > 0.0:
                 if wet_prev[c] == 0:
@@ -83,10 +84,12 @@ def accumulate(liq, phase, aw, T, ls, ltst, clamped, dt, aw_thr, T_thr, n_ls_bin
                 by_hour[h, c] += d
                 spell_cur[c] += d
                 a = aw[k, c]
-                if a != a:
-                    # the brine ended inside the step: its water activity is the last one seen
-                    a = aw_last[c]
                 t = T[k, c]
+                if a != a:
+                    # the brine ended inside the step: judge it by its last state seen (the
+                    # previous sample's water activity and temperature), not the dry end
+                    a = aw_last[c]
+                    t = T_last[c]
                 if a == a:
                     if a >= aw_thr and t >= T_thr:
                         habitable_s[c] += d
@@ -95,6 +98,7 @@ def accumulate(liq, phase, aw, T, ls, ltst, clamped, dt, aw_thr, T_thr, n_ls_bin
                     T_lo[c] = min(T_lo[c], t)
                     T_hi[c] = max(T_hi[c], t)
             aw_last[c] = aw[k, c] if wet_end else math.nan
+            T_last[c] = T[k, c]
             if not wet_end:
                 if spell_cur[c] > spell_max[c]:
                     spell_max[c] = spell_cur[c]
@@ -120,6 +124,7 @@ class Accumulator:
     n_flags: np.ndarray  # [4, cell]: clamped, clamped with liquid, molality-limit, lower-limit freezes
     wet_prev: np.ndarray
     aw_last: np.ndarray  # brine water activity at the end of the previous step (NaN: no brine)
+    T_last: np.ndarray   # temperature at the end of the previous step [K]
     aw_thr: float
     T_thr: float
 
@@ -129,7 +134,8 @@ class Accumulator:
         return cls(z(), z(), np.zeros(n_cells, np.int64), z(), z(), np.zeros((n_ls_bins, n_cells)),
                    np.zeros((N_HOUR_BINS, n_cells)), np.full(n_cells, np.inf), np.full(n_cells, -np.inf),
                    np.full(n_cells, np.inf), np.full(n_cells, -np.inf), np.zeros((4, n_cells), np.int64),
-                   np.zeros(n_cells, np.int64), np.full(n_cells, np.nan), float(min_water_activity),
+                   np.zeros(n_cells, np.int64), np.full(n_cells, np.nan), np.full(n_cells, np.nan),
+                   float(min_water_activity),
                    float(min_temperature_K))
 
     def add(self, liquid_fraction, phase, water_activity, temperature_K, ls_deg, ltst_h, clamped, dt_s):
@@ -142,7 +148,7 @@ class Accumulator:
                    np.ascontiguousarray(clamped), dt, self.aw_thr, self.T_thr, self.by_ls.shape[0],
                    self.liquid_s, self.habitable_s, self.events, self.spell_cur, self.spell_max,
                    self.by_ls, self.by_hour, self.T_lo, self.T_hi, self.aw_lo, self.aw_hi,
-                   self.n_flags, self.wet_prev, self.aw_last)
+                   self.n_flags, self.wet_prev, self.aw_last, self.T_last)
 
     def finish(self, years):
         """Statistics per year as a dict of arrays (hours; NaN ranges where never liquid)."""

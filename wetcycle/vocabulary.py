@@ -33,7 +33,7 @@ VARIABLES = {
     "ice_water": ("kg m-2", "water held as ice formed from the salt's brine per unit area", None),
     "liquid_fraction": ("1", "fraction of the step with liquid brine present", None),
     "water_exchanged": ("kg m-2", "water taken up from vapour or frost during the step (negative: lost)", None),
-    "validity_flag": ("1", "model validity flag of the step", None),
+    "validity_flag": ("1", "model validity flags of the step (sum of bits; 0: none)", None),
     # statistics
     "liquid_hours_per_year": ("hour", "hours per year with liquid brine", None),
     "longest_liquid_spell_hours": ("hour", "longest continuous spell with liquid brine", None),
@@ -56,8 +56,9 @@ VARIABLES = {
 #: Extra attributes for categorical variables (CF flags).
 FLAGS = {
     "phase_state": dict(flag_values=list(FLAG_VALUES), flag_meanings=FLAG_MEANINGS),
-    "validity_flag": dict(flag_values=[0, 1, 2, 3],
-                          flag_meanings="ok temperature_outside_salt_validity molality_limit_crystallised "
+    # a bit field (CF-1.8 sec. 3.5, flag_masks): 0 is "ok", several bits can be set in one step
+    "validity_flag": dict(flag_masks=[1, 2, 4],
+                          flag_meanings="temperature_outside_validity molality_limit_crystallised "
                                         "frozen_at_lower_validity_limit"),
 }
 

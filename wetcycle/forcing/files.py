@@ -26,14 +26,14 @@ Relative times count from the clock start (``time_sol`` in sols of the
 clock's planet).  Absolute times are placed with the clock's ``jd_tt``.
 
 NetCDF ``calendar`` (CF conventions, sec. 4.4.1): ``standard``,
-``gregorian`` and ``proleptic_gregorian`` are decoded as real dates.  Model
-calendars (``noleap``/``365_day``, ``all_leap``/``366_day``, ``360_day``)
-are read as elapsed time: the reference date of ``<unit> since <date>`` is
-taken as a (proleptic Gregorian) UTC date and the offsets as elapsed
-seconds, so the series stays continuous in time; the file's date labels
-drift from real dates by the calendar's missing or extra days, which is the
-model's own convention, not an error.  Other calendars (``julian``, ``none``)
-are refused.
+``gregorian`` and ``proleptic_gregorian`` are decoded as real dates.  In
+the model calendars ``noleap``/``365_day`` and ``all_leap``/``366_day``
+each time is decoded in its own calendar (cftime) and its date label read
+as the same real date, as climate-model output is meant; a label the real
+calendar lacks (29 February of a common year) is refused, and a leap day
+missing from a ``noleap`` series is a one-day gap (see Gaps).  ``360_day``
+(30 February exists) and other calendars (``julian``, ``none``) are refused:
+convert such a series to a real calendar first.
 Relative humidity is with respect to liquid water.  Lines of a CSV file that
 begin with ``#`` are comments.
 
@@ -55,7 +55,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..errors import ConfigError, InputDataError
+from ..errors import ConfigError, InputDataError, ValidityError
 from ..timescales import utc_to_jd_tt
 from .prescribed import RANGES, ForcingSeries
 
@@ -90,10 +90,6 @@ NETCDF_UNITS = {
 _MISSING = {"", "nan", "na", "n/a"}
 _REAL_CALENDARS = ("standard", "gregorian", "proleptic_gregorian")
 _MODEL_CALENDARS = ("noleap", "365_day", "all_leap", "366_day", "360_day")
-_SINCE_UNITS = {"s": 1.0, "sec": 1.0, "secs": 1.0, "second": 1.0, "seconds": 1.0,
-                "min": 60.0, "mins": 60.0, "minute": 60.0, "minutes": 60.0,
-                "h": 3600.0, "hr": 3600.0, "hrs": 3600.0, "hour": 3600.0, "hours": 3600.0,
-                "d": 86400.0, "day": 86400.0, "days": 86400.0}
 _GAP_POLICIES = ("refuse", "interpolate")
 
 
@@ -117,22 +113,37 @@ def _relative_seconds(kind, values, clock):
     return np.asarray(values, dtype=float)
 
 
-def _model_calendar_seconds(src, tname, tunits, values, clock):
-    """'<unit> since <date>' in a model calendar -> seconds since the clock start (elapsed time)."""
-    unit, _, ref = tunits.partition(" since ")
-    factor = _SINCE_UNITS.get(unit.strip().lower())
-    if factor is None:
-        raise InputDataError(f"{src}: variable {tname!r}: time unit {unit.strip()!r} not allowed; allowed: "
-                             "seconds, minutes, hours, days")
+def _model_calendar_seconds(src, tname, tunits, values, calendar, clock):
+    """'<unit> since <date>' in a model calendar -> seconds since the clock start.
+
+    Each time is decoded in its own calendar (cftime) and its date label read as the same
+    label in the real calendar, as climate-model output is meant (a "noleap" 1 July is 1 July).
+    A label the real calendar lacks (29 February of a common year in ``all_leap``; any
+    ``360_day`` series, whose 30 February has no counterpart) is refused.
+    """
+    import cftime
+
+    if calendar == "360_day":
+        raise InputDataError(f"{src}: variable {tname!r}: calendar '360_day' has dates with no real counterpart "
+                             "(e.g. 30 February); allowed: convert the series to a real calendar first "
+                             "(e.g. xarray's convert_calendar)")
     try:
-        t0 = pd.Timestamp(ref.strip())
-    except (ValueError, TypeError):
-        raise InputDataError(f"{src}: variable {tname!r}: reference date {ref.strip()!r} could not be read "
-                             "as a date") from None
-    if t0.tzinfo is not None:
-        t0 = t0.tz_convert("UTC").tz_localize(None)
-    t0_rel = _relative_seconds("utc", np.array([t0.to_datetime64()], dtype="datetime64[ns]"), clock)[0]
-    return t0_rel + values * factor
+        dates = cftime.num2date(values, tunits, calendar=calendar, only_use_cftime_datetimes=True)
+    except (ValueError, TypeError, OverflowError) as exc:
+        raise InputDataError(f"{src}: variable {tname!r}: units {tunits!r} could not be decoded in calendar "
+                             f"{calendar!r} ({exc})") from None
+    labels = np.empty(values.size, dtype="datetime64[us]")
+    for k, d in enumerate(np.ravel(dates)):
+        try:
+            labels[k] = np.datetime64(f"{d.year:04d}-{d.month:02d}-{d.day:02d}T{d.hour:02d}:{d.minute:02d}:"
+                                      f"{d.second:02d}.{d.microsecond:06d}")
+        except ValueError:
+            raise InputDataError(f"{src}: variable {tname!r}, index {k}: date {d} (calendar {calendar!r}) does "
+                                 "not exist in the real calendar") from None
+    try:
+        return _relative_seconds("utc", labels.astype("datetime64[ns]"), clock)
+    except ValidityError as exc:
+        raise InputDataError(f"{src}: variable {tname!r}: {exc}") from None
 
 
 def _assemble(src, t_file, cols, clock, gap_policy, max_gap_s, label):
@@ -370,7 +381,8 @@ def read_netcdf_forcing(path, clock, variables, *, gap_policy="refuse", max_gap_
                                      f"{dict(da.sizes)}; allowed: the time variable's {dict(tda.sizes)}")
         calendar = str(tda.attrs.get("calendar", "standard")).strip().lower()
         if " since " in tunits and calendar in _MODEL_CALENDARS:
-            t_file = _model_calendar_seconds(src, tname, tunits, np.asarray(tda.values, dtype=float), clock)
+            t_file = _model_calendar_seconds(src, tname, tunits, np.asarray(tda.values, dtype=float), calendar,
+                                             clock)
         elif " since " in tunits and calendar in _REAL_CALENDARS:
             try:
                 dec = xr.decode_cf(xr.Dataset({"_t": ("_n", tda.values, dict(tda.attrs))}))["_t"].values

@@ -29,7 +29,7 @@ Physics (phase boundaries from the Pitzer model via the tables)
   liquid above the eutectic survives cooling below it as supercooled brine
   down to the supercooling limit or the salt's lower validity limit T_min,
   whichever is warmer, then freezes to ice + hydrate (a freeze forced by T_min
-  is flagged 3: the liquid hours below it are not counted, a conservative
+  is flagged (bit 4): the liquid hours below it are not counted, a conservative
   choice); a frozen parcel melts at
   the eutectic; a crystalline salt touching water frost at T >= T_eut
   dissolves into it up to the liquidus (contact melting, not vapour-limited).
@@ -72,12 +72,13 @@ interpolation between the two samples, so liquid hours converge as the step
 shrinks.
 
 Limits (flagged in the output, never silent): temperatures outside the salt's
-validity range are clamped for the salt's table look-ups (flag 1; properties of
-water itself -- ice activity, vapour pressure, diffusivity -- always use the
-true temperature); a supersaturated brine that would pass the model's molality
-limit m_max before reaching its efflorescence RH crystallises there (flag 2); a
-supercooled brine reaching T_min above its supercooling limit freezes there
-(flag 3).
+validity range are clamped for the salt's table look-ups (bit 1; properties of
+water itself -- ice activity, vapour pressure, diffusivity -- use the true
+temperature, clamped only outside Murphy & Koop's 123-332 K, also bit 1); a
+supersaturated brine that would pass the model's molality limit m_max before
+reaching its efflorescence RH crystallises there (bit 2); a supercooled brine
+reaching T_min above its supercooling limit freezes there (bit 4).  The flag is
+the sum of the bits set in the step.
 
 Water is conserved to rounding: w_hyd + w_brine + w_ice changes exactly by
 the water exchanged with the surroundings (vapour or frost), which is
@@ -109,6 +110,13 @@ M_DILUTE = 0.1
 
 # indices into the scalar vector of PhaseTables.scalars
 S_TEUT, S_EUTSOLID, S_TSUPER, S_ERH, S_TMIN, S_TMAX, S_MMAX = 0, 1, 2, 3, 4, 5, 6
+
+#: Bits of the validity flag (CF flag_masks): several can be set in one step.
+FLAG_CLAMPED = 1        # T outside the salt's (or water's) validity range: tables read at the nearest valid T
+FLAG_MOLALITY_LIMIT = 2  # a crystal-free brine crystallised at the model's molality limit m_max
+FLAG_LOWER_LIMIT = 4     # a supercooled brine froze at T_min, above its published supercooling limit
+#: Range of Murphy & Koop (2005) for liquid water [K]; water properties are clamped to it.
+T_WATER_MIN, T_WATER_MAX = 123.0, 332.0
 
 
 @njit(cache=True, inline="always", error_model="numpy")
@@ -226,11 +234,12 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
         in the current frost episode [kg m-2]; ``started`` [cell] 1 once prev is valid.
     out_* : [step, cell] outputs: state, liquid fraction of the step, brine a_w (NaN without
         brine), brine/hydrate/ice water [kg m-2], water gained from the surroundings in the step
-        [kg m-2], and a validity flag: 0 ok; 1 T lay outside the salt's validity range and was
-        clamped for the table look-ups; 2 a crystal-free brine was driven beyond the model's
-        molality limit m_max before reaching its efflorescence RH and was crystallised there; 3 a
-        supercooled brine froze at the salt's lower validity limit T_min although its supercooling
-        limit lies lower (the model cannot follow a brine below T_min).
+        [kg m-2], and a validity flag, a sum of bits (CF flag_masks): 0 ok; 1 T lay outside the
+        salt's validity range (salt tables read at the nearest valid T) or outside 123-332 K
+        (water properties likewise); 2 a crystal-free brine was driven beyond the model's molality
+        limit m_max before reaching its efflorescence RH and was crystallised there; 4 a supercooled
+        brine froze at the salt's lower validity limit T_min although its supercooling limit lies
+        lower (the model cannot follow a brine below T_min).
     """
     nstep, ncell = T.shape
     nT = lnk.shape[1]
@@ -256,8 +265,13 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             flag = 0
             Tb = Tb_raw
             if Tb < T_min or Tb > T_max:
-                flag = 1
+                flag = FLAG_CLAMPED
                 Tb = min(max(Tb, T_min), T_max)
+            # water's own properties at the true temperature, within Murphy & Koop's range
+            Tw = Tb_raw
+            if Tw < T_WATER_MIN or Tw > T_WATER_MAX:
+                flag = FLAG_CLAMPED
+                Tw = min(max(Tw, T_WATER_MIN), T_WATER_MAX)
             Ta = min(max(Ta_raw, T_min), T_max)
             ib, fb = _loc(Tb, T0, dT, nT)
             ia, fa = _loc(Ta, T0, dT, nT)
@@ -274,10 +288,10 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             # activity is evaluated only where the step can use it.
             if Tb_raw > T_MELT:
                 aw_i = 2.0
-            elif flag == 0:
+            elif Tb == Tb_raw:
                 aw_i = _lin(awice, ib, fb)
             elif s0 != CRYSTALLINE or Fb > 0.0 or not (RHb < d_cur):
-                aw_i = ice_activity_kernel(Tb_raw)
+                aw_i = ice_activity_kernel(Tw)
             else:
                 aw_i = 2.0  # not used: a dry salt below its DRH, no frost
             # air at ice saturation (within ICE_SAT_TOL, or frost present) counts as saturated:
@@ -286,11 +300,11 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             psat = 0.0
             kx = 0.0
             if not instant and (s0 != CRYSTALLINE or not (RHb < d_cur)):
-                psat = psat_liquid_kernel(Tb_raw)
-                D = dfactor * D_REF * (Tb_raw / 273.15) * math.sqrt(Tb_raw / 273.15) * (1e5 / max(P[k, c], 1.0))
-                kx = D * MW / (R_GAS * Tb_raw * layer_m)  # kg m-2 s-1 Pa-1
+                psat = psat_liquid_kernel(Tw)
+                D = dfactor * D_REF * (Tw / 273.15) * math.sqrt(Tw / 273.15) * (1e5 / max(P[k, c], 1.0))
+                kx = D * MW / (R_GAS * Tw * layer_m)  # kg m-2 s-1 Pa-1
             liq = 0.0
-            W_flux = 0.0  # vapour-limited drying with crystals: water the flux alone would leave
+            W_flux = -1.0  # vapour-limited drying with crystals: water the flux alone would leave (-1: unset)
             eq_brine = False  # brine water set from a_w = RH this step (equilibrium law)
             lnrh = math.log(RHb) if nsolid > 1 else 0.0
             if s0 == CRYSTALLINE:
@@ -359,8 +373,8 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
             else:
                 # liquid states
                 if Tb_raw < T_sup or Tb_raw < T_min:
-                    if Tb_raw >= T_sup:
-                        flag = 3  # frozen at the model's lower validity limit, above the supercooling limit
+                    if T_min > T_sup:
+                        flag |= FLAG_LOWER_LIMIT  # frozen at T_min: the supercooling limit lies lower
                     ks = _stable(stable, ib, fb)
                     if ks < 0:
                         ks = kk
@@ -403,7 +417,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                             else:
                                 W = 0.0  # the air is drier than the model's most concentrated brine
                                 if not had_crystals:
-                                    flag = 2
+                                    flag |= FLAG_MOLALITY_LIMIT
                             if had_crystals and ms_b == ms_b and m_eq == m_eq and m_eq > ms_b:
                                 W = 0.0  # crystals present: brine dries out below the DRH
                             elif (not had_crystals) and ms_b == ms_b and m_eq == m_eq and m_eq > ms_b:
@@ -448,7 +462,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                                 # reached the model's molality limit before the efflorescence RH:
                                 # crystallise to the dry hydrate (its water stays in the solid)
                                 W = n * hyd[ks_b] * MW if ks_b >= 0 else 0.0
-                                flag = 2
+                                flag |= FLAG_MOLALITY_LIMIT
                         W = max(W, 0.0)
                     allow = (not had_crystals) and (erh == erh) and W > 0.0  # _partition checks a_w >= ERH
                     s1, kk, wh, wb, wi, nd = _partition(n, W, Tb, ib, fb, msat, stable, mice, hyd, kk,
@@ -479,7 +493,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                                 d_a = _lin(drh[kk], ia, fa)
                                 d_b = _lin(drh[kk], ib, fb)
                                 liq = _frac(RHa - d_a, RHb - d_b)
-                            elif flag == 2:
+                            elif flag & FLAG_MOLALITY_LIMIT:
                                 # crystallised at the model's molality limit: crossing of a_w(m_max, T)
                                 lim_a = math.exp(pz.ln_aw_kernel(m_max, Ta, p))
                                 lim_b = math.exp(pz.ln_aw_kernel(m_max, Tb, p))
@@ -495,7 +509,7 @@ def step_block(T, RH, P, frost, dt, n_salt, instant, layer_m, dfactor,
                                 liq = _frac(RHa - d_a, RHb - d_b)
                         else:
                             # the brine lasted while the flux removed the water above the dry hydrate
-                            dW = W0 - W_flux
+                            dW = W0 - (W_flux if W_flux >= 0.0 else W)
                             liq = min(wb_prev_frac(W0, wh, dW), 1.0)
                     else:
                         liq = 1.0
