@@ -2,7 +2,7 @@
 
 The result used here is synthetic: invented forcing at two invented sites, stepped
 through the real phase kernel with ``wetcycle.run_series``, arranged in the layout
-of notes/OUTPUT_SPEC.md; the Ls of each step is invented too (a figure test needs
+of a site result (output.build_dataset); the Ls of each step is invented too (a figure test needs
 variety, not a real season).  Physical values asserted on the diagram are the
 system's own derived values (eutectic: derived, see test_salt_references.py;
 ice line: Murphy & Koop 2005, see test_water.py) -- what is checked is that the
@@ -27,7 +27,7 @@ PNG_MIN_BYTES = 20_000   # a multi-panel 150-dpi PNG; an empty or failed canvas 
 
 
 def make_result(n_sols=5, dry_first_sol=True):
-    """A small result dataset (OUTPUT_SPEC layout) from invented forcing."""
+    """A small site result dataset (the layout of output.build_dataset) from invented forcing."""
     t = np.arange(n_sols * STEPS) * (SOL / STEPS)
     frac = (t / SOL) % 1.0
     sol = np.floor(t / SOL).astype(int)
@@ -270,3 +270,13 @@ def test_diagram_errors(result, tmp_path):
     with pytest.raises(ConfigError, match="site"):
         plots.plot_diagram("NaCl", tmp_path / "x.png", trajectory=result, site="Gamma")
     assert not (tmp_path / "x.png").exists()
+
+
+def test_time_decoded_to_dates_gives_the_same_sol_positions(result):
+    # xarray's default CF decoding (CF-1.8 sec. 4.4) turns "seconds since <date>" into dates; the
+    # figures must place the steps at the same sol positions either way.
+    dated = result.assign_coords(time=np.datetime64("2031-01-01T00:00:00", "ns")
+                                 + (result.time.values * 1e9).astype("timedelta64[ns]"))
+    (x_dated, sol_dated), (x_s, sol_s) = plots._sol_position(dated), plots._sol_position(result)
+    np.testing.assert_allclose(x_dated, x_s, atol=1e-9)
+    assert sol_dated == pytest.approx(sol_s, rel=1e-12)

@@ -169,7 +169,10 @@ def _salt_names(ds, salts):
 
 def _sol_position(ds):
     """Position of every step in sols since the run start: sol number + fraction of the sol."""
-    t = np.asarray(ds["time"].values, dtype=float)
+    t = np.asarray(ds["time"].values)
+    if t.dtype.kind == "M":  # a result opened with xarray's default time decoding: back to seconds
+        t = (t - t[0]) / np.timedelta64(1, "s")
+    t = t.astype(float)
     sol_s = MARS_SOL_S
     n = ds.attrs.get("steps_per_sol")
     if n and t.size > 1:
