@@ -200,6 +200,107 @@ def cmd_diagram(args):
     return 0
 
 
+def _brine_paths(args, kind):
+    from pathlib import Path
+
+    from .output import check_output_path
+    src = Path(args.file)
+    data = check_output_path(args.output or src.with_name(f"{src.stem}_{kind}.nc"), "--output" if args.output else "output")
+    fig = Path(args.figure) if args.figure else data.with_suffix(".png")
+    from .brines.figure import _FORMATS
+    from .errors import ConfigError
+    if fig.suffix.lower().lstrip(".") not in _FORMATS:
+        raise ConfigError(f"--figure: {str(fig)!r} has suffix {fig.suffix!r}; allowed: "
+                          f"{', '.join('.' + f for f in _FORMATS)}")
+    check_output_path(fig, "--figure")
+    return data, fig
+
+
+def _brine_settings(args, recipe, kind):
+    opts = dict(recipe[kind])
+    if args.mode:
+        opts["mode"] = args.mode
+    if args.exclude:
+        opts["exclude"] = tuple(opts.get("exclude", ())) + tuple(args.exclude)
+    if args.extrapolate_binaries:
+        opts["extrapolate_binaries"] = True
+    if args.mixing:
+        opts["mixing"] = args.mixing
+    return opts
+
+
+def _brine_report(ds, kind):
+    if kind == "freeze":
+        head = ("solid", "mineral", "first at [K]", "[°C]", "exhausted", "enriched", "branch after the divide")
+        rows = [(str(ds.event_solid.values[k]), str(ds.mineral.sel(solid=ds.event_solid.values[k]).values),
+                 f"{float(ds.event_at[k]):.2f}", f"{float(ds.event_at[k]) - 273.15:.2f}",
+                 ds.event_exhausted_ion.values[k] or "—", ds.event_enriched_ion.values[k] or "—",
+                 ds.event_branch.values[k] or "—") for k in range(ds.sizes["event"])]
+    else:
+        head = ("solid", "mineral", "concentration factor", "water removed", "exhausted", "enriched",
+                "branch after the divide")
+        rows = [(str(ds.event_solid.values[k]), str(ds.mineral.sel(solid=ds.event_solid.values[k]).values),
+                 f"{1.0 / (1.0 - float(ds.event_at[k])):.3g}", f"{float(ds.event_at[k]):.4f}",
+                 ds.event_exhausted_ion.values[k] or "—", ds.event_enriched_ion.values[k] or "—",
+                 ds.event_branch.values[k] or "—") for k in range(ds.sizes["event"])]
+    rows = [tuple(c if c else "—" for c in r) for r in rows]
+    print("Mineral sequence (first appearance; chemical divide after Hardie & Eugster 1970):")
+    _print_table(head, rows)
+    a = ds.attrs
+    if kind == "freeze":
+        if a["eutectic_temperature_K"] == a["eutectic_temperature_K"]:
+            print(f"eutectic: {a['eutectic_temperature_K']:.2f} K ({a['eutectic_temperature_K'] - 273.15:.2f} °C), "
+                  f"solids: {a['eutectic_solids']}")
+        else:
+            print("eutectic: not reached")
+    else:
+        if a["dry_water_removed"] == a["dry_water_removed"]:
+            print(f"dry at water removed {a['dry_water_removed']:.5f} (concentration factor "
+                  f"{1.0 / (1.0 - a['dry_water_removed']):.4g}); last brine water activity "
+                  f"{a['dry_water_activity']:.3f}; solids: {a['dry_solids']}")
+        else:
+            print("the brine did not dry within the path")
+    print(f"path ended: {a['stopped_by']}")
+    if a.get("binaries_extrapolated"):
+        print(f"binaries extrapolated below their validity (flagged steps): {a['binaries_extrapolated']}")
+    if a.get("solids_not_considered"):
+        print(f"solids left out for want of ln K data at these temperatures: {a['solids_not_considered']}")
+    if a.get("charge_imbalance_removed"):
+        print(f"charge imbalance {100 * a['charge_imbalance_removed']:+.2f} % removed by scaling cations and anions")
+
+
+def cmd_brine(args):
+    from . import brines
+    from .brines import recipe
+    from .brines.figure import path_figure, save_figure
+    from .output import write_result
+
+    r = recipe.read(args.file)
+    kind = args.brine_command
+    data, fig = _brine_paths(args, kind)
+    opts = _brine_settings(args, r, kind)
+    if kind == "freeze":
+        ds = brines.freeze(r["composition"], **opts)
+    else:
+        if "temperature_K" not in opts and args.temperature is None:
+            from .errors import ConfigError
+            raise ConfigError(f"evaporate.temperature_K: missing in {args.file}; allowed: a temperature [K] "
+                              "(or --temperature)")
+        if args.temperature is not None:
+            opts["temperature_K"] = args.temperature
+        ds = brines.evaporate(r["composition"], **opts)
+    ds.attrs["title_name"] = r["name"]
+    ds.attrs["composition_file"] = r["source"]
+    print(f"{r['name']}: {kind} path, {ds.attrs['composition']}")
+    _brine_report(ds, kind)
+    write_result(ds, data)
+    save_figure(path_figure(ds), fig)
+    print(f"dataset written to {data}")
+    print(f"figure written to {fig}")
+    print("Caution: " + CAUTION)
+    return 0
+
+
 def build_parser():
     p = _Parser(prog="wetcycle", description="Salts and brines at the surface of present-day Mars "
                 "and cold, dry analog sites.", epilog=CAUTION)
@@ -271,6 +372,28 @@ def build_parser():
     pg.add_argument("--trajectory", help="result file whose series to draw on the diagram")
     pg.add_argument("-o", "--output", required=True, help="figure path")
     pg.set_defaults(func=cmd_diagram)
+
+    pb = sub.add_parser("brine", help="freezing and evaporation paths of a mixed brine",
+                        description="Mixed-salt brines: equilibrium (or fractional) freezing and evaporation "
+                        "paths of a composition file (TOML: a [composition] table of ion = mol/kg water).")
+    bsub = pb.add_subparsers(dest="brine_command", required=True, parser_class=_Parser)
+    for kind, text in (("freeze", "cool at fixed water down to the mixture's eutectic"),
+                       ("evaporate", "remove water at fixed temperature until the brine dries")):
+        q = bsub.add_parser(kind, help=text, description=f"{text[0].upper()}{text[1:]}; print the mineral sequence "
+                            "with its chemical divides and write the dataset (NetCDF) and a figure.")
+        q.add_argument("file", help="composition file (TOML), e.g. examples/brines/pond.toml")
+        q.add_argument("-o", "--output", help="NetCDF path (default: FILE's stem + _%s.nc beside it)" % kind)
+        q.add_argument("--figure", help="figure path, .png/.pdf/.svg (default: the dataset path with .png)")
+        q.add_argument("--mode", choices=("equilibrium", "fractional"), help="override the file's mode")
+        q.add_argument("--exclude", action="append", metavar="SOLID",
+                       help="leave a solid out (metastable path); repeatable")
+        q.add_argument("--extrapolate-binaries", action="store_true",
+                       help="continue below binary systems' validity with flagged steps (default: stop there)")
+        q.add_argument("--mixing", choices=("fitted", "start", "none"),
+                       help="mixing parameters: fitted (default), recalled 25 °C start values, or none (baseline)")
+        if kind == "evaporate":
+            q.add_argument("--temperature", type=float, metavar="T_K", help="temperature [K] (overrides the file)")
+        q.set_defaults(func=cmd_brine)
     return p
 
 

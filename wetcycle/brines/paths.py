@@ -133,13 +133,16 @@ def _divide(chem, solid, m):
     return ex, en, f"{en}-rich, {ex}-poor"
 
 
-def _events(chem, rows, coord, states):
-    """First appearance of each solid along a path, with its divide."""
+def _events(chem, coord, states, final_at=math.nan):
+    """First appearance of each solid along a path, with its divide.
+
+    A solid first met in the liquid-free state at the end of a path (the last one to join at the
+    eutectic or at drying) is dated ``final_at`` (the eutectic temperature or drying point).
+    """
     seen = set()
     ev = []
     for k, r in enumerate(states):
-        if r is None:
-            continue
+        at = float(coord[k]) if (r.liquid or math.isnan(final_at)) else float(final_at)
         for name, x in zip(r.solids, r.solid_moles):
             if x > 0 and name not in seen:
                 seen.add(name)
@@ -147,7 +150,7 @@ def _events(chem, rows, coord, states):
                 m = prev.molality if (prev is not None and prev.liquid) else r.molality
                 s = chem.solid(name)
                 ex, en, br = _divide(chem, s, m) if np.all(np.isfinite(m)) else ("", "", "")
-                ev.append(dict(solid=name, mineral=s.mineral, at=float(coord[k]), exhausted=ex, enriched=en, branch=br))
+                ev.append(dict(solid=name, mineral=s.mineral, at=at, exhausted=ex, enriched=en, branch=br))
     return ev
 
 
@@ -299,7 +302,7 @@ def freeze(composition, *, temperature_start_K=None, temperature_end_K=None, ste
     if not states:
         raise ValidityError(f"temperature_start_K: {t0:g} K is outside the validity of the binaries this "
                             f"composition needs ({stopped_by})")
-    events = _events(chem, None, temps, states)
+    events = _events(chem, temps, states, eut_T)
     not_considered = sorted({n for r in states for n in r.not_considered})
     attrs = dict(
         path="freezing", mode=mode, composition=_comp_text(vals), charge_imbalance_removed=float(imbalance),
@@ -415,7 +418,7 @@ def evaporate(composition, *, temperature_K, step=0.05, concentration_factor_end
             stopped_by = f"equilibrium not found at water removed {f:.6g}: {r.message}"
             break
         k += 1
-    events = _events(chem, None, fr, states)
+    events = _events(chem, fr, states, dry["f"])
     not_considered = sorted({n for r in states for n in r.not_considered})
     fr_arr = np.asarray(fr, dtype=float)
     attrs = dict(
