@@ -322,7 +322,6 @@ def _order(ions):
     return tuple(cats), tuple(ans)
 
 
-@lru_cache(maxsize=64)
 def load(ions=tuple(IONS), mixing="fitted"):
     """The :class:`Chemistry` of a set of ions (names without charge, e.g. ``("Na", "Cl", "SO4")``).
 
@@ -333,8 +332,20 @@ def load(ions=tuple(IONS), mixing="fitted"):
     mixing : {"fitted", "start", "none"}
         Which theta/psi to use (see :class:`Chemistry`).
     """
+    if isinstance(mixing, dict):
+        return _build(tuple(ions), "custom", mixing)
     if mixing not in ("fitted", "start", "none"):
         raise UnknownNameError(f"mixing: {mixing!r} is not one of fitted, start, none")
+    return _load(tuple(ions), mixing)
+
+
+@lru_cache(maxsize=64)
+def _load(ions, mixing):
+    return _build(ions, mixing, mixing_file(use_fitted=(mixing != "start")))
+
+
+def _build(ions, mixing, mix):
+    """Assemble a :class:`Chemistry`; ``mix`` is a parsed mixing file (``mixing="custom"``: its ``c`` values)."""
     cats, ans = _order(tuple(ions))
     if not cats or not ans:
         raise ValidityError(f"ions: {list(ions)} need at least one cation and one anion")
@@ -356,20 +367,19 @@ def load(ions=tuple(IONS), mixing="fitted"):
             beta[c, a] = np.asarray(s.coef, dtype=float)
             pairs.append(Pair(ci, ai, s.name, s.alpha1, s.alpha2, np.asarray(s.coef, dtype=float),
                               s.T_min, s.T_max, s.m_max, int(s.nu_cation), int(s.nu_anion)))
-    mix = mixing_file(use_fitted=(mixing == "fitted"))
     thc = np.zeros((nc, nc, 4))
     tha = np.zeros((na, na, 4))
     psc = np.zeros((nc, nc, na, 4))
     psa = np.zeros((na, na, nc, 4))
     if mixing != "none":
         for (i, j), e in mix["theta"].items():
-            c = e["c"] if mixing == "fitted" else e["start"]
+            c = e["start"] if mixing == "start" else e["c"]
             for grp, arr in ((cats, thc), (ans, tha)):
                 if i in grp and j in grp:
                     arr[grp.index(i), grp.index(j)] = c
                     arr[grp.index(j), grp.index(i)] = c
         for (i, j, k), e in mix["psi"].items():
-            c = e["c"] if mixing == "fitted" else e["start"]
+            c = e["start"] if mixing == "start" else e["c"]
             if i in cats and j in cats and k in ans:
                 psc[cats.index(i), cats.index(j), ans.index(k)] = c
                 psc[cats.index(j), cats.index(i), ans.index(k)] = c
@@ -389,7 +399,7 @@ def load(ions=tuple(IONS), mixing="fitted"):
                                            s.T_min, s.T_max, f"binary {s.name}", sol.source, sol.flag))
     for d in mix["solids"]:
         if all(i in present for i, _ in d["stoich"]):
-            lnk = d["lnk"] if mixing == "fitted" else d["start"]
+            lnk = d["start"] if mixing == "start" else d["lnk"]
             solid_list.append(MixSolid(d["name"], d["mineral"], d["stoich"], d["hydration"],
                                        tuple(float(v) for v in lnk), d["T_min"], d["T_max"], "double salt",
                                        d["source"], d["flag"]))

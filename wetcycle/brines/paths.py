@@ -477,7 +477,8 @@ def _solid_ions(chem_all, solids):
     return tot
 
 
-def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapolate_binaries=False, details=False):
+def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapolate_binaries=False, exclude=(),
+                            details=False):
     """RH (fraction, liquid reference) at which a mixture of salts first forms brine at T.
 
     Method: equilibrium is path-independent, so the first brine to form on wetting is the
@@ -490,13 +491,14 @@ def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapola
     ----------
     solids : dict {salt system or solid name: mol}, e.g. {"NaCl": 1, "MgCl2": 1}
     temperature_K : float [K]
+    exclude : solids to leave out (a metastable eutonic), as in :func:`freeze`
     details : bool; return a dict (rh, solids at the eutonic, flags) instead of the RH
 
     Returns
     -------
     float, the mutual deliquescence RH [-]; or a dict if ``details``.
     """
-    chem_all = ch.load(tuple(ch.IONS), mixing)
+    chem_all = ch.load(tuple(ch.IONS), "fitted")
     tot = _solid_ions(chem_all, solids)
     scale = 1.0 / max(tot.values())
     comp = {k: v * scale for k, v in tot.items()}
@@ -509,18 +511,21 @@ def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapola
         raise ValidityError(f"temperature_K: {T:g} K is outside the {desc} (design decision 9; "
                             "extrapolate_binaries=True gives a flagged value)")
     b = _neutral(chem, vals)
-    exclude = (ch.ICE,) if T <= ch.T_ICE_MAX else ()
+    exclude = tuple(exclude) + ((ch.ICE,) if T <= ch.T_ICE_MAX else ())
     # bracket: a dilute brine (I ~ 0.5 mol/kg) that holds everything, and a vanishing amount of water
     W_hi = float(np.dot(b, chem.z ** 2)) / (2 * 0.5) / MW
     r_hi = equilibrate(chem, b, W_hi, T, exclude=exclude)
     if not r_hi.liquid:
         raise ValidityError("solids: no liquid forms even in dilute water; cannot locate the deliquescence point")
+    # a liquid far beyond every binary's ionic strength is outside the model (the Pitzer polynomial can
+    # show spurious minima there): such states count as dry
+    i_cap = 1.5 * max(p.ionic_strength_max for p in chem.pairs)
     lo, hi = math.log(W_hi), math.log(W_hi) - 40.0
     last = r_hi
     for _ in range(80):
         mid = 0.5 * (lo + hi)
         r = equilibrate(chem, b, math.exp(mid), T, exclude=exclude, start=_start(chem, last))
-        if r.liquid and r.converged:
+        if r.liquid and r.converged and r.ionic_strength <= i_cap:
             lo, last = mid, r
         else:
             hi = mid
