@@ -296,6 +296,18 @@ class Chemistry:
                 out.append(p)
         return out
 
+    def pair_excess(self, m):
+        """Largest ratio, over the pairs, of the pair's molality min(m_c/nu_c, m_a/nu_a) to its binary's m_max.
+
+        Above 1 the brine holds a pair more concentrated than its binary was fitted to.
+        """
+        m = np.asarray(m, dtype=float)
+        worst = 0.0
+        for p in self.pairs:
+            pm = min(m[self.index(p.cation)] / p.nu_cation, m[self.index(p.anion)] / p.nu_anion)
+            worst = max(worst, pm / p.m_max)
+        return worst
+
     def lowest_valid_temperature(self, m):
         """(T [K], pair) below which a pair the brine uses leaves its binary's validity."""
         ps = self.pair_limits(m)

@@ -42,7 +42,9 @@ CAUTION = ("Model estimates from a Pitzer model whose low-temperature mixing ter
            "published points; not evidence of liquid water or life. Planetary-protection decisions belong to the "
            "official policy and its review bodies.")
 FLAG_MASKS = (1, 2, 4)
-FLAG_MEANINGS = "binary_extrapolated beyond_binary_ionic_strength not_converged"
+FLAG_MEANINGS = "binary_extrapolated beyond_binary_molality not_converged"
+#: mutual deliquescence: a liquid whose pair molality exceeds this multiple of the binary's m_max is not trusted
+MDRH_PAIR_LIMIT = 1.25
 
 
 def _ion_list():
@@ -113,10 +115,8 @@ class _Checker:
 
 def _flags_for(chem, r, base):
     f = base
-    if r.liquid:
-        used = chem.pair_limits(r.molality)
-        if used and r.ionic_strength > max(p.ionic_strength_max for p in used) * (1 + 1e-9):
-            f |= 2
+    if r.liquid and chem.pair_excess(r.molality) > 1.0 + 1e-9:
+        f |= 2
     if not r.converged:
         f |= 4
     return f
@@ -517,15 +517,14 @@ def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapola
     r_hi = equilibrate(chem, b, W_hi, T, exclude=exclude)
     if not r_hi.liquid:
         raise ValidityError("solids: no liquid forms even in dilute water; cannot locate the deliquescence point")
-    # a liquid far beyond every binary's ionic strength is outside the model (the Pitzer polynomial can
+    # a liquid holding a pair far beyond its binary's m_max is outside the model (the Pitzer polynomial can
     # show spurious minima there): such states count as dry
-    i_cap = 1.5 * max(p.ionic_strength_max for p in chem.pairs)
     lo, hi = math.log(W_hi), math.log(W_hi) - 40.0
     last = r_hi
     for _ in range(80):
         mid = 0.5 * (lo + hi)
         r = equilibrate(chem, b, math.exp(mid), T, exclude=exclude, start=_start(chem, last))
-        if r.liquid and r.converged and r.ionic_strength <= i_cap:
+        if r.liquid and r.converged and chem.pair_excess(r.molality) <= MDRH_PAIR_LIMIT:
             lo, last = mid, r
         else:
             hi = mid
