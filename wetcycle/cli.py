@@ -259,7 +259,8 @@ def _brine_report(ds, kind):
                   f"{1.0 / (1.0 - a['dry_water_removed']):.4g}); last brine water activity "
                   f"{a['dry_water_activity']:.3f}; solids: {a['dry_solids']}")
         else:
-            print("the brine did not dry within the path")
+            print("the brine keeps a saturated liquid to the end of the path (last brine water activity "
+                  f"{a['last_brine_water_activity']:.3f})")
     print(f"path ended: {a['stopped_by']}")
     if a.get("binaries_extrapolated"):
         print(f"binaries extrapolated below their validity (flagged steps): {a['binaries_extrapolated']}")

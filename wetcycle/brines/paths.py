@@ -358,7 +358,9 @@ def evaporate(composition, *, temperature_K, step=0.05, concentration_factor_end
     xarray.Dataset over ``water_removed`` [fraction of the initial water], with coordinate
     ``concentration_factor``, the variables of :func:`freeze`, and attributes
     ``dry_water_removed``, ``dry_solids`` and ``dry_water_activity`` (the water activity of
-    the last liquid: the mutual deliquescence RH of the solids it leaves).
+    the last liquid: the mutual deliquescence RH of the solids it leaves; NaN when the brine
+    keeps a saturated liquid to the last drop, as over anhydrous salts alone, and then
+    ``last_brine_water_activity`` is that RH).
     """
     vals, imbalance = check_composition(composition)
     if mode not in ("equilibrium", "fractional"):
@@ -419,12 +421,15 @@ def evaporate(composition, *, temperature_K, step=0.05, concentration_factor_end
             break
         k += 1
     events = _events(chem, fr, states, dry["f"])
+    liquid_states = [r for r in states if r.liquid]
+    last_aw = math.exp(liquid_states[-1].ln_aw) if liquid_states else math.nan
     not_considered = sorted({n for r in states for n in r.not_considered})
     fr_arr = np.asarray(fr, dtype=float)
     attrs = dict(
         path="evaporation", mode=mode, temperature_K=T, composition=_comp_text(vals),
         charge_imbalance_removed=float(imbalance), dry_water_removed=float(dry["f"]),
-        dry_solids=", ".join(dry["solids"]), dry_water_activity=float(dry["aw"]), stopped_by=stopped_by,
+        dry_solids=", ".join(dry["solids"]), dry_water_activity=float(dry["aw"]),
+        last_brine_water_activity=float(last_aw), stopped_by=stopped_by,
         binaries_extrapolated=", ".join(sorted(chk.extrapolated)), solids_not_considered=", ".join(not_considered),
         excluded_on_request=", ".join(exclude),
     )
