@@ -3,18 +3,22 @@
 Method
 ------
 Isothermal hydrostatic atmosphere: p(z, Ls) = p_ref * exp(-z / H) * f(Ls),
-with p_ref the annual-mean pressure at the reference level z = 0 (the datum),
-H the atmospheric scale height and f(Ls) a periodic table of relative
-pressure (annual mean = 1) that represents the seasonal condensation and
-sublimation of CO2 at the poles.  The exponential law is the textbook
-isothermal barometric formula (e.g. Wallace & Hobbs 2006, Atmospheric
-Science, eq. 3.29); the scale height and datum pressure of Mars are from the
-NASA Mars fact sheet (see :mod:`wetcycle.orbit`).
+with p_ref the mean pressure at the reference level z = 0 (the areoid), H the
+pressure scale height and f(Ls) the relative seasonal cycle (mean over Ls 1)
+of the condensation and sublimation of CO2 at the poles.  The exponential law
+is the textbook isothermal barometric formula (e.g. Wallace & Hobbs 2006,
+Atmospheric Science, eq. 3.29).
+
+Default on Mars (:class:`LanderPressureCycle`): the landers' measured cycles
+carried to the site's elevation and latitude (the empirical form of Withers,
+P. (2012), Space Sci. Rev. 170, 837-860, read as an abstract).  The diurnal
+pressure tide (a few per cent) is not modelled.
 
 References
 ----------
 1. Wallace, J. M. and Hobbs, P. V. (2006), Atmospheric Science: An
    Introductory Survey, 2nd ed., Academic Press, sec. 3.2.
+2. Hess, S. L. et al. (1980), Geophys. Res. Lett. 7, 197-200 (Viking daily-mean pressures).
 """
 
 from __future__ import annotations
@@ -24,7 +28,9 @@ import numpy as np
 from ..errors import ConfigError, ValidityError
 from ..orbit import MARS
 
-__all__ = ["PeriodicTable", "DEMO_CO2_CYCLE", "interp_periodic", "surface_pressure",
+__all__ = ["PeriodicTable", "HarmonicCycle", "VIKING1_PRESSURE_CYCLE", "VIKING1_MEAN_PRESSURE_PA",
+           "VIKING1_ELEVATION_M", "LANDER_SCALE_HEIGHT_M", "LanderPressureCycle",
+           "VIKING2_PRESSURE_CYCLE", "interp_periodic", "surface_pressure",
            "pressure_at_elevation"]
 
 
@@ -113,17 +119,109 @@ class PeriodicTable:
         return float(np.trapezoid(y, x) / 360.0)
 
 
-#: INVENTED demonstration table of relative surface pressure against Ls (mean over Ls = 1).
-#: Its shape only imitates the qualitative textbook picture of the Mars CO2 cycle -- a deep
-#: minimum in southern winter (Ls ~ 150), a main maximum in southern spring/summer
-#: (Ls ~ 260) and a secondary one near Ls ~ 50 -- with values made up for the demo.
-#: Not a measurement; replace with a table of your own for real work.
-DEMO_CO2_CYCLE = PeriodicTable(
-    ls_deg=[0, 30, 60, 90, 120, 150, 180, 210, 240, 270, 300, 330],
-    values=[1.02, 1.04, 1.04, 1.00, 0.93, 0.89, 0.93, 1.00, 1.06, 1.07, 1.03, 1.00],
-    name="DEMO_CO2_CYCLE (invented)",
-    lower=0.0,
-)
+class HarmonicCycle:
+    """A periodic function of Ls given by harmonics, ``1 + sum_k a_k cos(k Ls) + b_k sin(k Ls)``.
+
+    Parameters
+    ----------
+    cos_coeffs, sin_coeffs : sequence [-]   a_1.., b_1.. (same length)
+    name : str                              recorded in results
+    """
+
+    def __init__(self, cos_coeffs, sin_coeffs, name):
+        a = np.asarray(cos_coeffs, dtype=float)
+        b = np.asarray(sin_coeffs, dtype=float)
+        if a.ndim != 1 or a.shape != b.shape or not np.all(np.isfinite(a)) or not np.all(np.isfinite(b)):
+            raise ConfigError(f"{name}: harmonic coefficients must be two finite lists of equal length")
+        if np.sum(np.abs(a)) + np.sum(np.abs(b)) >= 1.0:
+            raise ConfigError(f"{name}: harmonics would make the cycle reach zero; allowed sum of |a|, |b| < 1")
+        self.cos_coeffs, self.sin_coeffs, self.name = a, b, name
+
+    def __call__(self, ls_deg):
+        x = np.deg2rad(np.asarray(ls_deg, dtype=float))
+        if not np.all(np.isfinite(x)):
+            raise ValidityError("seasonal cycle: Ls has non-finite values; allowed: finite")
+        k = np.arange(1, self.cos_coeffs.size + 1)
+        kx = np.multiply.outer(x, k)
+        out = 1.0 + np.cos(kx) @ self.cos_coeffs + np.sin(kx) @ self.sin_coeffs
+        return float(out) if np.ndim(ls_deg) == 0 else out
+
+    def annual_mean_over_ls(self):
+        """Mean over Ls (the harmonics average to zero): 1."""
+        return 1.0
+
+
+#: Seasonal cycles of the daily-mean surface pressure of Viking Landers 1 and 2, relative to
+#: their means over Ls: two harmonics each, fitted by least squares to the 15-degree-Ls bin
+#: means of the Viking Lander daily-mean pressure record (NASA PDS data set
+#: VL1/VL2-M-MET-4-DAILY-AVG-PRESSURE-V1.0; Hess, S. L. et al. (1980), Geophys. Res. Lett. 7,
+#: 197, doi:10.1029/GL007i003p00197).  The fits are this project's; the bin means were read
+#: from a public binned copy of the PDS file (all years, 1977 storms included), so the
+#: coefficients stand until re-derived from the PDS file itself.  Every VL1 bin lies within
+#: 0.9 % of its fit, every VL2 bin within 1.9 % (``tests/test_pressure.py``).
+VIKING1_PRESSURE_CYCLE = HarmonicCycle([0.0583, -0.0483], [-0.0676, 0.0464],
+                                       "Viking Lander 1 daily-mean pressure, two-harmonic fit")
+VIKING2_PRESSURE_CYCLE = HarmonicCycle([0.0623, -0.0499], [-0.0823, 0.0454],
+                                       "Viking Lander 2 daily-mean pressure, two-harmonic fit")
+#: Means over Ls of the landers' daily-mean pressures for those fits [Pa].  VL1's time-weighted
+#: annual mean, 794.2 Pa, matches the 7.942 mbar quoted for VL1 by Taylor et al. (2010),
+#: J. Geophys. Res. 115, E00E15 (read in a citing text).
+VIKING1_MEAN_PRESSURE_PA = 797.2
+VIKING2_MEAN_PRESSURE_PA = 873.3
+#: Lander elevations above the MOLA areoid [m] (-3.637 and -4.495 km; read in a secondary
+#: source, consistent within 10 m with Withers (2012), Space Sci. Rev. 170, 837, from memory)
+#: and latitudes [deg N] (22.27, 47.97).
+VIKING1_ELEVATION_M = -3637.0
+VIKING2_ELEVATION_M = -4495.0
+VIKING1_LATITUDE = 22.27
+VIKING2_LATITUDE = 47.97
+#: Pressure scale height for carrying a lander cycle to other elevations [m]: 10.5 km, which
+#: carries the landers' means to Phoenix's (8.33 mbar at -4.13 km, Taylor et al. 2010 as quoted)
+#: and to Gale's (842 Pa in MY32 from the rover team's daily reports, -4.4 km) within 1.5 %
+#: (this project's choice; R T / g = 10.9 km at 210 K).
+LANDER_SCALE_HEIGHT_M = 10500.0
+
+
+class LanderPressureCycle:
+    """Seasonal surface pressure at any site from the two Viking Landers' cycles.
+
+    ``p(Ls, lat, z) = sum_k w_k(lat) p_k exp(-(z - z_k) / H) f_k(Ls)`` over the two landers,
+    with ``w_VL2 = clip((|lat| - 22.27) / (47.97 - 22.27), 0, 1)``, ``w_VL1 = 1 - w_VL2``:
+    the larger seasonal swing measured at VL2 applies poleward of 48 degrees, VL1's
+    equatorward of 22 degrees, linearly between (this project's interpolation; the same in
+    both hemispheres, where the south has no lander record).  Each lander's own site gets its
+    own fit back.  The empirical form (a lander's cycle carried by a scale height) is that of
+    Withers (2012, Space Sci. Rev. 170, 837; read as an abstract).
+
+    Validity: elevations within 10 scale heights of the areoid.
+    """
+
+    name = "Viking Lander 1 and 2 daily-mean pressure cycles carried to the site (latitude blend)"
+
+    def __init__(self, scale_height_m=LANDER_SCALE_HEIGHT_M, seasonal=True):
+        if not (np.isfinite(scale_height_m) and 1000.0 <= scale_height_m <= 50000.0):
+            raise ConfigError(f"scale_height: {scale_height_m!r} m not allowed; allowed 1000 to 50000 m")
+        self.scale_height_m = float(scale_height_m)
+        self.seasonal = bool(seasonal)
+
+    def __call__(self, ls_deg, latitude_deg, elevation_m):
+        """Pressure [Pa] on ``[step, cell]`` for Ls ``[step]`` and cells ``[cell]``."""
+        ls = np.asarray(ls_deg, dtype=float)
+        lat = np.abs(np.asarray(latitude_deg, dtype=float))
+        z = np.asarray(elevation_m, dtype=float)
+        h = self.scale_height_m
+        bad = ~(np.abs(z) <= 10.0 * h)
+        if np.any(bad):
+            raise ValidityError(f"elevation: {float(z[bad].flat[0])!r} m is outside +-{10 * h:g} m (10 scale heights)")
+        w2 = np.clip((lat - VIKING1_LATITUDE) / (VIKING2_LATITUDE - VIKING1_LATITUDE), 0.0, 1.0)
+        p1 = VIKING1_MEAN_PRESSURE_PA * np.exp(-(z - VIKING1_ELEVATION_M) / h)
+        p2 = VIKING2_MEAN_PRESSURE_PA * np.exp(-(z - VIKING2_ELEVATION_M) / h)
+        if self.seasonal:
+            f1 = np.asarray(VIKING1_PRESSURE_CYCLE(ls))[:, None]
+            f2 = np.asarray(VIKING2_PRESSURE_CYCLE(ls))[:, None]
+        else:
+            f1 = f2 = np.ones((ls.size, 1))
+        return (1.0 - w2) * p1 * f1 + w2 * p2 * f2
 
 
 def pressure_at_elevation(elevation_m, p_ref_pa=MARS.mean_surface_pressure_pa, scale_height_m=MARS.scale_height_m):
@@ -176,8 +274,9 @@ def surface_pressure(ls_deg, elevation_m, p_ref_pa=MARS.mean_surface_pressure_pa
     p_ref_pa, scale_height_m : float
         See :func:`pressure_at_elevation`.
     seasonal : PeriodicTable or None
-        Relative pressure against Ls (annual mean ~ 1); None for no seasonal
-        cycle.  :data:`DEMO_CO2_CYCLE` is an invented example.
+        Relative pressure against Ls (mean over Ls 1): a :class:`PeriodicTable`,
+        a :class:`HarmonicCycle` (e.g. :data:`VIKING1_PRESSURE_CYCLE`), or None
+        for no seasonal cycle.
 
     Returns
     -------

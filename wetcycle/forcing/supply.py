@@ -1,0 +1,429 @@
+"""Water supply from the atmosphere: column climatologies and their vertical distribution.
+
+The atmosphere above a site holds a column of water vapour W [kg m-2] that
+varies with latitude and season.  wetcycle reads it from a table on
+(Ls, latitude[, longitude]) -- the shipped default climatology, or a table of
+the user's own (CSV or NetCDF) -- and turns it into the mass mixing ratio q0
+of the free atmosphere just above the near-surface air, the value the
+boundary layer exchanges with (:mod:`wetcycle.forcing.column`).
+
+Vertical distribution
+---------------------
+Well mixed below a condensation level, saturated above it: the profile used
+to retrieve and interpret spacecraft column abundances (e.g. Smith, M. D.
+(2002), J. Geophys. Res. 107(E11), 5115; the column-closure form below is
+common practice).  With a background temperature profile falling linearly
+with height, T(z) = T0 - G z, and hydrostatic pressure
+p(z) = p_s (T(z)/T0)^(g / (R_d G)) (the barometric formula for a constant
+lapse rate, common practice), the saturation mixing ratio over ice is
+q_sat(z) = eps p_ice(T(z)) / p(z), eps = M_w / M_air, p_ice from Murphy &
+Koop (2005).  If the air is well mixed at q0 below the level z_c where
+q_sat(z_c) = q0 and saturated above, the column is
+
+    W = (1/g) [q0 (p_s - p_c) + integral from 0 to p_c of q_sat dp]
+
+which falls monotonically as z_c rises; it is inverted for z_c, and
+q0 = q_sat(z_c).  A column too large to stay unsaturated at the ground gives
+q0 = q_sat(0) (flagged by ``z_c = 0``); a column so dry that the
+condensation level lies above the top of the profile gives the fully mixed
+q0 = W g / p_s.  The default lapse rate, 2.5 K km-1, is the mean lower
+atmosphere lapse rate of Mars (Zurek, R. W. et al. (1992), in Mars, Univ.
+Arizona Press, 835-933; from memory).  Validity: T0 120-300 K,
+p_s 10-2e5 Pa.
+
+References
+----------
+1. Murphy, D. M. and Koop, T. (2005), Q. J. R. Meteorol. Soc. 131, 1539-1565.
+2. Smith, M. D. (2002), J. Geophys. Res. 107(E11), 5115, doi:10.1029/2001JE001522.
+3. Wallace, J. M. and Hobbs, P. V. (2006), Atmospheric Science, 2nd ed., sec. 3.2.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+
+import numpy as np
+from numba import njit
+
+from ..errors import ConfigError, InputDataError
+from ..water import MOLAR_MASS_WATER, psat_ice_kernel
+
+__all__ = ["PRECIPITABLE_MICRON_KG_M2", "WaterColumnTable", "default_climatology",
+           "read_column_table", "constant_mixing_ratio_table", "near_surface_mixing_ratio",
+           "DEFAULT_LAPSE_RATE_K_M", "R_GAS"]
+
+#: One precipitable micrometre of water [kg m-2] (1e-6 m x 1000 kg m-3; common practice).
+PRECIPITABLE_MICRON_KG_M2 = 1.0e-3
+#: Molar gas constant [J mol-1 K-1] (CODATA 2018, exact).
+R_GAS = 8.314462618
+#: Default lapse rate of the background atmosphere [K m-1] (Zurek et al. 1992, from memory).
+DEFAULT_LAPSE_RATE_K_M = 2.5e-3
+#: Name of the default climatology file (package data).
+DEFAULT_CLIMATOLOGY_FILE = "water_column_climatology.csv"
+
+_COLUMN_UNITS = {"pr-um": PRECIPITABLE_MICRON_KG_M2, "pr_um": PRECIPITABLE_MICRON_KG_M2,
+                 "pr-µm": PRECIPITABLE_MICRON_KG_M2, "precipitable_micrometre": PRECIPITABLE_MICRON_KG_M2,
+                 "precipitable_micrometer": PRECIPITABLE_MICRON_KG_M2, "kg m-2": 1.0, "kg/m2": 1.0,
+                 "kg m**-2": 1.0}
+_LS_NAMES = ("ls", "ls_deg", "solar_longitude", "Ls")
+_LAT_NAMES = ("lat", "latitude", "latitude_deg")
+_LON_NAMES = ("lon", "longitude", "longitude_deg")
+
+
+@dataclass(frozen=True)
+class WaterColumnTable:
+    """Atmospheric water column on (Ls, latitude[, longitude]) [kg m-2].
+
+    Interpolation: linear and periodic in Ls and longitude, linear in latitude;
+    poleward of the outermost latitude the outermost value holds (a table of band
+    centres covers its bands to the pole).  Build with :func:`default_climatology`,
+    :func:`read_column_table` or :func:`constant_mixing_ratio_table`.
+
+    Attributes
+    ----------
+    ls_deg : [n_ls] strictly increasing in [0, 360)
+    latitude_deg : [n_lat] strictly increasing in [-90, 90]
+    longitude_deg : [n_lon] strictly increasing in [0, 360), or None (zonal table)
+    column_kg_m2 : [n_ls, n_lat] or [n_ls, n_lat, n_lon], finite, >= 0
+    name : str     what the run's result records as its water supply
+    sha256 : str   of the file the table came from ("" for a built-in constant)
+    """
+
+    ls_deg: np.ndarray
+    latitude_deg: np.ndarray
+    longitude_deg: np.ndarray | None
+    column_kg_m2: np.ndarray
+    name: str
+    sha256: str = ""
+    vmr: float | None = field(default=None, compare=False)
+
+    def __post_init__(self):
+        ls = np.asarray(self.ls_deg, dtype=float)
+        lat = np.asarray(self.latitude_deg, dtype=float)
+        w = np.asarray(self.column_kg_m2, dtype=float)
+        where = self.name
+        if ls.ndim != 1 or ls.size < 1 or np.any(np.diff(ls) <= 0) or ls[0] < 0 or ls[-1] >= 360:
+            raise InputDataError(f"{where}: Ls values {ls.tolist()[:6]}... not allowed; allowed: "
+                                 "strictly increasing, 0 <= Ls < 360")
+        if lat.ndim != 1 or lat.size < 1 or np.any(np.diff(lat) <= 0) or lat[0] < -90 or lat[-1] > 90:
+            raise InputDataError(f"{where}: latitudes {lat.tolist()[:6]}... not allowed; allowed: "
+                                 "strictly increasing, -90 to 90")
+        shape = (ls.size, lat.size)
+        if self.longitude_deg is not None:
+            lon = np.asarray(self.longitude_deg, dtype=float)
+            if lon.ndim != 1 or np.any(np.diff(lon) <= 0) or lon[0] < 0 or lon[-1] >= 360:
+                raise InputDataError(f"{where}: longitudes not allowed; allowed: strictly increasing, "
+                                     "0 <= lon < 360 (east)")
+            shape = shape + (lon.size,)
+            object.__setattr__(self, "longitude_deg", lon)
+        if w.shape != shape:
+            raise InputDataError(f"{where}: column values have shape {w.shape}; expected {shape} "
+                                 "(Ls, latitude[, longitude])")
+        bad = ~(np.isfinite(w) & (w >= 0))
+        if np.any(bad):
+            raise InputDataError(f"{where}: column value {float(w[bad].flat[0])!r} not allowed; "
+                                 "allowed: finite, >= 0")
+        object.__setattr__(self, "ls_deg", ls)
+        object.__setattr__(self, "latitude_deg", lat)
+        object.__setattr__(self, "column_kg_m2", w)
+
+    def column(self, ls_deg, latitude_deg, longitude_deg):
+        """Column water [kg m-2] on ``[step, cell]`` for Ls ``[step]`` and cells ``[cell]``."""
+        ls = np.mod(np.asarray(ls_deg, dtype=float), 360.0)
+        lat = np.asarray(latitude_deg, dtype=float)
+        lon = np.mod(np.asarray(longitude_deg, dtype=float), 360.0)
+        i0, i1, fl = _periodic_weights(ls, self.ls_deg, 360.0)
+        j0, j1, fa = _clamped_weights(lat, self.latitude_deg)
+        w = self.column_kg_m2
+        if self.longitude_deg is None:
+            a = w[:, j0] * (1 - fa) + w[:, j1] * fa                       # [ls, cell]
+        else:
+            k0, k1, fo = _periodic_weights(lon, self.longitude_deg, 360.0)
+            a = ((w[:, j0, k0] * (1 - fo) + w[:, j0, k1] * fo) * (1 - fa)
+                 + (w[:, j1, k0] * (1 - fo) + w[:, j1, k1] * fo) * fa)
+        return a[i0] * (1 - fl)[:, None] + a[i1] * fl[:, None]
+
+    def describe(self):
+        """One line for a result's attributes: name and file hash."""
+        return self.name + (f" (sha256 {self.sha256})" if self.sha256 else "")
+
+
+def _periodic_weights(x, xp, period):
+    n = xp.size
+    if n == 1:
+        z = np.zeros(x.shape, dtype=np.int64)
+        return z, z, np.zeros(x.shape)
+    xw = np.concatenate([xp, [xp[0] + period]])
+    i = np.clip(np.searchsorted(xw, x, side="right") - 1, -1, n - 1)
+    below = i < 0                                  # before the first point: wrap from the last
+    lo = np.where(below, xp[-1] - period, xw[np.maximum(i, 0)])
+    hi = np.where(below, xp[0], xw[np.maximum(i, 0) + 1])
+    f = (x - lo) / (hi - lo)
+    i0 = np.where(below, n - 1, i)
+    i1 = np.where(below, 0, (i + 1) % n)
+    return i0.astype(np.int64), i1.astype(np.int64), f
+
+
+def _clamped_weights(x, xp):
+    n = xp.size
+    if n == 1:
+        z = np.zeros(x.shape, dtype=np.int64)
+        return z, z, np.zeros(x.shape)
+    xc = np.clip(x, xp[0], xp[-1])
+    i = np.clip(np.searchsorted(xp, xc, side="right") - 1, 0, n - 2)
+    f = (xc - xp[i]) / (xp[i + 1] - xp[i])
+    return i.astype(np.int64), (i + 1).astype(np.int64), f
+
+
+def _sha256(path):
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+def _from_long_frame(df, where, sha):
+    """A table from long-format rows (ls_deg, latitude_deg[, longitude_deg], value)."""
+    cols = set(df.columns)
+    unit_cols = [c for c in ("column_pr_um", "column_kg_m2") if c in cols]
+    need = {"ls_deg", "latitude_deg"}
+    if not need <= cols or len(unit_cols) != 1:
+        raise InputDataError(f"{where}: needs columns ls_deg, latitude_deg, optional longitude_deg, and one of "
+                             f"column_pr_um, column_kg_m2; found {', '.join(df.columns)}")
+    extra = sorted(cols - need - {"longitude_deg"} - set(unit_cols))
+    if extra:
+        raise InputDataError(f"{where}: unknown column {extra[0]!r}; allowed: ls_deg, latitude_deg, "
+                             "longitude_deg, column_pr_um or column_kg_m2")
+    scale = PRECIPITABLE_MICRON_KG_M2 if unit_cols[0] == "column_pr_um" else 1.0
+    keys = ["ls_deg", "latitude_deg"] + (["longitude_deg"] if "longitude_deg" in cols else [])
+    num = df.apply(lambda s: __import__("pandas").to_numeric(s, errors="coerce"))
+    bad = num.isna().any(axis=1)
+    if bad.any():
+        row = int(np.flatnonzero(bad.to_numpy())[0])
+        raise InputDataError(f"{where}: row {row + 1} has an empty or non-numeric value")
+    if "longitude_deg" in cols:
+        num["longitude_deg"] = np.mod(num["longitude_deg"], 360.0)
+    if num.duplicated(keys).any():
+        row = int(np.flatnonzero(num.duplicated(keys).to_numpy())[0])
+        raise InputDataError(f"{where}: row {row + 1} repeats an (Ls, latitude[, longitude]) point")
+    axes = [np.unique(num[k].to_numpy()) for k in keys]
+    shape = tuple(a.size for a in axes)
+    if num.shape[0] != int(np.prod(shape)):
+        raise InputDataError(f"{where}: {num.shape[0]} rows do not fill the grid of {' x '.join(map(str, shape))} "
+                             f"points ({', '.join(keys)}); give every combination once")
+    idx = tuple(np.searchsorted(a, num[k].to_numpy()) for a, k in zip(axes, keys))
+    vals = np.empty(shape)
+    vals[idx] = num[unit_cols[0]].to_numpy() * scale
+    return WaterColumnTable(axes[0], axes[1], axes[2] if len(axes) == 3 else None, vals, where, sha)
+
+
+def _read_csv(path):
+    import pandas as pd
+    try:
+        df = pd.read_csv(path, comment="#", skipinitialspace=True, encoding="utf-8-sig", dtype=str)
+    except (OSError, UnicodeDecodeError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
+        raise InputDataError(f"{path}: could not be read as a CSV text table ({type(exc).__name__})") from None
+    df.columns = [c.strip() for c in df.columns]
+    return _from_long_frame(df, str(path), _sha256(path))
+
+
+def _read_netcdf(path, variable):
+    import xarray as xr
+    try:
+        ds = xr.open_dataset(path, decode_times=False)
+    except (OSError, ValueError) as exc:
+        raise InputDataError(f"{path}: could not be read as NetCDF ({exc})") from None
+    with ds:
+        if variable is None:
+            raise ConfigError(f"forcing.water_column_variable: required for a NetCDF table ({path.name}); "
+                              f"it has {', '.join(map(str, ds.data_vars))}")
+        if variable not in ds:
+            raise ConfigError(f"forcing.water_column_variable: {variable!r} is not in {path.name}; it has "
+                              f"{', '.join(map(str, ds.data_vars))}")
+        v = ds[variable]
+        units = str(v.attrs.get("units", "")).strip()
+        if units not in _COLUMN_UNITS:
+            raise InputDataError(f"{path.name}: {variable}.units {units!r} not allowed; allowed: "
+                                 f"{', '.join(sorted(_COLUMN_UNITS))}")
+
+        def dim(names, what, required=True):
+            found = [d for d in v.dims if d in names]
+            if not found and required:
+                raise InputDataError(f"{path.name}: {variable} needs a {what} dimension named one of "
+                                     f"{', '.join(names)}; it has {', '.join(v.dims)}")
+            return found[0] if found else None
+        dls, dlat, dlon = dim(_LS_NAMES, "Ls"), dim(_LAT_NAMES, "latitude"), dim(_LON_NAMES, "longitude", False)
+        other = [d for d in v.dims if d not in (dls, dlat, dlon)]
+        if other:
+            raise InputDataError(f"{path.name}: {variable} has an unexpected dimension {other[0]!r}; allowed: "
+                                 "Ls, latitude, optional longitude")
+        order = [dls, dlat] + ([dlon] if dlon else [])
+        v = v.transpose(*order)
+        axes = {}
+        for d in order:
+            if d not in v.coords:
+                raise InputDataError(f"{path.name}: dimension {d!r} has no coordinate values")
+            axes[d] = np.asarray(v[d].values, dtype=float)
+        vals = np.asarray(v.values, dtype=float) * _COLUMN_UNITS[units]
+        ls = np.mod(axes[dls], 360.0)
+        lat = axes[dlat]
+        perm = [np.argsort(ls), np.argsort(lat)]
+        vals = vals[perm[0]][:, perm[1]]
+        lon = None
+        if dlon:
+            lon = np.mod(axes[dlon], 360.0)
+            p = np.argsort(lon)
+            lon, vals = lon[p], vals[:, :, p]
+        return WaterColumnTable(np.sort(ls), np.sort(lat), lon, vals, str(path), _sha256(path))
+
+
+def read_column_table(path, variable=None):
+    """Read a water-column table of the user's own.
+
+    Parameters
+    ----------
+    path : str or Path
+        A CSV text file (``#`` comment lines allowed) in long format, one row per
+        point, columns ``ls_deg``, ``latitude_deg``, optional ``longitude_deg``
+        (east), and ``column_pr_um`` [precipitable micrometres] or
+        ``column_kg_m2``; every combination of the axes given once.  Or a NetCDF
+        file (``.nc``) with a variable on dimensions (Ls, latitude[, longitude])
+        named ``ls``/``solar_longitude``, ``lat``/``latitude``, ``lon``/``longitude``,
+        with ``units`` ``pr-um`` or ``kg m-2``.
+    variable : str, optional
+        The NetCDF variable (required for NetCDF).
+
+    Returns
+    -------
+    WaterColumnTable
+
+    Raises
+    ------
+    InputDataError / ConfigError  one line naming the file, column or row.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise ConfigError(f"forcing.water_column: {str(path)!r} is not a file")
+    if path.suffix.lower() in (".nc", ".nc4", ".cdf"):
+        return _read_netcdf(path, variable)
+    return _read_csv(path)
+
+
+def default_climatology():
+    """The shipped default column climatology (zonal mean by Ls; see its file for sources)."""
+    ref = resources.files("wetcycle.forcing") / "data" / DEFAULT_CLIMATOLOGY_FILE
+    with resources.as_file(ref) as path:
+        t = _read_csv(path)
+    return WaterColumnTable(t.ls_deg, t.latitude_deg, None, t.column_kg_m2,
+                            f"wetcycle default climatology ({DEFAULT_CLIMATOLOGY_FILE}; zonal means "
+                            "reconstructed from memory of spacecraft retrievals, see the file)", t.sha256)
+
+
+def constant_mixing_ratio_table(vmr):
+    """A 'table' standing for a constant near-surface volume mixing ratio [mol mol-1].
+
+    Used by ``water_supply = "vmr"``: the free-atmosphere mixing ratio is held
+    at ``vmr`` (no column, no vertical distribution)."""
+    if not (np.isfinite(vmr) and 0 <= vmr <= 0.1):
+        raise ConfigError(f"forcing.vapour_mixing_ratio: {vmr!r} not allowed; allowed 0 to 0.1 mol/mol")
+    return WaterColumnTable(np.array([0.0]), np.array([0.0]), None, np.zeros((1, 1)),
+                            f"constant volume mixing ratio {vmr:g} mol/mol", "", vmr=float(vmr))
+
+
+# ------------------------------------------------------------------------------------
+# Vertical distribution (numba)
+# ------------------------------------------------------------------------------------
+#: Levels of the background profile used to invert the column: spacing [m] and count.
+PROFILE_DZ_M = 500.0
+PROFILE_LEVELS = 81
+#: Lowest temperature of the background profile [K] (Murphy & Koop's ice formula holds to 110 K;
+#: the profile is cut where it would fall below this).
+PROFILE_T_MIN = 115.0
+
+
+@njit(cache=True, nogil=True)
+def free_mixing_ratio_kernel(w, p_s, t_s, lapse, g, r_air, eps, qs, pz, wk):
+    """Scalar kernel: (q0 [kg kg-1], z_c [m]) for column ``w`` [kg m-2], surface pressure
+    ``p_s`` [Pa], background air temperature ``t_s`` [K] (see the module notes).  ``qs``, ``pz``,
+    ``wk`` are scratch arrays of :data:`PROFILE_LEVELS` values."""
+    nz = PROFILE_LEVELS
+    expo = g / (r_air * lapse)
+    top = nz
+    for k in range(nz):
+        tk = t_s - lapse * PROFILE_DZ_M * k
+        if tk < PROFILE_T_MIN:
+            top = k
+            break
+        pk = p_s * (tk / t_s) ** expo
+        pz[k] = pk
+        qs[k] = eps * psat_ice_kernel(tk) / pk
+    if top < 2:
+        return w * g / p_s, 0.0
+    # column consistent with a condensation level at level k (trapezoid in p, top down)
+    sat = 0.0
+    wk[top - 1] = (qs[top - 1] * (p_s - pz[top - 1])) / g
+    for k in range(top - 2, -1, -1):
+        sat += 0.5 * (qs[k] + qs[k + 1]) * (pz[k] - pz[k + 1])
+        wk[k] = (qs[k] * (p_s - pz[k]) + sat) / g
+    if w >= wk[0]:
+        return qs[0], 0.0
+    if w <= wk[top - 1]:
+        return w * g / p_s, PROFILE_DZ_M * (top - 1)
+    k = 0
+    while wk[k + 1] > w:
+        k += 1
+    # interpolate in ln(q_sat) between levels k and k+1 by the column
+    f = (wk[k] - w) / (wk[k] - wk[k + 1])
+    return math.exp((1 - f) * math.log(qs[k]) + f * math.log(qs[k + 1])), PROFILE_DZ_M * (k + f)
+
+
+@njit(cache=True, nogil=True)
+def _q0_kernel(w, ps, t0, lapse, g, r_air, eps, q0_out, zc_out):
+    qs = np.empty(PROFILE_LEVELS)
+    pz = np.empty(PROFILE_LEVELS)
+    wk = np.empty(PROFILE_LEVELS)
+    for c in range(w.size):
+        q0_out[c], zc_out[c] = free_mixing_ratio_kernel(w[c], ps[c], t0[c], lapse, g, r_air, eps, qs, pz, wk)
+
+
+def near_surface_mixing_ratio(column_kg_m2, surface_pressure_pa, temperature_k,
+                              lapse_rate_k_m=DEFAULT_LAPSE_RATE_K_M, gravity_m_s2=3.71,
+                              molar_mass_air_kg_mol=0.04334):
+    """Mass mixing ratio below the condensation level for a given column (see module notes).
+
+    Parameters
+    ----------
+    column_kg_m2 : array [kg m-2], >= 0
+    surface_pressure_pa : array [Pa], 10-2e5
+    temperature_k : array [K], 120-300   background near-surface air temperature T0
+    lapse_rate_k_m : float [K m-1], 0.5e-3 to 9e-3
+    gravity_m_s2, molar_mass_air_kg_mol : float   planet constants
+
+    Returns
+    -------
+    q0 : ndarray [kg kg-1]      mixing ratio of the well-mixed layer
+    z_c : ndarray [m]           condensation level (0: saturated at the ground;
+                                the top of the profile, 40 km: fully mixed)
+    """
+    w, ps, t0 = np.broadcast_arrays(np.asarray(column_kg_m2, float), np.asarray(surface_pressure_pa, float),
+                                    np.asarray(temperature_k, float))
+    shape = w.shape
+    w, ps, t0 = (np.ascontiguousarray(a.ravel()) for a in (w, ps, t0))
+    for name, a, lo, hi in (("column_kg_m2", w, 0.0, np.inf), ("surface_pressure_pa", ps, 10.0, 2e5),
+                            ("temperature_k", t0, 120.0, 300.0)):
+        bad = ~(np.isfinite(a) & (a >= lo) & (a <= hi)) if np.isfinite(hi) else ~(np.isfinite(a) & (a >= lo))
+        if np.any(bad):
+            raise ConfigError(f"{name}: {float(a[bad][0])!r} not allowed; allowed {lo:g} to {hi:g}")
+    if not 0.5e-3 <= lapse_rate_k_m <= 9e-3:
+        raise ConfigError(f"lapse_rate_k_m: {lapse_rate_k_m!r} not allowed; allowed 0.0005 to 0.009 K/m")
+    r_air = R_GAS / molar_mass_air_kg_mol
+    eps = MOLAR_MASS_WATER / molar_mass_air_kg_mol
+    q0 = np.empty_like(w)
+    zc = np.empty_like(w)
+    _q0_kernel(w, ps, t0, float(lapse_rate_k_m), float(gravity_m_s2), r_air, eps, q0, zc)
+    return q0.reshape(shape), zc.reshape(shape)
