@@ -1,48 +1,57 @@
-"""Forcing driver: orbit + surface energy balance + vapour for a chunk of cells.
+"""Forcing driver: orbit + surface energy balance + near-surface water for a chunk of cells.
 
 Recipe for one block of steps (a sol by default), all cells of a chunk at once:
 
 1. solar geometry per step from the clock (:mod:`wetcycle.orbit`);
-2. surface pressure from elevation and the seasonal CO2 cycle
-   (:mod:`wetcycle.forcing.pressure`);
-3. surface temperature, CO2 frost and the temperature at the salt depth from
-   the energy balance and conduction kernel (:mod:`wetcycle.forcing.energy`);
-4. near-surface vapour pressure from a mixing ratio or a seasonal column
-   table, then water-frost exchange at the surface
-   (:mod:`wetcycle.forcing.vapour`);
-5. relative humidity with respect to liquid water and ice at the salt
-   temperature (the salt is taken to see the surface vapour pressure); above
-   the triple point (273.16 K), where ice is not stable, the ice curve is
-   continued by the liquid curve (as in :func:`~wetcycle.forcing.vapour.frost_kernel`),
-   so ``relative_humidity_ice = relative_humidity`` there.
+2. surface pressure from the landers' seasonal cycle carried to each cell's
+   elevation and latitude (:mod:`wetcycle.forcing.pressure`), the seasonal
+   dust optical depth (:mod:`wetcycle.forcing.dust`) and the infrared
+   emissivity of the dusty atmosphere (:mod:`wetcycle.forcing.atmosphere`);
+3. the water supply: the atmospheric water column at the cell's latitude and
+   season (:mod:`wetcycle.forcing.supply`: the default climatology, a table of
+   the user's own, or a constant mixing ratio), turned into the mixing ratio
+   of the free atmosphere above the near-surface air by the well-mixed-below-
+   condensation-level distribution (evaluated once per block, with the
+   background air temperature at the block's start);
+4. the coupled column kernel (:mod:`wetcycle.forcing.column`): ground heat
+   and CO2 frost, air temperature at the sensor height, the atmosphere's
+   temperature, the near-surface air layer, pore vapour, adsorbed water,
+   pore ice and surface water frost;
+5. relative humidity with respect to liquid water and ice at the salt (its
+   temperature and the pore vapour pressure at its depth) and at the sensor
+   height.  Above the triple point (273.16 K), where ice is not stable, the
+   ice curve is continued by the liquid curve, so
+   ``relative_humidity_ice = relative_humidity`` there.
 
-The state (temperature profile, CO2 frost, water frost, position in the
-clock) is carried explicitly: :func:`forcing_block` takes a
-:class:`ForcingState` and returns the next one, so runs can be restarted and
-chained.  :func:`spin_up` repeats the year that ends at the clock's start
-until the annual cycle is periodic.  Outputs are plain arrays ``[step, cell]``;
-this module imports nothing from the phase kernel or the salt modules.
+The state (:class:`ForcingState`: the column state and the position in the
+clock) is carried explicitly: :func:`forcing_block` takes one and returns the
+next, so runs can be restarted and chained.  :func:`spin_up` repeats the year
+that ends at the clock's start until each cell's annual cycle is periodic.
+Outputs are plain arrays ``[step, cell]``; this module imports nothing from
+the phase kernel or the salt modules.
 """
 
 from __future__ import annotations
 
 import dataclasses
-from dataclasses import dataclass
-from typing import Callable, Union
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from ..clock import make_clock
-from ..errors import ConfigError, UnknownNameError
-from ..water import TRIPLE_POINT_T
-from .energy import (STEFAN_BOLTZMANN, EnergyState, co2_frost_point, energy_block,
-                     prepare_energy)
+from ..errors import ConfigError
+from ..water import MOLAR_MASS_WATER, TRIPLE_POINT_T
+from .atmosphere import CO2_EMISSIVITY_610PA, DUST_IR_TO_VISIBLE, column_ir_emissivity
+from .column import ColumnState, WaterSettings, column_block, prepare_column
+from .column import initial_state as column_initial_state
+from .dust import DustSeason
+from .energy import STEFAN_BOLTZMANN, co2_frost_point, prepare_energy
 from .insolation import daily_mean_toa_insolation
-from .pressure import DEMO_CO2_CYCLE, PeriodicTable, pressure_at_elevation, surface_pressure
-from .regolith import build_columns, probe_weights
-from .vapour import (DEFAULT_LAYER_THICKNESS_M, DEFAULT_TRANSFER_VELOCITY_M_S, DEMO_COLUMN_TABLE,
-                     frost_exchange, relative_humidity, relative_humidity_ice,
-                     vapor_pressure_from_column_table, vapor_pressure_from_vmr)
+from .pressure import LanderPressureCycle
+from .regolith import build_columns
+from .regolith_vapour import R_VAPOUR
+from .supply import DEFAULT_LAPSE_RATE_K_M, WaterColumnTable, default_climatology, near_surface_mixing_ratio
+from .vapour import relative_humidity, relative_humidity_ice
 
 #: Names of the arrays returned per block, each ``[step, cell]``, with units.
 OUTPUT_UNITS = {
@@ -54,6 +63,17 @@ OUTPUT_UNITS = {
     "surface_pressure": "Pa",
     "water_frost": "kg m-2",
     "co2_frost": "kg m-2",
+    "air_temperature": "K",
+    "air_vapor_pressure": "Pa",
+    "air_relative_humidity_ice": "1",
+    "surface_vapor_pressure": "Pa",
+    "sensible_heat_flux": "W m-2",
+    "downwelling_longwave": "W m-2",
+    "surface_water_flux": "kg m-2",
+    "atmosphere_exchange": "kg m-2",
+    "dust_optical_depth": "1",
+    "free_vapor_pressure": "Pa",
+    "ground_heat_flux": "W m-2",
 }
 
 
@@ -76,6 +96,7 @@ class CellSet:
     layer2_inertia: np.ndarray
     layer2_density: np.ndarray
     layer2_heat_capacity: np.ndarray
+    porosity: np.ndarray
 
     @property
     def n_cells(self):
@@ -85,21 +106,24 @@ class CellSet:
 def make_cells(latitude_deg, longitude_deg, *, elevation_m=0.0, albedo=0.25,
                thermal_inertia=250.0, emissivity=0.95, slope_deg=0.0, slope_azimuth_deg=0.0,
                salt_depth_m=0.0, density=1500.0, heat_capacity=800.0, layer2_depth_m=np.inf,
-               layer2_inertia=2000.0, layer2_density=2000.0, layer2_heat_capacity=1000.0):
+               layer2_inertia=2000.0, layer2_density=2000.0, layer2_heat_capacity=1000.0,
+               porosity=0.35):
     """Broadcast per-cell properties to arrays ``[cell]``.
 
     Parameters
     ----------
     latitude_deg, longitude_deg : array [deg]   planetocentric latitude, east longitude
-    elevation_m : array [m]                     height above the datum
+    elevation_m : array [m]                     height above the areoid
     albedo, emissivity : array [-]              bare-surface values
     thermal_inertia : array [J m-2 K-1 s-1/2]   top material
     slope_deg, slope_azimuth_deg : array [deg]  slope; direction faced, clockwise from north
     salt_depth_m : array [m]                    0 for a surface crust
-    density, heat_capacity : array [kg m-3], [J kg-1 K-1]   top material
+    density, heat_capacity : array [kg m-3], [J kg-1 K-1]   top material (bulk)
     layer2_depth_m : array [m]                  top of a second material; inf for none
     layer2_inertia, layer2_density, layer2_heat_capacity : array
         Second material (defaults: an invented ice-cemented soil).
+    porosity : array [-]                        regolith porosity, 0.01-0.9 (default 0.35:
+        Gale's 35-40 %, Savijärvi et al. 2016, Icarus 265, 63, read as an abstract)
 
     Values are checked where they are used (ValidityError naming the field).
     """
@@ -110,7 +134,8 @@ def make_cells(latitude_deg, longitude_deg, *, elevation_m=0.0, albedo=0.25,
                 slope_deg=slope_deg, slope_azimuth_deg=slope_azimuth_deg,
                 salt_depth_m=salt_depth_m, density=density, heat_capacity=heat_capacity,
                 layer2_depth_m=layer2_depth_m, layer2_inertia=layer2_inertia,
-                layer2_density=layer2_density, layer2_heat_capacity=layer2_heat_capacity)
+                layer2_density=layer2_density, layer2_heat_capacity=layer2_heat_capacity,
+                porosity=porosity)
     out = {}
     for k, v in vals.items():
         a = np.asarray(v, dtype=float)
@@ -121,84 +146,88 @@ def make_cells(latitude_deg, longitude_deg, *, elevation_m=0.0, albedo=0.25,
     return CellSet(**out)
 
 
-def _vapour_vmr(model, ls, p):
-    return vapor_pressure_from_vmr(model.options.vmr, p)
-
-
-def _vapour_column(model, ls, p):
-    e = vapor_pressure_from_column_table(ls, model.options.column_table, model.planet,
-                                         model.options.confinement)
-    return np.broadcast_to(np.asarray(e)[:, None], p.shape)
-
-
-#: Registry of near-surface vapour sources: name -> function(model, ls [step], p [step, cell]).
-VAPOUR_SOURCES: dict[str, Callable] = {"vmr": _vapour_vmr, "column": _vapour_column}
+#: Water held by a full monolayer per unit area of grain surface [kg m-2]: 2.8e-7, one water
+#: molecule (2.99e-26 kg) per 10.6 A^2 (the common-practice cross-section of adsorbed water).
+MONOLAYER_MASS_KG_M2 = 2.8e-7
 
 
 @dataclass(frozen=True)
 class ForcingOptions:
-    """Settings of the forcing (all SI).
+    """Settings of the forcing (all SI).  Defaults are for present-day Mars; each names its
+    source in the module that uses it.
 
     Attributes
     ----------
-    tau : float or PeriodicTable        dust optical depth, or a table against Ls
-    vapour : str                        key of :data:`VAPOUR_SOURCES` ("vmr", "column")
-    vmr : float [mol mol-1]             near-surface water volume mixing ratio ("vmr")
-    column_table : PeriodicTable [pr-um]  column water against Ls ("column")
-    confinement : float [-]             near-surface / column-mean mixing ratio ("column")
-    p_ref_pa, scale_height_m : float    datum pressure [Pa] and scale height [m]; None: planet's
-    pressure_cycle : PeriodicTable or None   relative surface pressure against Ls
-    theta : float [-]                   0.5 Crank-Nicolson ... 1 backward Euler
+    dust : DustSeason or float           dust optical depth (default: the seasonal curve at
+                                         610 Pa, carried to the site pressure)
+    water_supply : WaterColumnTable or None   atmospheric water column (None: the default
+                                         climatology, :func:`~wetcycle.forcing.supply.default_climatology`)
+    pressure : LanderPressureCycle       seasonal surface pressure at the cells
+    lapse_rate_k_m : float [K m-1]       background lapse rate (vertical water distribution and
+                                         the air's background temperature)
+    co2_emissivity : float [-]           clear CO2 column emissivity at 610 Pa
+    dust_ir_ratio : float [-]            infrared / visible dust extinction
+    specific_surface_area_m2_kg : float  of the regolith grains (adsorption capacity =
+                                         bulk density x area x monolayer mass); default
+                                         17 m2 g-1 (Ballou et al. 1978, Nature 271, 644, read
+                                         as an abstract)
+    water : WaterSettings                 near-surface air and regolith water settings
+    theta : float [-]                    0.5 Crank-Nicolson ... 1 backward Euler (heat)
     first_layer_fraction, stretch, annual_depths, n_layers : grid (see regolith.build_columns)
     geothermal_flux : float [W m-2]
-    frost_albedo, frost_emissivity : float [-]   CO2 frost radiative properties
-    diffuse_fraction, ir_fraction : float [-]    see insolation
+    frost_albedo, frost_emissivity : float [-]   CO2 frost radiative properties: 0.5 and 0.8,
+                                         representative seasonal-cap values recalled from the
+                                         orbital thermal mapping of the caps (Kieffer, Titus et
+                                         al. 2000, J. Geophys. Res. 105, 9653; Kieffer & Titus 2001,
+                                         Icarus 154, 162; from memory); chosen among those so
+                                         that cap-edge recession dates match (scripts/validate_mars.py)
+    diffuse_fraction : float [-]         see insolation
     co2_frost : bool
-    transfer_velocity_m_s, layer_thickness_m : float   water-frost exchange (vapour.frost_exchange)
     """
 
-    tau: Union[float, PeriodicTable] = 0.3
-    vapour: str = "vmr"
-    vmr: float = 1.5e-4
-    column_table: PeriodicTable = DEMO_COLUMN_TABLE
-    confinement: float = 1.0
-    p_ref_pa: float | None = None
-    scale_height_m: float | None = None
-    pressure_cycle: PeriodicTable | None = DEMO_CO2_CYCLE
+    dust: object = field(default_factory=DustSeason)
+    water_supply: WaterColumnTable | None = None
+    pressure: object = field(default_factory=LanderPressureCycle)
+    lapse_rate_k_m: float = DEFAULT_LAPSE_RATE_K_M
+    co2_emissivity: float = CO2_EMISSIVITY_610PA
+    dust_ir_ratio: float = DUST_IR_TO_VISIBLE
+    specific_surface_area_m2_kg: float = 1.7e4
+    water: WaterSettings = field(default_factory=WaterSettings)
     theta: float = 0.5
     first_layer_fraction: float = 0.1
     stretch: float = 1.2
     annual_depths: float = 3.0
     n_layers: int | None = None
     geothermal_flux: float = 0.0
-    frost_albedo: float = 0.6
-    frost_emissivity: float = 0.9
+    frost_albedo: float = 0.5
+    frost_emissivity: float = 0.8
     diffuse_fraction: float = 0.5
-    ir_fraction: float = 0.04
     co2_frost: bool = True
-    transfer_velocity_m_s: float = DEFAULT_TRANSFER_VELOCITY_M_S
-    layer_thickness_m: float = DEFAULT_LAYER_THICKNESS_M
 
 
 @dataclass(frozen=True)
 class ForcingModel:
-    """Everything fixed for a chunk: cells, options, planet, energy model (see :func:`prepare_forcing`)."""
+    """Everything fixed for a chunk: cells, options, planet, column model (see :func:`prepare_forcing`)."""
 
     cells: CellSet
     options: ForcingOptions
     planet: object
     dt_s: float
     steps_per_sol: int
-    energy: object
-    p_datum: np.ndarray
+    column: object
+    supply: WaterColumnTable
+    dust: DustSeason
+
+    @property
+    def energy(self):
+        return self.column.energy
 
 
 @dataclass(frozen=True)
 class ForcingState:
-    """State between blocks: energy state, water frost ``[cell]`` [kg m-2], next clock step."""
+    """State between blocks: the column state and the next clock step."""
 
-    energy: EnergyState
-    water_frost: np.ndarray
+    column: ColumnState
     step: int = 0
 
 
@@ -208,7 +237,7 @@ def prepare_forcing(cells, clock, options=ForcingOptions()):
     Parameters
     ----------
     cells : CellSet
-    clock : wetcycle.orbit.Clock
+    clock : wetcycle.clock.Clock
         Fixes the planet and the time step ``clock.dt_s`` [s].
     options : ForcingOptions
 
@@ -216,31 +245,42 @@ def prepare_forcing(cells, clock, options=ForcingOptions()):
     -------
     ForcingModel
     """
-    if options.vapour not in VAPOUR_SOURCES:
-        raise UnknownNameError(f"vapour: {options.vapour!r} is not known; allowed: "
-                               f"{', '.join(sorted(VAPOUR_SOURCES))}")
     planet = clock.planet
+    if planet.name != "mars":
+        raise ConfigError(f"forcing: the energy-balance forcing is for Mars; planet {planet.name!r} "
+                          "needs prescribed or file forcing")
     year_s = planet.sol_s * planet.year_sols
+    if not 0.5e-3 <= options.lapse_rate_k_m <= 9e-3:
+        raise ConfigError(f"lapse_rate: {options.lapse_rate_k_m!r} K/m not allowed; allowed 0.0005 to 0.009")
+    if not 1e2 <= options.specific_surface_area_m2_kg <= 1e6:
+        raise ConfigError(f"specific_surface_area: {options.specific_surface_area_m2_kg!r} m2/kg not allowed; "
+                          "allowed 100 to 1e6")
     cols = build_columns(cells.thermal_inertia, cells.density, cells.heat_capacity, planet.sol_s,
                          year_s, first_layer_fraction=options.first_layer_fraction,
                          stretch=options.stretch, annual_depths=options.annual_depths,
                          n_layers=options.n_layers, layer2_depth=cells.layer2_depth_m,
                          layer2_inertia=cells.layer2_inertia, layer2_density=cells.layer2_density,
                          layer2_heat_capacity=cells.layer2_heat_capacity)
+    # ir_fraction = 1: the kernel's radiative row then holds the sky-view fraction of a slope,
+    # which multiplies the atmosphere's own downwelling infrared
     energy = prepare_energy(
         cols, clock.dt_s, latitude_deg=cells.latitude_deg, longitude_deg=cells.longitude_deg,
         albedo=cells.albedo, emissivity=cells.emissivity, slope_deg=cells.slope_deg,
         slope_azimuth_deg=cells.slope_azimuth_deg, probe_depth=cells.salt_depth_m,
         theta=options.theta, geothermal_flux=options.geothermal_flux,
         frost_albedo=options.frost_albedo, frost_emissivity=options.frost_emissivity,
-        diffuse_fraction=options.diffuse_fraction, ir_fraction=options.ir_fraction,
-        co2_frost=options.co2_frost)
-    p_ref = planet.mean_surface_pressure_pa if options.p_ref_pa is None else options.p_ref_pa
-    h = planet.scale_height_m if options.scale_height_m is None else options.scale_height_m
-    p_datum = np.asarray(pressure_at_elevation(cells.elevation_m, p_ref, h))
-    model = ForcingModel(cells, options, planet, float(clock.dt_s), int(clock.steps_per_sol),
-                         energy, np.atleast_1d(p_datum))
-    return model
+        diffuse_fraction=options.diffuse_fraction, ir_fraction=1.0, co2_frost=options.co2_frost)
+    capacity = cells.density * options.specific_surface_area_m2_kg * MONOLAYER_MASS_KG_M2
+    supply = options.water_supply if options.water_supply is not None else default_climatology()
+    eps = MOLAR_MASS_WATER / planet.molar_mass_air_kg_mol
+    settings = dataclasses.replace(options.water, sol_s=planet.sol_s, steps_per_sol=int(clock.steps_per_sol),
+                                   lapse_rate_k_m=options.lapse_rate_k_m,
+                                   constant_mixing_ratio=-1.0 if supply.vmr is None else supply.vmr * eps)
+    column = prepare_column(energy, settings, cells.porosity, gravity=planet.gravity_m_s2,
+                            molar_mass_air=planet.molar_mass_air_kg_mol, monolayer_kg_m3=capacity)
+    dust = options.dust if isinstance(options.dust, DustSeason) else DustSeason(options.dust)
+    return ForcingModel(cells, options, planet, float(clock.dt_s), int(clock.steps_per_sol), column,
+                        supply, dust)
 
 
 def _check_clock(model, clock):
@@ -249,33 +289,88 @@ def _check_clock(model, clock):
                           f"{model.dt_s} s; prepare the forcing with this clock")
 
 
-def _pressure(model, ls):
-    opt = model.options
-    p_ref = model.planet.mean_surface_pressure_pa if opt.p_ref_pa is None else opt.p_ref_pa
-    h = model.planet.scale_height_m if opt.scale_height_m is None else opt.scale_height_m
-    return np.ascontiguousarray(surface_pressure(ls, model.cells.elevation_m, p_ref, h,
-                                                 opt.pressure_cycle))
-
-
-def _tau(model, ls):
-    tau = model.options.tau
-    return (np.asarray(tau(ls), dtype=float) if callable(tau) else np.full(ls.shape, float(tau)))
-
-
 def _hour_angle0(clock, i0, i1):
     """Hour angle at east longitude 0 at the middle of steps ``i0:i1`` [rad].
 
     Same definition as ``Clock.hour_angle_rad`` (LTST = LMST + EOT, zero at noon),
-    evaluated on the slice only; plus half a step of Earth/Mars rotation."""
+    evaluated on the slice only; plus half a step of rotation."""
     ltst = clock.mean_solar_time_h[i0:i1] + clock.equation_of_time_h[i0:i1]
     return (ltst - 12.0) * (np.pi / 12.0) + np.pi / clock.steps_per_sol
 
 
-def _energy_inputs(model, clock, i0, i1):
-    ls = np.asarray(clock.ls_deg[i0:i1])
-    h0 = _hour_angle0(clock, i0, i1)
-    return (ls, clock.declination_rad[i0:i1], clock.distance_au[i0:i1], h0,
-            _tau(model, ls)[:, None], _pressure(model, ls))
+def _atmosphere_inputs(model, ls):
+    """Pressure, optical depth, infrared emissivity and CO2 frost point ``[step, cell]``."""
+    c, opt = model.cells, model.options
+    p = np.ascontiguousarray(model.options.pressure(ls, c.latitude_deg, c.elevation_m))
+    tau = model.dust(ls, p)
+    eps = column_ir_emissivity(tau, p, opt.co2_emissivity, opt.dust_ir_ratio)
+    tf = co2_frost_point(p) if opt.co2_frost else np.full(p.shape, -1.0)
+    return p, tau, eps, tf
+
+
+def free_mixing_ratio(model, ls_deg, pressure_pa, background_temperature_k):
+    """Mixing ratio of the free atmosphere above the near-surface air [kg kg-1], ``[cell]``.
+
+    Parameters
+    ----------
+    model : ForcingModel
+    ls_deg : float [deg]               season of the block
+    pressure_pa : array [cell] [Pa]
+    background_temperature_k : array [cell] [K]   near-surface background air temperature
+
+    Returns
+    -------
+    ndarray [cell]: the constant mixing ratio of a ``vmr`` supply, else the column of the
+    supply at the cells, distributed by :func:`~wetcycle.forcing.supply.near_surface_mixing_ratio`.
+    """
+    planet = model.planet
+    sup = model.supply
+    eps = MOLAR_MASS_WATER / planet.molar_mass_air_kg_mol
+    if sup.vmr is not None:
+        return np.full(model.cells.n_cells, sup.vmr * eps)
+    c = model.cells
+    w = sup.column(np.array([ls_deg]), c.latitude_deg, c.longitude_deg)[0]
+    t0 = np.clip(background_temperature_k, 120.0, 300.0)
+    q0, _ = near_surface_mixing_ratio(w, pressure_pa, t0, model.options.lapse_rate_k_m,
+                                      planet.gravity_m_s2, planet.molar_mass_air_kg_mol)
+    return q0
+
+
+def initial_state(model, clock, temperature=None):
+    """A first-guess state at the start of ``clock``.
+
+    Parameters
+    ----------
+    model : ForcingModel
+    clock : Clock
+    temperature : array [cell] [K], optional
+        Isothermal profile; default the annual-mean radiative-equilibrium
+        temperature ``((1 - A) <Q> / (eps sigma))**0.25`` from the diurnal-mean
+        top-of-atmosphere insolation sampled once per sol over a year
+        (:func:`~wetcycle.forcing.insolation.daily_mean_toa_insolation`),
+        raised to the CO2 frost point where CO2 frost is on.  The pores hold
+        water in equilibrium with the free atmosphere's vapour at the start.
+
+    Returns
+    -------
+    ForcingState
+    """
+    c = model.cells
+    p, _, _, _ = _atmosphere_inputs(model, np.asarray(clock.ls_deg[:1]))
+    if temperature is None:
+        n_year = int(round(model.planet.year_sols))
+        yclock = make_clock(model.planet, steps_per_sol=1, n_sols=n_year,
+                            start_jd_tt=float(clock.jd_tt[0]), align_to_midnight=False)
+        q = _per_cell_mean(daily_mean_toa_insolation(np.deg2rad(c.latitude_deg)[None, :],
+                                                     yclock.declination_rad[:, None],
+                                                     yclock.distance_au[:, None]))
+        temperature = ((1.0 - c.albedo) * q / (c.emissivity * STEFAN_BOLTZMANN)) ** 0.25
+        if model.options.co2_frost:
+            temperature = np.maximum(temperature, co2_frost_point(p[0]) + 1.0)
+        temperature = np.maximum(temperature, 120.0)
+    temperature = np.broadcast_to(np.asarray(temperature, dtype=float), (c.n_cells,))
+    q0 = free_mixing_ratio(model, float(clock.ls_deg[0]), p[0], temperature)
+    return ForcingState(column_initial_state(model.column, temperature, q0, p[0], c.layer2_depth_m), 0)
 
 
 def _per_cell_sum(a):
@@ -292,38 +387,33 @@ def _per_cell_mean(a):
     return _per_cell_sum(a) / (a.size // a.shape[-1])
 
 
-def initial_state(model, clock, temperature=None):
-    """A first-guess state at the start of ``clock``.
-
-    Parameters
-    ----------
-    model : ForcingModel
-    clock : Clock
-    temperature : array [cell] [K], optional
-        Isothermal profile; default the annual-mean radiative-equilibrium
-        temperature ``((1 - A) <Q> / (eps sigma))**0.25`` from the diurnal-mean
-        top-of-atmosphere insolation sampled once per sol over a year
-        (:func:`~wetcycle.forcing.insolation.daily_mean_toa_insolation`),
-        raised to the CO2 frost point where CO2 frost is on.
-
-    Returns
-    -------
-    ForcingState
-    """
+def _advance(model, state, clock, i0, i1):
+    """Run steps ``i0:i1`` of ``clock`` from ``state.column``; return the column state and the
+    kernel's outputs plus the per-step atmosphere inputs."""
+    ls = np.asarray(clock.ls_deg[i0:i1])
+    p, tau, eps, tf = _atmosphere_inputs(model, ls)
     c = model.cells
-    if temperature is None:
-        n_year = int(round(model.planet.year_sols))
-        yclock = make_clock(model.planet, steps_per_sol=1, n_sols=n_year,
-                            start_jd_tt=float(clock.jd_tt[0]), align_to_midnight=False)
-        q = _per_cell_mean(daily_mean_toa_insolation(np.deg2rad(c.latitude_deg)[None, :],
-                                                     yclock.declination_rad[:, None],
-                                                     yclock.distance_au[:, None]))
-        temperature = ((1.0 - c.albedo) * q / (c.emissivity * STEFAN_BOLTZMANN)) ** 0.25
-        if model.options.co2_frost:
-            temperature = np.maximum(temperature, co2_frost_point(model.p_datum) + 1.0)
-        temperature = np.maximum(temperature, 100.0)
-    est = model.energy.initial_state(temperature)
-    return ForcingState(est, np.zeros(c.n_cells), 0)
+    w = model.supply.column(ls, c.latitude_deg, c.longitude_deg) if model.supply.vmr is None else np.zeros(p.shape)
+    new, out = column_block(model.column, state.column, clock.declination_rad[i0:i1], clock.distance_au[i0:i1],
+                            _hour_angle0(clock, i0, i1), tau, p, eps, w, tf, step0=i0)
+    out["surface_pressure"] = p
+    out["dust_optical_depth"] = tau
+    return new, out
+
+
+def _humidities(out):
+    """Relative humidities at the salt and at the sensor height (see the module notes)."""
+    t_salt = out["salt_temperature"]
+    vp = out["vapor_pressure"]
+    rh = relative_humidity(vp, np.clip(t_salt, 123.0, 332.0))
+    cold = t_salt <= TRIPLE_POINT_T
+    rh_ice = np.where(cold, relative_humidity_ice(vp, np.clip(t_salt, 110.0, TRIPLE_POINT_T)), rh)
+    ta = out["air_temperature"]
+    ea = out["air_vapor_pressure"]
+    cold_a = ta <= TRIPLE_POINT_T
+    rha_l = relative_humidity(ea, np.clip(ta, 123.0, 332.0))
+    rha = np.where(cold_a, relative_humidity_ice(ea, np.clip(ta, 110.0, TRIPLE_POINT_T)), rha_l)
+    return rh, rh_ice, rha
 
 
 def forcing_block(model, state, clock, n_steps=None):
@@ -344,7 +434,8 @@ def forcing_block(model, state, clock, n_steps=None):
     state : ForcingState
         After the block (``step`` advanced).
     out : dict of ndarray [step, cell]
-        Keys and units in :data:`OUTPUT_UNITS`; values at the end of each step.
+        Keys and units in :data:`OUTPUT_UNITS`; values at the end of each step (the two
+        water fluxes: amounts over the step).
     """
     _check_clock(model, clock)
     i0 = int(state.step)
@@ -352,28 +443,12 @@ def forcing_block(model, state, clock, n_steps=None):
     i1 = min(i0 + n, clock.n_steps)
     if i1 <= i0:
         raise ConfigError(f"forcing_block: step {i0} is at or past the clock's end ({clock.n_steps} steps)")
-    ls, dec, dist, h0, tau, p = _energy_inputs(model, clock, i0, i1)
-    est, eo = energy_block(model.energy, state.energy, dec, dist, h0, tau, p)
-    ts = eo["surface_temperature"]
-    t_salt = eo["probe_temperature"]
-    e_air = np.ascontiguousarray(VAPOUR_SOURCES[model.options.vapour](model, ls, p), dtype=float)
-    fr = frost_exchange(e_air, ts, state.water_frost, model.dt_s,
-                        model.options.transfer_velocity_m_s, model.options.layer_thickness_m)
-    vp = fr.surface_vapor_pressure_pa
-    rh = relative_humidity(vp, t_salt)
-    cold = t_salt <= TRIPLE_POINT_T
-    rh_ice = np.where(cold, relative_humidity_ice(vp, np.where(cold, t_salt, TRIPLE_POINT_T)), rh)
-    out = {
-        "surface_temperature": ts,
-        "salt_temperature": t_salt,
-        "vapor_pressure": vp,
-        "relative_humidity": rh,
-        "relative_humidity_ice": rh_ice,
-        "surface_pressure": p,
-        "water_frost": fr.frost_kg_m2,
-        "co2_frost": eo["co2_frost"],
-    }
-    return ForcingState(est, fr.final_frost_kg_m2, i1), out
+    col, out = _advance(model, state, clock, i0, i1)
+    rh, rh_ice, rha = _humidities(out)
+    out["relative_humidity"] = rh
+    out["relative_humidity_ice"] = rh_ice
+    out["air_relative_humidity_ice"] = rha
+    return ForcingState(col, i1), {k: out[k] for k in OUTPUT_UNITS}
 
 
 def iter_forcing(model, state, clock, block_steps=None):
@@ -393,51 +468,67 @@ def iter_forcing(model, state, clock, block_steps=None):
 
 @dataclass(frozen=True)
 class SpinUp:
-    """Result of :func:`spin_up`: ``state`` at the clock's start, ``years`` run,
-    ``converged``, and ``changes`` [K] (largest change of the daily min/mean/max
-    surface temperature from the previous year, one per year after the first)."""
+    """Result of :func:`spin_up`.
+
+    ``state`` at the clock's start; ``years`` run (the most any cell needed); ``converged``
+    (every cell); ``changes`` [K] (largest change over cells of the daily min/mean/max surface
+    temperature from the previous year, one per year after the first); ``cell_years`` and
+    ``cell_converged`` per cell."""
 
     state: ForcingState
     years: int
     converged: bool
     changes: tuple
+    cell_years: np.ndarray = None
+    cell_converged: np.ndarray = None
 
 
-def _year_stats(model, estate, yclock, spd, block_sols, bottom_model):
-    """Run one year (energy only); return the state and per-sol min/mean/max, mean T."""
+def _year(model, cstate, yclock, block_sols):
+    """Run one year; per-sol min/mean/max surface temperature and mean surface vapour density,
+    and the annual means of the surface and bottom temperatures."""
+    spd = yclock.steps_per_sol
     n_sols = yclock.n_sols
-    stats = np.empty((3, n_sols, model.cells.n_cells))
-    ts_sum = np.zeros(model.cells.n_cells)
-    bot_sum = np.zeros(model.cells.n_cells)
+    nc = model.cells.n_cells
+    stats = np.empty((4, n_sols, nc))
+    ts_sum = np.zeros(nc)
+    bot_sum = np.zeros(nc)
+    n_blocks = 0
+    st = ForcingState(cstate, 0)
     for s0 in range(0, n_sols, block_sols):
         s1 = min(s0 + block_sols, n_sols)
-        _, dec, dist, h0, tau, p = _energy_inputs(model, yclock, s0 * spd, s1 * spd)
-        estate, eo = energy_block(bottom_model, estate, dec, dist, h0, tau, p)
-        ts = eo["surface_temperature"].reshape(s1 - s0, spd, -1)
+        col, out = _advance(model, st, yclock, s0 * spd, s1 * spd)
+        st = ForcingState(col, s1 * spd)
+        ts = out["surface_temperature"].reshape(s1 - s0, spd, -1)
         stats[0, s0:s1] = ts.min(axis=1)
-        # daily means over a contiguous last axis: the same summation order for any cell count
         stats[1, s0:s1] = np.ascontiguousarray(ts.transpose(0, 2, 1)).mean(axis=2)
         stats[2, s0:s1] = ts.max(axis=1)
+        # daily mean surface vapour density [g m-3] joins the periodicity test (1e-3 g m-3 ~
+        # 1 % of a typical value counts as 0.1 of the temperature tolerance's unit)
+        rv = (out["surface_vapor_pressure"] / (R_VAPOUR * out["surface_temperature"])).reshape(s1 - s0, spd, -1)
+        stats[3, s0:s1] = np.ascontiguousarray(rv.transpose(0, 2, 1)).mean(axis=2) * 1e5
         ts_sum += _per_cell_sum(ts.reshape(-1, ts.shape[-1]))
-        bot_sum += _per_cell_sum(eo["probe_temperature"])
-    n = n_sols * spd
-    return estate, stats, ts_sum / n, bot_sum / n
+        # the bottom node barely moves within a block: its value at each block's end samples
+        # its annual mean
+        bot_sum += col.temperature[-1]
+        n_blocks += 1
+    return st.column, stats, ts_sum / (n_sols * spd), bot_sum / n_blocks
 
 
 def spin_up(model, clock, state=None, *, tol_k=0.1, max_years=30, lead_sols=5,
             accelerate=True, block_sols=10):
-    """Repeat the year ending at the clock's start until the annual cycle is periodic.
+    """Repeat the year ending at the clock's start until each cell's annual cycle is periodic.
 
-    Method: (i) ``lead_sols`` repetitions of the first sol of that year settle
-    the diurnal layer; (ii) whole years (``round(year_sols)`` sols) are
-    repeated until the daily minimum, mean and maximum surface temperature of
-    every sol and cell change by less than ``tol_k`` from the previous year;
-    (iii) with ``accelerate``, after each year the whole profile is shifted so
-    that the annual-mean bottom temperature matches the periodic-state value
-    ``<T_s> + F_geo sum(dz / k)`` (in a periodic state with constant
-    conductivities the annual-mean profile is exactly linear with that
-    gradient: common practice), removing the slow deep transient.  Water
-    frost starts at zero.
+    Method: (i) ``lead_sols`` repetitions of the first sol of that year settle the diurnal
+    layer; (ii) whole years (``round(year_sols)`` sols) are repeated until, for a cell, the
+    daily minimum, mean and maximum surface temperature of every sol change by less than
+    ``tol_k`` from the previous year, and its daily-mean surface vapour density by less than
+    ``tol_k`` x 1e-5 kg m-3 per kelvin of tolerance (1e-6 kg m-3 at the default 0.1 K: a few
+    per cent of typical night values); that cell's state is kept from then on, so a cell's
+    result never depends on the other cells of its chunk; (iii) with ``accelerate``, after
+    each year the whole temperature profile is shifted so that the annual-mean bottom
+    temperature matches the periodic-state value ``<T_s> + F_geo sum(dz / k)`` (in a periodic
+    state with constant conductivities the annual-mean profile is exactly linear with that
+    gradient: common practice), removing the slow deep transient.
 
     Parameters
     ----------
@@ -451,7 +542,7 @@ def spin_up(model, clock, state=None, *, tol_k=0.1, max_years=30, lead_sols=5,
     lead_sols : int, >= 0
     accelerate : bool
     block_sols : int
-        Sols per kernel call (memory ~ 24 bytes x steps x cells per call).
+        Sols per kernel call (memory ~ 150 bytes x steps x cells per call).
 
     Returns
     -------
@@ -469,31 +560,50 @@ def spin_up(model, clock, state=None, *, tol_k=0.1, max_years=30, lead_sols=5,
                         start_jd_tt=float(clock.jd_tt[0]) - n_year * model.planet.sol_s / 86400.0,
                         align_to_midnight=False)
     cols = model.energy.columns
-    idx, w = probe_weights(cols, cols.depth[-1])
-    bottom_model = dataclasses.replace(model.energy, probe_index=idx, probe_weight=w)
     geo_offset = model.options.geothermal_flux * np.sum(1.0 / cols.conductance[:-1], axis=0)
-    estate = state.energy.copy()
+    cs = state.column.copy()
     for _ in range(lead_sols):
-        _, dec, dist, h0, tau, p = _energy_inputs(model, yclock, 0, spd)
-        estate, _ = energy_block(model.energy, estate, dec, dist, h0, tau, p)
+        cs, _ = _advance(model, ForcingState(cs, 0), yclock, 0, spd)
+    nc = model.cells.n_cells
     prev = None
     changes = []
-    converged = False
+    done = np.zeros(nc, dtype=bool)
+    cell_years = np.zeros(nc, dtype=int)
+    kept = None
     years = 0
     for years in range(1, max_years + 1):
-        estate, stats, ts_mean, bot_mean = _year_stats(model, estate, yclock, spd, block_sols,
-                                                       bottom_model)
+        cs, stats, ts_mean, bot_mean = _year(model, cs, yclock, block_sols)
+        cell_years[~done] = years
         if prev is not None:
-            changes.append(float(np.max(np.abs(stats - prev))))
-            if changes[-1] < tol_k:
-                converged = True
+            d = np.abs(stats - prev)
+            per_cell = np.maximum(d[:3].max(axis=(0, 1)), d[3].max(axis=0) * 0.1)
+            changes.append(float(per_cell[~done].max()) if np.any(~done) else 0.0)
+            now = (per_cell < tol_k) & ~done
+            if np.any(now):
+                kept = _keep(kept, cs, now)
+                done |= now
+            if done.all():
                 break
         prev = stats
         if accelerate:
-            shift = ts_mean + geo_offset - bot_mean
-            estate = EnergyState(estate.temperature + shift[None, :], estate.co2_frost)
-    return SpinUp(ForcingState(estate, np.zeros(model.cells.n_cells), 0), years, converged,
-                  tuple(changes))
+            shift = np.where(done, 0.0, ts_mean + geo_offset - bot_mean)
+            cs = dataclasses.replace(cs, temperature=cs.temperature + shift[None, :])
+    final = _keep(kept, cs, ~done) if kept is not None else cs
+    return SpinUp(ForcingState(final, 0), int(cell_years.max()), bool(done.all()), tuple(changes),
+                  cell_years, done)
+
+
+def _keep(kept, cs, mask):
+    """Copy the cells ``mask`` of column state ``cs`` into ``kept`` (a new state)."""
+    if kept is None:
+        kept = cs.copy()
+    fields = {}
+    for f in dataclasses.fields(cs):
+        a = np.array(getattr(kept, f.name), copy=True)
+        b = getattr(cs, f.name)
+        a[..., mask] = b[..., mask]
+        fields[f.name] = a
+    return ColumnState(**fields)
 
 
 def run_forcing(cells, clock, options=ForcingOptions(), *, spin=True, tol_k=0.1, max_years=30,
@@ -522,3 +632,4 @@ def run_forcing(cells, clock, options=ForcingOptions(), *, spin=True, tol_k=0.1,
     info = {"spinup_years": su.years if su else 0, "spinup_converged": su.converged if su else False,
             "spinup_changes": su.changes if su else (), "final_state": state}
     return res, info
+

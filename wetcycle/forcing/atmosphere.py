@@ -1,0 +1,115 @@
+"""The atmosphere above a site: its infrared emission, its temperature, the near-surface air.
+
+wetcycle's column has no resolved atmosphere.  Two temperatures stand for it,
+each carried per cell from step to step (:mod:`wetcycle.forcing.column`):
+
+* ``T_atm`` -- the atmosphere as one grey layer (the one-layer grey
+  atmosphere of planetary-climate textbooks, e.g. Pierrehumbert, R. T.
+  (2010), Principles of Planetary Climate, Cambridge, sec. 4.3), heat capacity
+  ``c_p p_s / g``, infrared emissivity ``eps_a``.  It absorbs ``eps_a`` of the
+  ground's thermal emission and the sunlight the dust absorbs, exchanges heat
+  with the near-surface air, and emits ``eps_a sigma T_atm**4`` up and down:
+
+      C dT_atm/dt = eps_a eps_s sigma T_s**4 + A_dust + Q_air - 2 eps_a sigma T_atm**4
+
+  (backward Euler, emission linearised about the old value).  It cannot fall
+  below the CO2 frost point at the surface pressure: colder air would
+  condense (snowfall), releasing latent heat.  There is no horizontal heat
+  transport, which in the polar night keeps the real atmosphere warmer than
+  this floor (a stated limitation).
+* ``T_a`` -- the air at the sensor height, a layer of thermal depth ``h_a``
+  heated by the sensible heat flux from the ground
+  (:mod:`wetcycle.forcing.surface_layer`) and relaxing with time scale
+  ``tau_a`` towards the background temperature just above the ground,
+  ``T_ref = T_atm + G z_m`` (lapse rate G carried down from the column's
+  pressure-median height ``z_m = ln 2 H``):
+
+      rho c_p h_a dT_a/dt = H + rho c_p h_a (T_ref - T_a) / tau_a
+
+  solved implicitly together with the ground's energy balance.  ``h_a`` and
+  ``tau_a`` stand for what a one-node air layer cannot resolve (radiative
+  cooling of the air, mixing with the layers above); they are fitted by the
+  project to published lander air temperatures at 1.6 m (``data/air_fit.toml``
+  lists the points, sources and residuals; ``scripts/fit_air.py`` refits).
+
+Downwelling infrared at the ground: ``L = eps_a sigma T_atm**4`` (times the
+sky-view fraction of a slope).  Infrared emissivity of the dusty CO2
+atmosphere, effective-emissivity form with the dust in parallel to the
+15-um CO2 band (common practice):
+
+    eps_a = 1 - (1 - eps_CO2) exp(-D tau_IR),   eps_CO2 = eps_0 (p / 610 Pa)**0.5,
+
+``D = 1.66`` (diffusivity factor, common practice), ``tau_IR = r tau_vis``
+with ``r = 0.25`` (:data:`DUST_IR_TO_VISIBLE`: broadband infrared absorption per
+visible extinction), and a clear CO2 column
+emissivity ``eps_0 = 0.17`` at 610 Pa with square-root pressure scaling
+(order of magnitude of the 15-um band of a 6-8 hPa CO2 column, from memory;
+a setting).  Dust absorbs the fraction ``1 - omega`` of the sunlight it
+removes from the direct beam; ``omega = 0.9`` (a band-averaged single
+scattering albedo of Mars dust, from memory; a setting).
+
+Validity: surface pressure 10-2e5 Pa, optical depth 0-10, temperatures
+100-400 K.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..errors import ConfigError
+
+#: Specific heat of CO2 at constant pressure near 210 K [J kg-1 K-1] (from memory; NIST
+#: tables give ~0.73-0.79 kJ kg-1 K-1 from 200 to 250 K).
+CP_AIR_MARS = 735.0
+#: Diffusivity factor for hemispheric infrared fluxes (common practice).
+DIFFUSIVITY_FACTOR = 1.66
+#: Broadband thermal-infrared *absorption* optical depth of dust per unit visible extinction
+#: optical depth: 0.25 = a broadband infrared/visible extinction ratio of ~0.45 times an infrared
+#: co-albedo of ~0.5 (both from memory), below the 9-um band-peak values (extinction ratio
+#: 1 / (2.0 +- 0.2), Lemmon et al. 2004, Science 306, 1753, read; absorption-only 1 / 2.6 used by
+#: orbital dust climatologies, from memory).  Emission goes with absorption.  A setting.
+DUST_IR_TO_VISIBLE = 0.25
+#: Clear-sky CO2 infrared emissivity of the whole column at 610 Pa (from memory; a setting).
+CO2_EMISSIVITY_610PA = 0.17
+#: Band-averaged single-scattering albedo of Mars dust in sunlight (from memory; a setting).
+DUST_SINGLE_SCATTERING_ALBEDO = 0.9
+
+
+def column_ir_emissivity(tau_visible, pressure_pa, co2_emissivity_610=CO2_EMISSIVITY_610PA,
+                         ir_ratio=DUST_IR_TO_VISIBLE):
+    """Infrared emissivity of the dusty CO2 column (see the module notes) [-].
+
+    Parameters
+    ----------
+    tau_visible : array [-], 0-10      visible dust optical depth
+    pressure_pa : array [Pa], 10-2e5   surface pressure
+    co2_emissivity_610 : float [-], 0-1
+    ir_ratio : float [-], 0-2
+
+    Returns
+    -------
+    ndarray [-], in [0, 1)
+
+    Examples
+    --------
+    >>> round(float(column_ir_emissivity(0.0, 610.0)), 3)
+    0.17
+    >>> round(float(column_ir_emissivity(0.5, 610.0)), 3)   # 1 - 0.83 exp(-0.415)
+    0.452
+    """
+    tau = np.asarray(tau_visible, dtype=float)
+    p = np.asarray(pressure_pa, dtype=float)
+    if not 0.0 <= co2_emissivity_610 < 1.0:
+        raise ConfigError(f"co2_emissivity: {co2_emissivity_610!r} not allowed; allowed 0 to <1")
+    if not 0.0 <= ir_ratio <= 2.0:
+        raise ConfigError(f"dust_ir_ratio: {ir_ratio!r} not allowed; allowed 0 to 2")
+    e_co2 = np.minimum(co2_emissivity_610 * np.sqrt(p / 610.0), 0.99)
+    return 1.0 - (1.0 - e_co2) * np.exp(-DIFFUSIVITY_FACTOR * ir_ratio * tau)
+
+
+def background_offset_k(lapse_rate_k_m, scale_height_m):
+    """``T_ref - T_atm = G ln(2) H`` [K]: lapse rate carried down from the column's
+    pressure-median height."""
+    return lapse_rate_k_m * math.log(2.0) * scale_height_m
