@@ -58,18 +58,33 @@ SCHEMA = {
         "heat_capacity": (NUM, 800.0, 100.0, 5000.0, "J kg-1 K-1"),
         "ice_table_depth": (NUM, None, 0.0, 10.0, "m; ice-cemented second layer below this depth"),
         "ice_table_thermal_inertia": (NUM, 2000.0, 10.0, 5000.0, "J m-2 K-1 s-1/2"),
+        "porosity": (NUM, 0.35, 0.01, 0.9, "regolith porosity"),
     },
     "forcing": {
         "kind": (str, "energy_balance", None, None, " | ".join(FORCING_KINDS)),
-        # energy balance
-        "dust_optical_depth": (NUM, 0.3, 0.0, 10.0, ""),
-        "vapour": (str, "vmr", None, None, "vmr | column"),
-        "vapour_mixing_ratio": (NUM, 1.5e-4, 0.0, 0.1, "mol mol-1"),
-        "confinement": (NUM, 1.0, 0.01, 100.0, "near-surface / column-mean mixing ratio"),
-        "reference_pressure": (NUM, None, 1.0, 2e5, "Pa at zero elevation"),
-        "seasonal_pressure_cycle": (bool, True, None, None, ""),
+        # energy balance (Mars): atmosphere, water supply, surface layer, regolith water
+        "dust_optical_depth": (NUM, None, 0.0, 10.0, "constant optical depth at the site; default: the seasonal curve"),
+        "water_column": (str, None, None, None, "CSV/NetCDF table of column water on Ls x latitude[ x longitude], "
+                                                "relative to the scenario; default: the shipped climatology"),
+        "water_column_variable": (str, None, None, None, "variable of a NetCDF water_column table"),
+        "vapour_mixing_ratio": (NUM, None, 0.0, 0.1, "constant free-atmosphere volume mixing ratio instead of a "
+                                                      "column table, mol mol-1"),
+        "seasonal_pressure_cycle": (bool, True, None, None, "the landers' seasonal pressure cycle"),
+        "pressure_scale_height": (NUM, 10500.0, 1000.0, 50000.0, "m, carries the lander pressure to the site"),
         "layers": (int, None, 8, 200, "regolith layers"),
         "co2_frost": (bool, True, None, None, ""),
+        "frost_albedo": (NUM, 0.5, 0.0, 1.0, "CO2 frost albedo"),
+        "frost_emissivity": (NUM, 0.8, 0.5, 1.0, "CO2 frost emissivity"),
+        "co2_emissivity": (NUM, 0.17, 0.0, 0.99, "clear CO2 column infrared emissivity at 610 Pa"),
+        "dust_infrared_ratio": (NUM, 0.25, 0.0, 2.0, "dust infrared absorption / visible extinction"),
+        "lapse_rate": (NUM, 0.0025, 0.0005, 0.009, "K m-1, background atmosphere (water's vertical distribution)"),
+        "wind_speed": (NUM, 3.0, 0.1, 50.0, "m s-1 at the sensor height"),
+        "sensor_height": (NUM, 1.6, 0.5, 100.0, "m, height of the air temperature and humidity outputs"),
+        "roughness_length": (NUM, 0.01, 1e-5, 0.5, "m"),
+        "adsorption_constant": (NUM, 0.4, 1e-6, 1e6, "Pa-1, Langmuir constant at 200 K"),
+        "adsorption_heat": (NUM, 56000.0, 0.0, 150000.0, "J mol-1"),
+        "specific_surface_area": (NUM, 17000.0, 100.0, 1e6, "m2 kg-1 of regolith grains"),
+        "water_column_depth": (NUM, 0.3, 0.02, 5.0, "m, depth of the regolith water column"),
         # prescribed
         "temperature_mean": (NUM, None, 50.0, 400.0, "K"),
         "temperature_diurnal_amplitude": (NUM, 0.0, 0.0, 200.0, "K"),
@@ -102,6 +117,7 @@ SCHEMA = {
         "thermal_inertia": (NUM, 250.0, 10.0, 5000.0, "J m-2 K-1 s-1/2"),
         "emissivity": (NUM, 0.95, 0.5, 1.0, ""),
         "salt_depth": (NUM, 0.0, 0.0, 1.0, "m"),
+        "porosity": (NUM, 0.35, 0.01, 0.9, "regolith porosity"),
     },
     "salt": {
         "name": (str, REQUIRED, None, None, "a salt system, e.g. NaCl, Mg(ClO4)2"),
@@ -250,8 +266,11 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
         raise ConfigError(f"{source}: forcing.programme: required for forcing.kind = chamber")
     if fk == "file" and not f["path"]:
         raise ConfigError(f"{source}: forcing.path: required for forcing.kind = file")
-    if f["vapour"] not in ("vmr", "column"):
-        raise ConfigError(f"{source}: forcing.vapour: {f['vapour']!r} is not one of vmr, column")
+    if f["water_column"] is not None and f["vapour_mixing_ratio"] is not None:
+        raise ConfigError(f"{source}: forcing.water_column and forcing.vapour_mixing_ratio: give one or the "
+                          "other (or neither, for the shipped climatology)")
+    if f["water_column_variable"] is not None and f["water_column"] is None:
+        raise ConfigError(f"{source}: forcing.water_column_variable: given without forcing.water_column")
     if f["gap_policy"] not in ("refuse", "interpolate"):
         raise ConfigError(f"{source}: forcing.gap_policy: {f['gap_policy']!r} is not one of refuse, interpolate")
     raw_clock = doc.get("clock", {})
@@ -282,7 +301,7 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
                     text=text, base_dir=Path(base_dir), source=source)
 
 
-GRID_PROPERTIES = ("elevation", "albedo", "thermal_inertia", "emissivity", "salt_depth")
+GRID_PROPERTIES = ("elevation", "albedo", "thermal_inertia", "emissivity", "salt_depth", "porosity")
 
 
 def _property_maps(grid, lats, lons, base_dir, source):

@@ -89,7 +89,8 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
         habitability_min_temperature_K=float(hab["min_temperature"]),
         spinup_years=int(src.info.get("spinup_years", 0)),
     )
-    for key in ("start_utc", "forcing_file", "forcing_file_sha256", "forcing_programme_text"):
+    for key in ("start_utc", "forcing_file", "forcing_file_sha256", "forcing_programme_text", "water_supply",
+                "water_supply_sha256", "dust_model", "pressure_model"):
         if src.info.get(key):
             ds.attrs[key] = str(src.info[key])
     return ds

@@ -23,6 +23,12 @@ from .water import saturation_vapor_pressure_ice, saturation_vapor_pressure_liqu
 
 FORCING_KEYS = ("surface_temperature", "salt_temperature", "vapor_pressure", "relative_humidity",
                 "relative_humidity_ice", "surface_pressure", "water_frost", "co2_frost")
+#: Outputs of the energy-balance forcing besides FORCING_KEYS (air at the sensor height, the
+#: surface skin, fluxes, supply): saved in site series; absent for given series.
+WATER_CYCLE_KEYS = ("air_temperature", "air_vapor_pressure", "air_relative_humidity_ice",
+                    "surface_vapor_pressure", "sensible_heat_flux", "downwelling_longwave",
+                    "surface_water_flux", "atmosphere_exchange", "dust_optical_depth",
+                    "free_vapor_pressure")
 PHASE_KEYS = ("phase_state", "brine_water_activity", "liquid_water", "hydrate_water", "ice_water",
               "liquid_fraction", "validity_flag")
 
@@ -110,10 +116,51 @@ def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None):
                          spd, blocks(), {"forcing": "series"})
 
 
+def energy_balance_options(sc):
+    """The forcing options and their description for an energy-balance scenario.
+
+    Returns ``(ForcingOptions, info)`` where ``info`` records, for the result's attributes,
+    which water supply, dust and pressure drove the run (with the sha256 of a table file).
+    """
+    import dataclasses
+
+    from .forcing import driver
+    from .forcing.dust import DustSeason
+    from .forcing.pressure import LanderPressureCycle
+    from .forcing.supply import constant_mixing_ratio_table, read_column_table
+    f = sc["forcing"]
+    if f["water_column"] is not None:
+        supply = read_column_table(sc.resolve(f["water_column"]), f["water_column_variable"])
+    elif f["vapour_mixing_ratio"] is not None:
+        supply = constant_mixing_ratio_table(f["vapour_mixing_ratio"])
+    else:
+        supply = None
+    dust = (DustSeason(f["dust_optical_depth"], scale_with_pressure=False) if f["dust_optical_depth"] is not None
+            else DustSeason())
+    base = driver.ForcingOptions()
+    water = dataclasses.replace(
+        base.water, wind_m_s=f["wind_speed"], sensor_height_m=f["sensor_height"],
+        roughness_m=f["roughness_length"], thermal_roughness_m=f["roughness_length"],
+        langmuir_k_ref_pa=f["adsorption_constant"], adsorption_heat_j_mol=f["adsorption_heat"],
+        vapour_depth_m=f["water_column_depth"])
+    opts = driver.ForcingOptions(
+        dust=dust, water_supply=supply,
+        pressure=LanderPressureCycle(f["pressure_scale_height"], seasonal=f["seasonal_pressure_cycle"]),
+        lapse_rate_k_m=f["lapse_rate"], co2_emissivity=f["co2_emissivity"],
+        dust_ir_ratio=f["dust_infrared_ratio"], specific_surface_area_m2_kg=f["specific_surface_area"],
+        water=water, n_layers=f["layers"], co2_frost=f["co2_frost"], frost_albedo=f["frost_albedo"],
+        frost_emissivity=f["frost_emissivity"])
+    from .forcing.supply import default_climatology
+    sup = supply if supply is not None else default_climatology()
+    info = {"water_supply": sup.name, "dust_model": dust.name,
+            "pressure_model": opts.pressure.name + ("" if f["seasonal_pressure_cycle"] else ", annual mean only")}
+    if sup.sha256:
+        info["water_supply_sha256"] = sup.sha256
+    return opts, info
+
+
 def _energy_source(sc, clock, planet, progress):
     from .forcing import driver
-    from .forcing.pressure import DEMO_CO2_CYCLE
-    f = sc["forcing"]
     g = _sites(sc)
     ice = [s["ice_table_depth"] for s in sc.sites]
     cells = driver.make_cells(
@@ -122,18 +169,15 @@ def _energy_source(sc, clock, planet, progress):
         slope_azimuth_deg=g("slope_azimuth"), salt_depth_m=g("salt_depth"), density=g("density"),
         heat_capacity=g("heat_capacity"),
         layer2_depth_m=np.array([np.inf if d is None else d for d in ice]),
-        layer2_inertia=g("ice_table_thermal_inertia"))
-    opts = driver.ForcingOptions(
-        tau=f["dust_optical_depth"], vapour=f["vapour"], vmr=f["vapour_mixing_ratio"],
-        confinement=f["confinement"], p_ref_pa=f["reference_pressure"],
-        pressure_cycle=DEMO_CO2_CYCLE if f["seasonal_pressure_cycle"] else None,
-        n_layers=f["layers"], co2_frost=f["co2_frost"])
+        layer2_inertia=g("ice_table_thermal_inertia"), porosity=g("porosity"))
+    opts, finfo = energy_balance_options(sc)
     model = driver.prepare_forcing(cells, clock, opts)
     c = sc["clock"]
-    info = {"forcing": "energy_balance", "spinup_years": 0, "spinup_converged": False}
+    info = {"forcing": "energy_balance", "spinup_years": 0, "spinup_converged": False, **finfo}
     if c["spinup_max_years"] > 0:
         if progress:
-            print(f"spin-up of the surface energy balance (up to {c['spinup_max_years']} years)...", flush=True)
+            print(f"spin-up of the surface energy balance and water (up to {c['spinup_max_years']} years)...",
+                  flush=True)
         su = driver.spin_up(model, clock, tol_k=c["spinup_tolerance_K"], max_years=c["spinup_max_years"])
         state = su.state
         info.update(spinup_years=su.years, spinup_converged=bool(su.converged))
@@ -144,8 +188,8 @@ def _energy_source(sc, clock, planet, progress):
     def blocks():
         for i0, _, out in driver.iter_forcing(model, state, clock):
             i1 = i0 + out["surface_temperature"].shape[0]
-            yield Block(i0, i1, {k: out[k] for k in FORCING_KEYS}, clock.ls_deg[i0:i1], ltst[i0:i1],
-                        np.full(i1 - i0, clock.dt_s))
+            yield Block(i0, i1, {k: out[k] for k in FORCING_KEYS + WATER_CYCLE_KEYS},
+                        clock.ls_deg[i0:i1], ltst[i0:i1], np.full(i1 - i0, clock.dt_s))
     years = clock.n_steps * clock.dt_s / (planet.year_sols * planet.sol_s)
     return ForcingSource(clock.n_steps, clock.time_s, clock.sol, clock.ls_deg, ltst, years,
                          clock.steps_per_sol, blocks(), info)
@@ -279,7 +323,15 @@ def run(scenario, *, write=True, progress=False, output_path=None):
     accs = [Accumulator.new(n_sites, sc["output"]["ls_bins"], hab["min_water_activity"], hab["min_temperature"])
             for _ in models]
     keep = sc["output"]["series"]
-    series = {k: [] for k in FORCING_KEYS} if keep else None
+    water_cycle = sc["forcing"]["kind"] == "energy_balance"
+    series_keys = FORCING_KEYS + (WATER_CYCLE_KEYS if water_cycle else ())
+    series = {k: [] for k in series_keys} if keep else None
+    # salts are alternatives drawing on the same vapour and frost (DESIGN decision 4): compare
+    # what each takes up with what the surface layer delivered, step by step
+    uptake = np.zeros((len(models), n_sites))
+    exceed = np.zeros((len(models), n_sites))
+    delivered = np.zeros(n_sites)
+    last_frost = np.zeros(n_sites)
     phase_series = [{k: [] for k in PHASE_KEYS} for _ in models] if keep else None
     states = [None] * len(models)
     bar = None
@@ -289,6 +341,11 @@ def run(scenario, *, write=True, progress=False, output_path=None):
     for blk in src.blocks:
         d = blk.data
         frost = d["water_frost"] if ph["frost_contact"] else np.zeros_like(d["water_frost"])
+        if water_cycle:
+            supply = np.maximum(d["surface_water_flux"], 0.0)
+            delivered += supply.sum(axis=0)
+            available = supply + np.concatenate([last_frost[None, :], frost[:-1]])
+            last_frost = frost[-1].copy()
         for j, (m, acc) in enumerate(zip(models, accs)):
             if states[j] is None:
                 states[j] = m.initial_state(n_sites, np.array([sc.salts[j]["loading"]] * n_sites),
@@ -297,6 +354,10 @@ def run(scenario, *, write=True, progress=False, output_path=None):
                        blk.dt_s)
             acc.add(r.liquid_fraction, r.phase, r.water_activity, d["salt_temperature"], blk.ls_deg, blk.ltst_h,
                     r.clamped, blk.dt_s)
+            if water_cycle:
+                gain = np.maximum(r.exchanged, 0.0)
+                uptake[j] += gain.sum(axis=0)
+                exceed[j] += np.sum(gain > available * (1.0 + 1e-9) + 1e-15, axis=0)
             if keep:
                 ps = phase_series[j]
                 ps["phase_state"].append(r.phase.astype(np.int8))
@@ -307,13 +368,18 @@ def run(scenario, *, write=True, progress=False, output_path=None):
                 ps["liquid_fraction"].append(r.liquid_fraction.astype(np.float32))
                 ps["validity_flag"].append(r.clamped.astype(np.int8))
         if keep:
-            for k in FORCING_KEYS:
+            for k in series_keys:
                 series[k].append(np.asarray(d[k], dtype=np.float32))
         if bar is not None:
             bar.update(blk.i1 - blk.i0)
     if bar is not None:
         bar.close()
     stats = [acc.finish(src.years) for acc in accs]
+    if water_cycle:
+        for j, st in enumerate(stats):
+            st["salt_water_uptake"] = uptake[j]
+            st["surface_water_delivered"] = delivered.copy()
+            st["uptake_exceeds_supply_steps"] = exceed[j]
     ds = output.build_dataset(sc, src, stats, series, phase_series)
     if write:
         output.write_result(ds, output_path or sc.output_path)

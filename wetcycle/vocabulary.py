@@ -25,6 +25,24 @@ VARIABLES = {
     "surface_pressure": ("Pa", "surface air pressure", "surface_air_pressure"),
     "water_frost": ("kg m-2", "surface water frost per unit area", None),
     "co2_frost": ("kg m-2", "surface CO2 frost per unit area", None),
+    "air_temperature": ("K", "air temperature at the sensor height", "air_temperature"),
+    "air_vapor_pressure": ("Pa", "partial pressure of water vapour at the sensor height",
+                           "water_vapor_partial_pressure_in_air"),
+    "air_relative_humidity_ice": ("1", "relative humidity with respect to ice at the sensor height", None),
+    "surface_vapor_pressure": ("Pa", "partial pressure of water vapour at the ground surface (pore air of the "
+                               "top regolith node; ice saturation over frost)", None),
+    "sensible_heat_flux": ("W m-2", "sensible heat flux from the ground to the air",
+                           "surface_upward_sensible_heat_flux"),
+    "downwelling_longwave": ("W m-2", "infrared flux from the atmosphere onto a horizontal surface",
+                             "surface_downwelling_longwave_flux_in_air"),
+    "surface_water_flux": ("kg m-2", "water vapour deposited on or taken into the ground during the step "
+                           "(negative: released)", None),
+    "atmosphere_exchange": ("kg m-2", "water gained by the near-surface air from the free atmosphere during the "
+                            "step (negative: returned)", None),
+    "dust_optical_depth": ("1", "visible dust optical depth at the site",
+                           "atmosphere_optical_thickness_due_to_dust_ambient_aerosol_particles"),
+    "free_vapor_pressure": ("Pa", "partial pressure of water vapour of the free atmosphere above the "
+                            "near-surface air, at surface pressure", None),
     # phase state
     "phase_state": ("1", "phase state of the salt", None),
     "brine_water_activity": ("1", "water activity of the brine (NaN without brine)", None),
@@ -49,6 +67,11 @@ VARIABLES = {
     "clamped_liquid_steps": ("1", "steps with liquid brine whose temperature lay outside the salt's validity range",
                              None),
     "molality_limit_steps": ("1", "steps in which a brine was crystallised at the model's molality limit", None),
+    "salt_water_uptake": ("kg m-2", "water taken up by the salt from vapour or frost over the run", None),
+    "surface_water_delivered": ("kg m-2", "water delivered to the ground by the surface layer over the run "
+                                "(deposition and uptake, gross)", None),
+    "uptake_exceeds_supply_steps": ("1", "steps in which the salt took up more water than the surface layer "
+                                    "delivered plus the frost present", None),
     "lower_limit_freezes": ("1", "supercooled brine frozen at the salt's lower validity limit, above its "
                             "supercooling limit", None),
 }
