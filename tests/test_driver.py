@@ -117,7 +117,8 @@ def test_spin_up_of_a_cell_does_not_depend_on_its_chunk_mates():
 
 def test_water_frost_holds_ice_saturation_at_the_surface():
     # Where water frost lies, the surface vapour pressure is p_ice(T_s) (Murphy & Koop 2005
-    # eq. 7), so a surface salt sees RH_ice = 1 (to the 1e-5 of the kernel's saturation table).
+    # eq. 7), so a surface salt sees RH_ice = 1 (to the accuracy of the kernel's saturation
+    # table, < 1e-4 at the coldest, tests/test_column.py).
     clock = make_clock("mars", steps_per_sol=24, n_sols=3, start_ls=300.0)
     cells = dr.make_cells([-75.0], [0.0])
     model = dr.prepare_forcing(cells, clock)
@@ -128,7 +129,7 @@ def test_water_frost_holds_ice_saturation_at_the_surface():
     _, out = dr.forcing_block(model, st, clock, 24)
     frosty = out["water_frost"][:, 0] > 0
     assert frosty.any() and out["water_frost"][0, 0] > 0.015
-    np.testing.assert_allclose(out["relative_humidity_ice"][frosty, 0], 1.0, rtol=2e-5)
+    np.testing.assert_allclose(out["relative_humidity_ice"][frosty, 0], 1.0, rtol=1e-4)
 
 
 def test_water_supply_choices_reach_the_air(setup):
