@@ -42,7 +42,7 @@ def main():
     clock = make_clock("mars", steps_per_sol=spd, n_sols=n_sols, start_ls=0.0, year=36)
     props = {k: [c[k] for c in CELLS.values()] for k in next(iter(CELLS.values()))}
     cells = dr.make_cells(**props)
-    out, info = dr.run_forcing(cells, clock, dr.ForcingOptions(tau=0.3), tol_k=0.1)
+    out, info = dr.run_forcing(cells, clock, dr.ForcingOptions(dust=0.3), tol_k=0.1)
     print(f"spin-up: {info['spinup_years']} years, converged={info['spinup_converged']}, "
           f"last change {info['spinup_changes'][-1]:.3f} K")
     ls = np.asarray(clock.ls_deg).reshape(n_sols, spd)[:, 0]

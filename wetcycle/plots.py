@@ -264,6 +264,9 @@ def result_figure(ds, *, sols=None, salts=None, site=0):
         ax_t.plot(x, sub["salt_temperature"].values, color="black", lw=1.4, label="salt")
         if "surface_temperature" in sub:
             ax_t.plot(x, sub["surface_temperature"].values, color="#D55E00", lw=1.1, ls="--", label="surface")
+        if "air_temperature" in sub:
+            ax_t.plot(x, sub["air_temperature"].values, color="#009E73", lw=1.0, ls=":",
+                      label="air at the sensor height")
         ax_t.set_ylabel("temperature [K]")
         _legend_right(ax_t, title="temperature", title_fontsize=8)
         # panel 2: humidity and the salts' deliquescence RH
