@@ -67,6 +67,7 @@ SCHEMA = {
         "water_column": (str, None, None, None, "CSV/NetCDF table of column water on Ls x latitude[ x longitude], "
                                                 "relative to the scenario; default: the shipped climatology"),
         "water_column_variable": (str, None, None, None, "variable of a NetCDF water_column table"),
+        "water_column_scale": (NUM, 1.0, 0.0, 10.0, "multiplies the water column table (sensitivity studies)"),
         "vapour_mixing_ratio": (NUM, None, 0.0, 0.1, "constant free-atmosphere volume mixing ratio instead of a "
                                                       "column table, mol mol-1"),
         "seasonal_pressure_cycle": (bool, True, None, None, "the landers' seasonal pressure cycle"),
@@ -81,7 +82,7 @@ SCHEMA = {
         "wind_speed": (NUM, 3.0, 0.1, 50.0, "m s-1 at the sensor height"),
         "sensor_height": (NUM, 1.6, 0.5, 100.0, "m, height of the air temperature and humidity outputs"),
         "roughness_length": (NUM, 0.01, 1e-5, 0.5, "m"),
-        "adsorption_constant": (NUM, 0.4, 1e-6, 1e6, "Pa-1, Langmuir constant at 200 K"),
+        "adsorption_constant": (NUM, 0.2, 1e-6, 1e6, "Pa-1, Langmuir constant at 200 K"),
         "adsorption_heat": (NUM, 56000.0, 0.0, 150000.0, "J mol-1"),
         "specific_surface_area": (NUM, 17000.0, 100.0, 1e6, "m2 kg-1 of regolith grains"),
         "water_column_depth": (NUM, 0.3, 0.02, 5.0, "m, depth of the regolith water column"),

@@ -129,12 +129,17 @@ def energy_balance_options(sc):
     from .forcing.pressure import LanderPressureCycle
     from .forcing.supply import constant_mixing_ratio_table, read_column_table
     f = sc["forcing"]
+    from .forcing.supply import default_climatology
     if f["water_column"] is not None:
         supply = read_column_table(sc.resolve(f["water_column"]), f["water_column_variable"])
     elif f["vapour_mixing_ratio"] is not None:
         supply = constant_mixing_ratio_table(f["vapour_mixing_ratio"])
     else:
-        supply = None
+        supply = default_climatology()
+    if f["vapour_mixing_ratio"] is not None and f["water_column_scale"] != 1.0:
+        raise ConfigError(f"{sc.source}: forcing.water_column_scale: applies to a column table, not to "
+                          "vapour_mixing_ratio")
+    supply = supply.scaled(f["water_column_scale"])
     dust = (DustSeason(f["dust_optical_depth"], scale_with_pressure=False) if f["dust_optical_depth"] is not None
             else DustSeason())
     base = driver.ForcingOptions()
@@ -150,8 +155,7 @@ def energy_balance_options(sc):
         dust_ir_ratio=f["dust_infrared_ratio"], specific_surface_area_m2_kg=f["specific_surface_area"],
         water=water, n_layers=f["layers"], co2_frost=f["co2_frost"], frost_albedo=f["frost_albedo"],
         frost_emissivity=f["frost_emissivity"])
-    from .forcing.supply import default_climatology
-    sup = supply if supply is not None else default_climatology()
+    sup = supply
     info = {"water_supply": sup.name, "dust_model": dust.name,
             "pressure_model": opts.pressure.name + ("" if f["seasonal_pressure_cycle"] else ", annual mean only")}
     if sup.sha256:

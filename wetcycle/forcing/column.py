@@ -554,9 +554,37 @@ class ColumnState:
 
 @dataclass(frozen=True)
 class WaterSettings:
-    """Settings of the near-surface air and the regolith water (SI units; see the modules).
+    """Settings of the near-surface air and the regolith water (SI units), with their sources.
 
-    Defaults and their sources are in :data:`wetcycle.forcing.driver.ForcingOptions`.
+    * ``wind_m_s`` 3 m s-1 at the sensor height: Viking Lander 1's mean of its first 20 sols,
+      2.4 m s-1, and "a few m s-1" at both landers (Hess et al. 1976, 1977, read).
+    * ``roughness_m`` 1 cm, likely ~1 cm at Viking Lander 2 (Tillman et al. 1994, read);
+      ``thermal_roughness_m`` equal (common practice).
+    * ``sensor_height_m`` 1.6 m: the Viking and Curiosity sensors.
+    * ``air_layer_m`` 50 m, ``air_relaxation_s`` 2 h (ground warmer than the air) and
+      ``air_relaxation_night_s`` 30 h: the one-node air layer, fitted by this project to
+      published 1.6-m air temperature ranges at Gale, Viking 1 and 2 and Phoenix (rms ~7 K;
+      ``scripts/validate_mars.py`` shows each).
+    * ``day_layer_m`` 4 km: Gale's well-mixed daytime layer (Savijarvi et al. 2015, read; 4-6 km
+      over low terrain, Hinson et al. 2008, read); ``night_layer_m`` 200 m: the depleted night
+      layer at Phoenix (Savijarvi et al. 2020, read).
+    * ``growth_time_s`` 3 h (the day layer reached by late morning), ``mixing_time_s`` 1 h
+      (convective turnover of the day layer) and ``stable_mixing_time_s`` 10 sols (slow exchange
+      of a stable layer with the air above): order-of-magnitude choices of this project.
+    * ``dust_omega`` 0.9, ``cp_air``: see :mod:`~wetcycle.forcing.atmosphere`.
+    * ``tortuosity`` 2 (1.5-3 measured in Mars soil simulants, Hudson et al. 2007, from memory),
+      ``pore_radius_m`` 5 um (fine-grained regolith, from memory); together with porosity 0.35
+      they give 1.3 cm2 s-1, within the 1.74 +- 0.70 measured for JSC Mars-1 (Chevrier et al.
+      2007, read).
+    * ``langmuir_k_ref_pa`` 0.2 Pa-1 at ``langmuir_t_ref_k`` 200 K: tuned by this project so that
+      Gale's night relative humidity and Phoenix's night vapour and frost onset match (see the
+      README comparison); ``adsorption_heat_j_mol`` 56 kJ mol-1 from a Langmuir fit to Phoenix
+      humidity data (Conner, Farris & Chevrier 2015, LPSC, read).  The coverage the pair
+      implies (~0.25 % at 200 K and 0.05 Pa) is below that fit's 15 %: the two are not reconciled.
+    * ``vapour_depth_m`` 0.3 m: several times the depth adsorbed water exchanges with the air
+      over a year (~5 cm for an effective diffusivity of ~3e-11 m2 s-1, Chevrier et al. 2007
+      range, read).
+    The remaining fields are set by :func:`wetcycle.forcing.driver.prepare_forcing`.
     """
 
     wind_m_s: float = 3.0
@@ -579,7 +607,7 @@ class WaterSettings:
     cp_air: float = CP_AIR_MARS
     tortuosity: float = 2.0
     pore_radius_m: float = 5e-6
-    langmuir_k_ref_pa: float = 0.4
+    langmuir_k_ref_pa: float = 0.2
     langmuir_t_ref_k: float = 200.0
     adsorption_heat_j_mol: float = 56000.0
     vapour_depth_m: float = 0.3

@@ -147,6 +147,17 @@ class WaterColumnTable:
                  + (w[:, j1, k0] * (1 - fo) + w[:, j1, k1] * fo) * fa)
         return a[i0] * (1 - fl)[:, None] + a[i1] * fl[:, None]
 
+    def scaled(self, factor):
+        """The same table with every column multiplied by ``factor`` (0-10), e.g. 0.7 for the
+        smaller polar-summer columns of later instruments; the name records the factor."""
+        f = float(factor)
+        if not (np.isfinite(f) and 0.0 <= f <= 10.0):
+            raise ConfigError(f"forcing.water_column_scale: {factor!r} not allowed; allowed 0 to 10")
+        if f == 1.0 or self.vmr is not None:
+            return self
+        return WaterColumnTable(self.ls_deg, self.latitude_deg, self.longitude_deg, self.column_kg_m2 * f,
+                                f"{self.name} x {f:g}", self.sha256)
+
     def describe(self):
         """One line for a result's attributes: name and file hash."""
         return self.name + (f" (sha256 {self.sha256})" if self.sha256 else "")
@@ -314,14 +325,25 @@ def read_column_table(path, variable=None):
     return _read_csv(path)
 
 
-def default_climatology():
-    """The shipped default column climatology (zonal mean by Ls; see its file for sources)."""
+#: Factor applied to the shipped (TES-based) table by default: 0.7, the ratio of the polar-summer
+#: maxima of later instruments (SPICAM 60-70 pr-um, Trokhimovskiy et al. 2015; CRISM 60 over
+#: ice-free ground, Khayat et al. 2019; both read) to TES's ~100 (Smith 2002, read).  It also
+#: brings the table's 59 pr-um at Phoenix (68 N, Ls 100) to within 40 % of the ~30 measured
+#: there (Savijarvi et al. 2020, read).
+DEFAULT_CLIMATOLOGY_SCALE = 0.7
+
+
+def default_climatology(scale=DEFAULT_CLIMATOLOGY_SCALE):
+    """The shipped default column climatology (zonal mean by Ls; see its file for sources),
+    times ``scale`` (default :data:`DEFAULT_CLIMATOLOGY_SCALE`; 1 gives the TES-based table)."""
     ref = resources.files("wetcycle.forcing") / "data" / DEFAULT_CLIMATOLOGY_FILE
     with resources.as_file(ref) as path:
         t = _read_csv(path)
-    return WaterColumnTable(t.ls_deg, t.latitude_deg, None, t.column_kg_m2,
-                            f"wetcycle default climatology ({DEFAULT_CLIMATOLOGY_FILE}; zonal means "
-                            "reconstructed from memory of spacecraft retrievals, see the file)", t.sha256)
+    name = (f"wetcycle default climatology ({DEFAULT_CLIMATOLOGY_FILE}: zonal means reconstructed from "
+            "memory of the TES retrievals, see the file)")
+    if scale != 1.0:
+        name += f" x {scale:g} (later instruments' polar-summer columns)"
+    return WaterColumnTable(t.ls_deg, t.latitude_deg, None, t.column_kg_m2 * float(scale), name, t.sha256)
 
 
 def constant_mixing_ratio_table(vmr):
