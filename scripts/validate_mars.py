@@ -256,11 +256,12 @@ def figure(landers, caps_points, summary, transect, path):
     a.plot(lt[o], landers["surface_temperature"].isel(site=0).values[m][o], label="ground (model)")
     a.plot(lt[o], landers["air_temperature"].isel(site=0).values[m][o], label="air at 1.6 m (model)")
     a.axhspan(197, 268, color="0.85", zorder=0, label="air range observed (Savijarvi 2015)")
-    a.set(xlabel="local true solar time [h]", ylabel="temperature [K]", title=f"Gale, Ls {ls[m][0]:.0f}")
+    a.set(xlabel="local true solar time [h]", ylabel="temperature [K]",
+          title=f"Gale, Ls {ls[m][0]:.0f} (blue band: RH observed by sunrise)")
     a2 = a.twinx()
     a2.plot(lt[o], 100 * landers["air_relative_humidity_ice"].isel(site=0).values[m][o], "k:", label="RH ice at 1.6 m")
     a2.axhspan(45, 49, color="tab:blue", alpha=0.2)
-    a2.set_ylabel("relative humidity w.r.t. ice [%] (dotted; band: observed by sunrise)")
+    a2.set_ylabel("RH w.r.t. ice at 1.6 m [%] (dotted)")
     a.legend(fontsize=7, loc="upper left")
     # (b) Phoenix vapour, Ls ~105
     s1 = int(sol[np.argmin(np.abs(ls - 105.0))])
@@ -276,12 +277,13 @@ def figure(landers, caps_points, summary, transect, path):
     b.legend(fontsize=7)
     # (c) caps: end of the CO2 frost season against latitude
     c = ax[1, 0]
+    spring = lambda ls, lat: _ls_diff(ls, 180.0 if lat < 0 else 0.0)    # Ls since the local spring equinox
     for lat, start, end in caps_points:
-        c.plot(abs(lat), (end - (180 if lat < 0 else 0)) % 360, "o", color="tab:red" if lat < 0 else "tab:blue")
+        c.plot(abs(lat) + (0.6 if lat < 0 else -0.6), spring(end, lat), "o", color="tab:red" if lat < 0 else "tab:blue")
     for lat, e in CAP_END.items():
-        c.plot(abs(lat), (e - (180 if lat < 0 else 0)) % 360, "x", color="k")
-    c.set(xlabel="|latitude| [deg]", ylabel="Ls at the end of CO2 frost, days into local spring [deg Ls]",
-          title="Seasonal CO2 frost: model (dots; blue N, red S) vs observed (x)")
+        c.plot(abs(lat) + (0.6 if lat < 0 else -0.6), spring(e, lat), "x", color="k")
+    c.set(xlabel="|latitude| [deg]", ylabel="deg Ls after the local spring equinox",
+          title="End of the CO2 frost: model (blue N, red S), observed (x)")
     # (d) transect
     d = ax[1, 1]
     lat = transect["latitude"].values
