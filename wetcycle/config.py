@@ -20,6 +20,12 @@ from .phase.model import TIME_LAWS, time_law
 from .stats import HABITABILITY_DEFAULTS
 
 FORCING_KINDS = ("energy_balance", "prescribed", "chamber", "file")
+#: [forcing] fields that only the energy-balance forcing uses (refused with the other kinds)
+ENERGY_BALANCE_FIELDS = ("dust_optical_depth", "water_column", "water_column_variable", "water_column_scale",
+                         "vapour_mixing_ratio", "seasonal_pressure_cycle", "pressure_scale_height", "layers",
+                         "co2_frost", "frost_albedo", "frost_emissivity", "co2_emissivity", "dust_infrared_ratio",
+                         "lapse_rate", "wind_speed", "sensor_height", "roughness_length", "adsorption_constant",
+                         "adsorption_heat", "specific_surface_area", "water_column_depth")
 
 # field: (type, default, low, high, note)   default REQUIRED means the key must be given
 REQUIRED = object()
@@ -56,7 +62,7 @@ SCHEMA = {
         "salt_depth": (NUM, 0.0, 0.0, 1.0, "m below the surface"),
         "density": (NUM, 1500.0, 100.0, 5000.0, "kg m-3"),
         "heat_capacity": (NUM, 800.0, 100.0, 5000.0, "J kg-1 K-1"),
-        "ice_table_depth": (NUM, None, 0.0, 10.0, "m; ice-cemented second layer below this depth"),
+        "ice_table_depth": (NUM, None, 0.001, 10.0, "m; ice-cemented second layer below this depth"),
         "ice_table_thermal_inertia": (NUM, 2000.0, 10.0, 5000.0, "J m-2 K-1 s-1/2"),
         "porosity": (NUM, 0.35, 0.01, 0.9, "regolith porosity"),
     },
@@ -267,6 +273,12 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
         raise ConfigError(f"{source}: forcing.programme: required for forcing.kind = chamber")
     if fk == "file" and not f["path"]:
         raise ConfigError(f"{source}: forcing.path: required for forcing.kind = file")
+    raw_forcing = doc.get("forcing", {}) if isinstance(doc.get("forcing", {}), dict) else {}
+    if fk != "energy_balance":
+        ignored = [k for k in ENERGY_BALANCE_FIELDS if k in raw_forcing]
+        if ignored:
+            raise ConfigError(f"{source}: forcing.{ignored[0]}: applies to forcing.kind = energy_balance only "
+                              f"(this scenario's kind is {fk}); remove it")
     if f["water_column"] is not None and f["vapour_mixing_ratio"] is not None:
         raise ConfigError(f"{source}: forcing.water_column and forcing.vapour_mixing_ratio: give one or the "
                           "other (or neither, for the shipped climatology)")

@@ -25,6 +25,12 @@ from .vocabulary import attrs
 CAUTION = ("Model estimates with stated uncertainties, not evidence of liquid water or of life. "
            "Planetary-protection decisions belong to the official policy and its review bodies; "
            "the habitability thresholds used here are settings, not rulings.")
+#: What the humidity of an energy-balance (Mars) run rests on, added to its caution.
+WATER_CAUTION = ("On Mars the humidity the salts see rests on an atmospheric water column from a climatology "
+                 "reconstructed from memory of spacecraft retrievals (or the user's table; see water_supply), "
+                 "a one-node near-surface air layer and adsorption constants tuned to two landers' humidity "
+                 "records; salts are alternatives that may take up more water than the surface layer "
+                 "delivered (see uptake_exceeds_supply_steps).")
 
 STAT_DIMS = {"liquid_hours_by_ls": ("salt", "site", "ls_bin"),
              "liquid_hours_by_local_time": ("salt", "site", "hour_bin")}
@@ -79,7 +85,7 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
         scenario=sc.text or json.dumps(tables, default=str, indent=1),
         wetcycle_version=__version__,
         created=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"),
-        caution=CAUTION,
+        caution=CAUTION + (" " + WATER_CAUTION if sc["forcing"]["kind"] == "energy_balance" else ""),
         Conventions="CF-1.8",
         forcing=sc["forcing"]["kind"],
         law=sc["phase"]["law"],
@@ -93,6 +99,8 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
                 "water_supply_sha256", "dust_model", "pressure_model"):
         if src.info.get(key):
             ds.attrs[key] = str(src.info[key])
+    if src.info.get("forcing") == "energy_balance":
+        ds.attrs["spinup_converged"] = int(bool(src.info.get("spinup_converged")))
     return ds
 
 
@@ -233,4 +241,13 @@ def limit_notes(ds):
                     parts.append(f"{n} {text}")
         if parts:
             out.append(f"Model limits, {salt}: " + "; ".join(parts) + " (see validity_flag).")
+        if "uptake_exceeds_supply_steps" in ds:
+            n = int(np.nansum(ds["uptake_exceeds_supply_steps"].sel(salt=salt).values))
+            if n > 0:
+                up = float(np.nanmax(ds["salt_water_uptake"].sel(salt=salt).values))
+                dl = float(np.nanmax(ds["surface_water_delivered"].sel(salt=salt).values))
+                out.append(f"Water supply, {salt}: in {n} step(s) the salt took up more water than the surface "
+                           f"layer delivered plus the frost present (run totals up to {up:.3g} taken up against "
+                           f"{dl:.3g} kg m-2 delivered): salts are alternatives drawing on the same vapour, and "
+                           "their uptake is not fed back to it.")
     return out

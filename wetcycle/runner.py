@@ -15,7 +15,7 @@ import numpy as np
 from . import output
 from .clock import make_clock
 from .config import Scenario, load_scenario
-from .errors import ConfigError, ValidityError
+from .errors import ConfigError, ValidityError, WetcycleError
 from .phase import PhaseModel
 from .stats import Accumulator
 from .timescales import jd_tt_to_utc
@@ -175,7 +175,10 @@ def _energy_source(sc, clock, planet, progress):
         layer2_depth_m=np.array([np.inf if d is None else d for d in ice]),
         layer2_inertia=g("ice_table_thermal_inertia"), porosity=g("porosity"))
     opts, finfo = energy_balance_options(sc)
-    model = driver.prepare_forcing(cells, clock, opts)
+    try:
+        model = driver.prepare_forcing(cells, clock, opts)
+    except WetcycleError as exc:
+        raise type(exc)(f"{sc.source}: {exc}") from None
     c = sc["clock"]
     info = {"forcing": "energy_balance", "spinup_years": 0, "spinup_converged": False, **finfo}
     if c["spinup_max_years"] > 0:

@@ -580,7 +580,7 @@ class WaterSettings:
       Gale's night relative humidity and Phoenix's night vapour and frost onset match (see the
       README comparison); ``adsorption_heat_j_mol`` 56 kJ mol-1 from a Langmuir fit to Phoenix
       humidity data (Conner, Farris & Chevrier 2015, LPSC, read).  The coverage the pair
-      implies (~0.25 % at 200 K and 0.05 Pa) is below that fit's 15 %: the two are not reconciled.
+      implies (~1 % at 200 K and 0.05 Pa) is below that fit's 15 %: the two are not reconciled.
     * ``vapour_depth_m`` 0.3 m: several times the depth adsorbed water exchanges with the air
       over a year (~5 cm for an effective diffusivity of ~3e-11 m2 s-1, Chevrier et al. 2007
       range, read).
@@ -668,12 +668,12 @@ def prepare_column(energy_model, settings, porosity, *, gravity, molar_mass_air,
               ("adsorption_heat", s.adsorption_heat_j_mol, 0.0, 1.5e5), ("water_column_depth", s.vapour_depth_m, 0.01, 10.0))
     for name, v, lo, hi in checks:
         if not (np.isfinite(v) and lo <= v <= hi):
-            raise ConfigError(f"{name}: {v!r} not allowed; allowed {lo:g} to {hi:g}")
+            raise ConfigError(f"forcing.{name}: {v!r} not allowed; allowed {lo:g} to {hi:g}")
     if s.roughness_m >= s.sensor_height_m or s.thermal_roughness_m >= s.sensor_height_m:
-        raise ConfigError(f"roughness_length: {s.roughness_m!r} m must lie below the sensor height "
+        raise ConfigError(f"forcing.roughness_length: {s.roughness_m!r} m must lie below the sensor height "
                           f"{s.sensor_height_m!r} m")
     if s.night_layer_m > s.day_layer_m:
-        raise ConfigError(f"night_layer_depth: {s.night_layer_m!r} m must not exceed day_layer_depth "
+        raise ConfigError(f"forcing.night_layer_depth: {s.night_layer_m!r} m must not exceed day_layer_depth "
                           f"{s.day_layer_m!r} m")
     cols = energy_model.columns
     n = cols.n_cells
@@ -685,6 +685,8 @@ def prepare_column(energy_model, settings, porosity, *, gravity, molar_mass_air,
     # nodes are cut off (infinite distance: no flux), so a cell's numbers never depend on the
     # other cells of its chunk
     nvc = np.clip(np.sum(depth <= s.vapour_depth_m, axis=0) + 1, 3, cols.n_nodes)
+    # a salt below water_column_depth extends its cell's column two nodes past the salt
+    nvc = np.minimum(np.maximum(nvc, energy_model.probe_index + 3), cols.n_nodes)
     nv = int(nvc.max())
     dz = np.diff(depth, axis=0)
     cvol = np.empty((nv, n))
@@ -695,11 +697,6 @@ def prepare_column(energy_model, settings, porosity, *, gravity, molar_mass_air,
     nxt = np.full((nv, n), np.inf)
     for j in range(nv - 1):
         nxt[j] = np.where(j < nvc - 1, dz[j], np.inf)
-    bad = energy_model.probe_index + 1 > nvc - 1
-    if np.any(bad):
-        i = int(np.flatnonzero(bad)[0])
-        raise ValidityError(f"salt_depth: {float(depth[energy_model.probe_index[i], i]):.3g} m lies below the "
-                            f"regolith water column ({s.vapour_depth_m:g} m); raise forcing.water_column_depth")
     return ColumnModel(energy_model, s, phi, cap, nv, np.ascontiguousarray(cvol), np.ascontiguousarray(nxt),
                        float(gravity), float(R_GAS / molar_mass_air))
 

@@ -121,7 +121,11 @@ def make_cells(latitude_deg, longitude_deg, *, elevation_m=0.0, albedo=0.25,
     density, heat_capacity : array [kg m-3], [J kg-1 K-1]   top material (bulk)
     layer2_depth_m : array [m]                  top of a second material; inf for none
     layer2_inertia, layer2_density, layer2_heat_capacity : array
-        Second material (defaults: an invented ice-cemented soil).
+        Second material; defaults an ice-cemented soil: thermal inertia 2000 (ice-cemented
+        soils 1500-2500, e.g. Mellon et al. 2004, Icarus 169, 324; from memory), density
+        2000 kg m-3 and heat capacity 1000 J kg-1 K-1 (a 1500 kg m-3 soil with ~40 % of its
+        volume filled by ice; mass-weighted rock ~800 and ice ~1500 J kg-1 K-1 near 200 K;
+        derived here from values recalled from handbooks).
     porosity : array [-]                        regolith porosity, 0.01-0.9 (default 0.35:
         Gale's 35-40 %, Savijärvi et al. 2016, Icarus 265, 63, read as an abstract)
 

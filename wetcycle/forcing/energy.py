@@ -331,8 +331,9 @@ def prepare_energy(columns, dt, *, latitude_deg, longitude_deg, albedo, emissivi
     theta : float [-], 0.5 (Crank-Nicolson, default) to 1 (backward Euler).
     geothermal_flux : array [cell] [W m-2], 0-1.
     frost_albedo, frost_emissivity : array [cell] [-]
-        Radiative properties while CO2 frost covers the surface (invented
-        representative defaults 0.6 and 0.9).
+        Radiative properties while CO2 frost covers the surface (defaults of this
+        low-level function 0.6 and 0.9; the Mars driver passes its own, see
+        :class:`wetcycle.forcing.driver.ForcingOptions`).
     diffuse_fraction, ir_fraction : float [-]
         See :mod:`wetcycle.forcing.insolation`.
     co2_frost : bool

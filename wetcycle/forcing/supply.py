@@ -62,6 +62,9 @@ PRECIPITABLE_MICRON_KG_M2 = 1.0e-3
 R_GAS = 8.314462618
 #: Default lapse rate of the background atmosphere [K m-1] (Zurek et al. 1992, from memory).
 DEFAULT_LAPSE_RATE_K_M = 2.5e-3
+#: Largest column a table may hold [kg m-2]: 1000 pr-um, ten times the largest Mars column on
+#: record (~100 pr-um, Smith 2002): larger values are taken for a unit mix-up.
+MAX_COLUMN_KG_M2 = 1.0
 #: Name of the default climatology file (package data).
 DEFAULT_CLIMATOLOGY_FILE = "water_column_climatology.csv"
 
@@ -107,8 +110,8 @@ class WaterColumnTable:
         w = np.asarray(self.column_kg_m2, dtype=float)
         where = self.name
         if ls.ndim != 1 or ls.size < 1 or np.any(np.diff(ls) <= 0) or ls[0] < 0 or ls[-1] >= 360:
-            raise InputDataError(f"{where}: Ls values {ls.tolist()[:6]}... not allowed; allowed: "
-                                 "strictly increasing, 0 <= Ls < 360")
+            raise InputDataError(f"{where}: Ls values {ls.tolist()[:6]}... not allowed; allowed: each Ls once, "
+                                 "0 <= Ls < 360 (Ls 360 is Ls 0: give it once)")
         if lat.ndim != 1 or lat.size < 1 or np.any(np.diff(lat) <= 0) or lat[0] < -90 or lat[-1] > 90:
             raise InputDataError(f"{where}: latitudes {lat.tolist()[:6]}... not allowed; allowed: "
                                  "strictly increasing, -90 to 90")
@@ -123,10 +126,12 @@ class WaterColumnTable:
         if w.shape != shape:
             raise InputDataError(f"{where}: column values have shape {w.shape}; expected {shape} "
                                  "(Ls, latitude[, longitude])")
-        bad = ~(np.isfinite(w) & (w >= 0))
+        bad = ~(np.isfinite(w) & (w >= 0) & (w <= MAX_COLUMN_KG_M2))
         if np.any(bad):
-            raise InputDataError(f"{where}: column value {float(w[bad].flat[0])!r} not allowed; "
-                                 "allowed: finite, >= 0")
+            v = float(w[bad].flat[0])
+            raise InputDataError(f"{where}: column value {v / PRECIPITABLE_MICRON_KG_M2:g} pr-um ({v:g} kg m-2) not "
+                                 f"allowed; allowed: finite, 0 to {MAX_COLUMN_KG_M2 / PRECIPITABLE_MICRON_KG_M2:g} "
+                                 "pr-um (check the units: 1 pr-um = 1e-3 kg m-2)")
         object.__setattr__(self, "ls_deg", ls)
         object.__setattr__(self, "latitude_deg", lat)
         object.__setattr__(self, "column_kg_m2", w)
@@ -219,6 +224,16 @@ def _from_long_frame(df, where, sha):
         raise InputDataError(f"{where}: row {row + 1} has an empty or non-numeric value")
     if "longitude_deg" in cols:
         num["longitude_deg"] = np.mod(num["longitude_deg"], 360.0)
+    vcol = num[unit_cols[0]].to_numpy()
+    badv = ~np.isfinite(vcol) | (vcol < 0) | (vcol * scale > MAX_COLUMN_KG_M2)
+    if badv.any():
+        row = int(np.flatnonzero(badv)[0])
+        raise InputDataError(f"{where}: row {row + 1}: {unit_cols[0]} = {vcol[row]:g} not allowed; allowed 0 to "
+                             f"{MAX_COLUMN_KG_M2 / scale:g} (check the units)")
+    if "ls_deg" in cols and (num["ls_deg"] >= 360.0).any():
+        row = int(np.flatnonzero((num["ls_deg"] >= 360.0).to_numpy())[0])
+        raise InputDataError(f"{where}: row {row + 1}: ls_deg = {num['ls_deg'].iloc[row]:g} not allowed; allowed "
+                             "0 <= Ls < 360 (Ls 360 is Ls 0: give it once)")
     if num.duplicated(keys).any():
         row = int(np.flatnonzero(num.duplicated(keys).to_numpy())[0])
         raise InputDataError(f"{where}: row {row + 1} repeats an (Ls, latitude[, longitude]) point")
@@ -248,7 +263,8 @@ def _read_netcdf(path, variable):
     try:
         ds = xr.open_dataset(path, decode_times=False)
     except (OSError, ValueError) as exc:
-        raise InputDataError(f"{path}: could not be read as NetCDF ({exc})") from None
+        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise InputDataError(f"{path}: could not be read as NetCDF ({first[:120]})") from None
     with ds:
         if variable is None:
             raise ConfigError(f"forcing.water_column_variable: required for a NetCDF table ({path.name}); "
@@ -281,7 +297,10 @@ def _read_netcdf(path, variable):
                 raise InputDataError(f"{path.name}: dimension {d!r} has no coordinate values")
             axes[d] = np.asarray(v[d].values, dtype=float)
         vals = np.asarray(v.values, dtype=float) * _COLUMN_UNITS[units]
-        ls = np.mod(axes[dls], 360.0)
+        if np.any(axes[dls] >= 360.0) or np.any(axes[dls] < 0.0):
+            raise InputDataError(f"{path.name}: {dls} values must lie in 0 <= Ls < 360 (Ls 360 is Ls 0: give it "
+                                 "once)")
+        ls = axes[dls]
         lat = axes[dlat]
         perm = [np.argsort(ls), np.argsort(lat)]
         vals = vals[perm[0]][:, perm[1]]
@@ -349,8 +368,8 @@ def default_climatology(scale=DEFAULT_CLIMATOLOGY_SCALE):
 def constant_mixing_ratio_table(vmr):
     """A 'table' standing for a constant near-surface volume mixing ratio [mol mol-1].
 
-    Used by ``water_supply = "vmr"``: the free-atmosphere mixing ratio is held
-    at ``vmr`` (no column, no vertical distribution)."""
+    Used by the scenario field ``forcing.vapour_mixing_ratio``: the free-atmosphere mixing
+    ratio is held at ``vmr`` (no column, no vertical distribution)."""
     if not (np.isfinite(vmr) and 0 <= vmr <= 0.1):
         raise ConfigError(f"forcing.vapour_mixing_ratio: {vmr!r} not allowed; allowed 0 to 0.1 mol/mol")
     return WaterColumnTable(np.array([0.0]), np.array([0.0]), None, np.zeros((1, 1)),

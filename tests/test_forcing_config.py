@@ -1,0 +1,67 @@
+"""Scenario fields of the Mars forcing: choices, refusals and what results record.
+
+Checks of behaviour (common practice for input validation: one line naming the field, the value
+and what is allowed) and of the water-column table format; the physics is tested in
+test_column.py and test_supply.py."""
+
+import tomllib
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from wetcycle.config import scenario_from_dict
+from wetcycle.errors import ConfigError, InputDataError
+from wetcycle.runner import run
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "runs" / "demo.toml"
+
+
+def _doc(**forcing):
+    doc = tomllib.loads(DEMO.read_text())
+    doc["clock"].update(sols=2, spinup_max_years=0, steps_per_sol=24)
+    doc["clock"].pop("years", None)
+    doc["forcing"].update(forcing)
+    return doc
+
+
+def test_energy_balance_fields_are_refused_with_other_kinds():
+    doc = _doc(kind="prescribed", temperature_mean=220.0, vapor_pressure_mean=0.1, wind_speed=5.0)
+    with pytest.raises(ConfigError, match="forcing.wind_speed: applies to forcing.kind = energy_balance only"):
+        scenario_from_dict(doc, base_dir=DEMO.parent, source="t.toml")
+
+
+def test_supply_choices_are_exclusive_and_recorded(tmp_path):
+    with pytest.raises(ConfigError, match="give one or the other"):
+        scenario_from_dict(_doc(water_column="x.csv", vapour_mixing_ratio=1e-4), base_dir=DEMO.parent)
+    # an invented table of our own reaches the result's attributes with its hash
+    tab = tmp_path / "col.csv"
+    tab.write_text("ls_deg,latitude_deg,column_pr_um\n0,-90,5\n0,90,5\n180,-90,8\n180,90,8\n")
+    sc = scenario_from_dict(_doc(water_column=str(tab)), base_dir=tmp_path, source="t.toml")
+    ds = run(sc, write=False)
+    assert str(tab) in ds.attrs["water_supply"] and len(ds.attrs["water_supply_sha256"]) == 64
+    assert "climatology" in run(scenario_from_dict(_doc(), base_dir=DEMO.parent), write=False).attrs["water_supply"]
+
+
+def test_implausible_table_values_name_the_row(tmp_path):
+    tab = tmp_path / "col.csv"
+    tab.write_text("ls_deg,latitude_deg,column_kg_m2\n0,0,0.01\n180,0,10\n")     # 10 kg m-2: a unit slip
+    with pytest.raises(InputDataError, match="row 2: column_kg_m2 = 10 not allowed") as exc:
+        run(scenario_from_dict(_doc(water_column=str(tab)), base_dir=tmp_path, source="t.toml"), write=False)
+    assert "\n" not in str(exc.value)
+
+
+def test_ice_table_depth_zero_is_refused_by_the_schema():
+    doc = _doc()
+    doc["site"][0]["ice_table_depth"] = 0.0
+    with pytest.raises(ConfigError, match="ice_table_depth"):
+        scenario_from_dict(doc, base_dir=DEMO.parent)
+
+
+def test_a_salt_below_the_water_column_depth_still_runs():
+    # the column extends itself two nodes past a deep salt (instead of refusing a valid depth)
+    doc = _doc(water_column_depth=0.05)
+    doc["site"][0]["salt_depth"] = 0.2
+    ds = run(scenario_from_dict(doc, base_dir=DEMO.parent), write=False)
+    assert np.all(np.isfinite(ds["vapor_pressure"].values))
