@@ -92,7 +92,7 @@ def test_spin_up_reaches_a_periodic_state():
     # After spin-up, running the preceding year once more from the returned state changes the
     # daily min/mean/max surface temperature by less than the tolerance (definition of the
     # periodic state, common practice).
-    clock = make_clock("mars", steps_per_sol=12, n_sols=2, start_ls=0.0)
+    clock = make_clock("mars", steps_per_sol=32, n_sols=2, start_ls=0.0)
     cells = dr.make_cells([5.0, -70.0], [0.0, 90.0], thermal_inertia=[300.0, 150.0])
     model = dr.prepare_forcing(cells, clock, dr.ForcingOptions(annual_depths=3.0))
     su = dr.spin_up(model, clock, tol_k=0.2, max_years=12)
@@ -104,7 +104,7 @@ def test_spin_up_reaches_a_periodic_state():
 def test_spin_up_of_a_cell_does_not_depend_on_its_chunk_mates():
     # A cell's spun-up state is kept from the year it converged: running it alone or beside a
     # slower cell gives the same state, bit for bit (invariant).
-    clock = make_clock("mars", steps_per_sol=12, n_sols=2, start_ls=0.0)
+    clock = make_clock("mars", steps_per_sol=32, n_sols=2, start_ls=0.0)
     both = dr.make_cells([5.0, -75.0], [0.0, 90.0], thermal_inertia=[300.0, 120.0])
     one = dr.make_cells([5.0], [0.0], thermal_inertia=[300.0])
     sb = dr.spin_up(dr.prepare_forcing(both, clock), clock, tol_k=0.2, max_years=12)

@@ -65,3 +65,23 @@ def test_a_salt_below_the_water_column_depth_still_runs():
     doc["site"][0]["salt_depth"] = 0.2
     ds = run(scenario_from_dict(doc, base_dir=DEMO.parent), write=False)
     assert np.all(np.isfinite(ds["vapor_pressure"].values))
+
+
+def test_too_few_steps_for_the_surface_layer_are_refused_with_the_number_needed():
+    # Issue requirement: a step the energy balance cannot follow is refused, derived from the
+    # grid (Crank-Nicolson amplification of the surface node's fastest mode, Press et al. 2007
+    # sec. 20.2), not guessed.  At thermal inertia 250, 8 steps per sol put a 20 N surface into
+    # CO2 frost in northern summer (the humidity issue's measurement); 24 and more are fine.
+    doc = _doc()
+    doc["clock"]["steps_per_sol"] = 8
+    with pytest.raises(ConfigError, match=r"clock.steps_per_sol: 8 is too few .* at least 2\d steps per sol"):
+        run(scenario_from_dict(doc, base_dir=DEMO.parent, source="t.toml"), write=False)
+    # the bound is exactly where |A| = 0.9: just above it the amplification is within the bound
+    from wetcycle.clock import make_clock
+    from wetcycle.forcing import driver as dr
+    from wetcycle.forcing.energy import largest_time_step, surface_time_constant
+    cells = dr.make_cells([20.0], [0.0], thermal_inertia=250.0)
+    m = dr.prepare_forcing(cells, make_clock("mars", steps_per_sol=24, n_sols=1, start_ls=90.0))
+    tau = surface_time_constant(m.energy.columns, cells.emissivity)[0]
+    x = largest_time_step(m.energy.columns, cells.emissivity)[0] / tau
+    assert (1 - 0.5 * x) / (1 + 0.5 * x) == pytest.approx(-0.9, rel=1e-12)

@@ -45,7 +45,8 @@ from .atmosphere import CO2_EMISSIVITY_610PA, DUST_IR_TO_VISIBLE, column_ir_emis
 from .column import ColumnState, WaterSettings, column_block, prepare_column
 from .column import initial_state as column_initial_state
 from .dust import DustSeason
-from .energy import STEFAN_BOLTZMANN, co2_frost_point, prepare_energy
+from .energy import (STEFAN_BOLTZMANN, co2_frost_point, largest_time_step, prepare_energy,
+                     surface_time_constant)
 from .insolation import daily_mean_toa_insolation
 from .pressure import LanderPressureCycle
 from .regolith import build_columns
@@ -274,6 +275,15 @@ def prepare_forcing(cells, clock, options=ForcingOptions()):
         theta=options.theta, geothermal_flux=options.geothermal_flux,
         frost_albedo=options.frost_albedo, frost_emissivity=options.frost_emissivity,
         diffuse_fraction=options.diffuse_fraction, ir_fraction=1.0, co2_frost=options.co2_frost)
+    dt_max = largest_time_step(cols, cells.emissivity, options.theta)
+    if np.any(clock.dt_s > dt_max):
+        i = int(np.argmin(dt_max))
+        need = int(np.ceil(planet.sol_s / dt_max[i]))
+        raise ConfigError(
+            f"clock.steps_per_sol: {clock.steps_per_sol} is too few for the cell at latitude "
+            f"{cells.latitude_deg[i]:g} (thermal inertia {cells.thermal_inertia[i]:g}): its surface layer "
+            f"relaxes in {float(surface_time_constant(cols, cells.emissivity)[i]):.0f} s and a step of "
+            f"{clock.dt_s:.0f} s would make its temperature zig-zag; allowed: at least {need} steps per sol")
     capacity = cells.density * options.specific_surface_area_m2_kg * MONOLAYER_MASS_KG_M2
     supply = options.water_supply if options.water_supply is not None else default_climatology()
     eps = MOLAR_MASS_WATER / planet.molar_mass_air_kg_mol

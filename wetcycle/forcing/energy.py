@@ -64,6 +64,47 @@ NEWTON_TOL = 1e-7
 NEWTON_MAXIT = 30
 
 
+#: Largest magnitude of the Crank-Nicolson amplification factor of the surface node allowed for a
+#: time step (see :func:`largest_time_step`): oscillations must decay by at least 10 % a step.
+MAX_AMPLIFICATION = 0.9
+#: Surface temperature at which the radiative stiffness of the surface node is judged [K]
+#: (warm Mars ground; the node is stiffer the warmer it is).
+STIFFNESS_TEMPERATURE = 280.0
+
+
+def surface_time_constant(columns, emissivity, temperature=STIFFNESS_TEMPERATURE):
+    """Relaxation time of the surface node, ``H_0 / (G_0 + 4 eps sigma T**3)`` [s], per cell.
+
+    ``H_0`` is the node's areal heat capacity and ``G_0`` the conductance to the node below
+    (:class:`wetcycle.forcing.regolith.Columns`); the radiative term linearises the thermal
+    emission at ``temperature`` [K].  This is the fastest mode of the discretised surface
+    balance (a property of the grid, common practice in the analysis of implicit schemes).
+    """
+    eps = np.broadcast_to(np.asarray(emissivity, dtype=float), (columns.n_cells,))
+    return columns.node_capacity[0] / (columns.conductance[0] + 4.0 * eps * STEFAN_BOLTZMANN * temperature**3)
+
+
+def largest_time_step(columns, emissivity, theta=0.5, max_amplification=MAX_AMPLIFICATION):
+    """Largest step [s] per cell at which the theta scheme damps the surface node's fastest mode.
+
+    The theta method multiplies a mode of relaxation time ``tau`` by
+    ``A = (1 - (1 - theta) x) / (1 + theta x)``, ``x = dt / tau`` each step (e.g. Press et al.
+    2007, Numerical Recipes, sec. 20.2).  For Crank-Nicolson (theta = 0.5) ``A -> -1`` as
+    ``dt / tau`` grows: the surface temperature zig-zags from step to step instead of relaxing.
+    Requiring ``|A| <= max_amplification`` gives ``x <= (1 + A_max) / (theta - (1 - theta) A_max)``
+    for ``A < 0`` (always met for backward Euler, theta = 1).
+
+    Returns
+    -------
+    ndarray [s] per cell (inf when any step is allowed)
+    """
+    tau = surface_time_constant(columns, emissivity)
+    den = theta - (1.0 - theta) * max_amplification
+    if den <= 0.0:
+        return np.full(tau.shape, np.inf) if theta >= 1.0 else tau * 0.0
+    return tau * (1.0 + max_amplification) / den
+
+
 def co2_frost_point(pressure):
     """CO2 frost (condensation) temperature at a partial pressure of CO2.
 
