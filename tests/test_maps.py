@@ -77,7 +77,7 @@ def test_panels_and_colour_bar(grid):
     assert [ax.get_title(loc="left").splitlines()[0] for ax in panels] == list(SALTS)
     cbar = [ax for ax in fig.axes if ax.get_label() == "colour bar"][0]
     label = cbar.get_ylabel()
-    assert "hours per year with liquid brine" in label and "hour" in label
+    assert "hours per Mars year with liquid brine" in label and "[h per Mars year]" in label
     texts = [t.get_text() for t in fig.texts]
     assert any("grid-test" in t and "liquid_hours_per_year" in t for t in texts)       # title
     assert maps.CAVEAT in texts

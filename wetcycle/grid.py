@@ -35,8 +35,10 @@ import xarray as xr
 
 from . import __version__
 from .config import Scenario, grid_axes, load_scenario
+from .runner import run_period
 from .errors import ConfigError
-from .output import CAUTION, check_output_path, limit_notes, set_new_file_mode, write_result
+from .output import (CAUTION, add_crs, add_time_bounds, check_output_path, limit_notes,
+                     set_new_file_mode, time_attrs, write_result)
 from .vocabulary import attrs
 
 #: Spin-up tolerance used for grid chunks: effectively zero, so every chunk spins up
@@ -71,6 +73,8 @@ def run_chunk(sc, i0, i1):
     out = {}
     for name, v in ds.data_vars.items():
         dims = v.dims
+        if not {"salt", "site"} <= set(dims):
+            continue  # the grid mapping and the period's bounds: rebuilt by assemble
         arr = v.transpose("salt", "site", *[d for d in dims if d not in ("salt", "site")]).values
         out[name] = np.asarray(arr, dtype=float)
     out["_years"] = np.array(ds.attrs["years"])
@@ -223,16 +227,16 @@ def _close_dask(client, cluster):
 
 
 def assemble(sc, rdir, chunks):
-    """Gather finished chunks into a Dataset on (salt, lat, lon[, bin])."""
+    """Gather finished chunks into a Dataset on (salt, [bin,] lat, lon)."""
     lats, lons = grid_axes(sc["grid"])
     cell_ij = [tuple(int(x) for x in s["name"].split("_")[1:]) for s in sc.sites]
     parts = [dict(np.load(rdir / f"chunk_{k:05d}.npz")) for k, _, _ in chunks]
     names = [n for n in parts[0] if not n.startswith("_")]
-    salts = [s["name"] for s in sc.salts]
+    planet = sc["scenario"]["planet"]
     data = {}
     for name in names:
         trailing = parts[0][name].shape[2:]
-        arr = np.full((len(salts), lats.size, lons.size) + trailing, np.nan)
+        arr = np.full((len(sc.salts), lats.size, lons.size) + trailing, np.nan)
         for (k, i0, i1), part in zip(chunks, parts):
             for c, idx in enumerate(range(i0, i1)):
                 i, j = cell_ij[idx]
@@ -240,17 +244,14 @@ def assemble(sc, rdir, chunks):
         dims = ("salt", "lat", "lon") + {1: ("ls_bin",) if name == "liquid_hours_by_ls" else ("hour_bin",)}.get(
             len(trailing), ())
         # counts are stored as floats here (unlike a site result) so that masked cells can be NaN
-        data[name] = (dims, arr, attrs(name))
+        da = xr.DataArray(arr, dims=dims, attrs=attrs(name, planet=planet))
+        # CF-1.8 sec. 2.4: the horizontal axes come last
+        data[name] = da.transpose("salt", *dims[3:], "lat", "lon")
     n_ls = parts[0]["liquid_hours_by_ls"].shape[2]
-    coords = {
-        "salt": ("salt", np.array(salts, dtype=object)),
-        "lat": ("lat", lats, {"units": "degrees_north", "standard_name": "latitude", "long_name": "latitude"}),
-        "lon": ("lon", lons, {"units": "degrees_east", "standard_name": "longitude", "long_name": "longitude"}),
-        "ls_bin": ("ls_bin", (np.arange(n_ls) + 0.5) * 360.0 / n_ls,
-                   {"units": "degree", "long_name": "centre of the Ls bin"}),
-        "hour_bin": ("hour_bin", np.arange(24) + 0.5, {"units": "hour", "long_name": "centre of the local-time bin"}),
-    }
-    ds = xr.Dataset(data, coords=coords)
+    ds = xr.Dataset(data, coords=grid_coords(sc, n_ls))
+    t_end, first, info = run_period(sc)
+    ds = add_time_bounds(ds, [t_end], t_end + first, time_attrs(info))
+    ds = add_crs(ds, planet)
     hab = sc["habitability"]
     import datetime as _dt
     ds.attrs.update(
@@ -263,7 +264,30 @@ def assemble(sc, rdir, chunks):
         habitability_min_water_activity=float(hab["min_water_activity"]),
         habitability_min_temperature_K=float(hab["min_temperature"]),
     )
+    if info.get("start_utc"):
+        ds.attrs["start_utc"] = info["start_utc"]
     return ds
+
+
+def grid_coords(sc, n_ls):
+    """Coordinates of a gridded result: salt, lat and lon with CF cell bounds, the bins."""
+    import cf_xarray  # noqa: F401  (registers the .cf accessor)
+
+    planet = sc["scenario"]["planet"]
+    lats, lons = grid_axes(sc["grid"])
+    g = sc["grid"]
+    frame = xr.Dataset(coords={
+        "salt": ("salt", np.array([s["name"] for s in sc.salts], dtype=object), attrs("salt")),
+        "lat": ("lat", lats, attrs("lat")),
+        "lon": ("lon", lons, attrs("lon")),
+        "ls_bin": ("ls_bin", (np.arange(n_ls) + 0.5) * 360.0 / n_ls, attrs("ls_bin", planet=planet)),
+        "hour_bin": ("hour_bin", np.arange(24) + 0.5, attrs("hour_bin")),
+    })
+    # cell edges midway between centres (cf_xarray), latitudes clipped to the poles
+    frame = frame.cf.add_bounds(["lat", "lon"], output_dim="nv")
+    frame["lat_bounds"] = frame["lat_bounds"].clip(-90.0, 90.0)
+    frame = frame.set_coords(["lat_bounds", "lon_bounds"])
+    return frame.coords
 
 
 def grid_summary_text(ds):

@@ -26,6 +26,7 @@ import textwrap
 import numpy as np
 
 from .errors import ConfigError, InputDataError
+from .vocabulary import readable_units
 from .plots import CAVEAT, _check_path, _new_figure, _read_dataset, _salt_names, _save
 
 __all__ = ["plot_map", "map_figure", "MAP_COLORMAP", "MASKED_COLOUR"]
@@ -99,7 +100,7 @@ def _scale(values, stat, units):
     if finite.size == 0:
         return 0.0, 1.0
     vmin, vmax = float(finite.min()), float(finite.max())
-    if vmin >= 0.0 and (units in _COUNT_UNITS or stat in _COUNT_NAMES):
+    if vmin >= 0.0 and (units in _COUNT_UNITS or readable_units(units).startswith("h per") or stat in _COUNT_NAMES):
         vmin = 0.0
     if vmax <= vmin:
         vmax = vmin + (abs(vmin) * 0.05 if vmin else 1.0)
@@ -107,7 +108,7 @@ def _scale(values, stat, units):
 
 
 def _units_text(units):
-    return "–" if units in ("1", "") else units
+    return readable_units(units)
 
 
 def _layout(n, aspect):
@@ -177,7 +178,7 @@ def map_figure(ds, *, salts=None, stat="liquid_hours_per_year"):
         if k % ncols == 0:
             ax.set_ylabel("latitude [°N]")
         n_ok = int(np.isfinite(values[k]).sum())
-        note = (f"max {np.nanmax(values[k]):.3g}" + ("" if units in ("1", "") else f" {units}")
+        note = (f"max {np.nanmax(values[k]):.3g}" + ("" if units in ("1", "") else f" {_units_text(units)}")
                 if n_ok else "no modelled cell")
         if panel_w >= 3.5:
             ax.set_title(name, fontsize=10, fontweight="bold", loc="left")

@@ -12,6 +12,7 @@ from __future__ import annotations
 import datetime as _dt
 import json
 import os
+import sys
 import tempfile
 from pathlib import Path
 
@@ -20,7 +21,7 @@ import xarray as xr
 
 from . import __version__
 from .errors import ConfigError, InputDataError
-from .vocabulary import attrs
+from .vocabulary import CRS, attrs
 
 CAUTION = ("Model estimates with stated uncertainties, not evidence of liquid water or of life. "
            "Planetary-protection decisions belong to the official policy and its review bodies; "
@@ -38,45 +39,41 @@ STAT_DIMS = {"liquid_hours_by_ls": ("salt", "site", "ls_bin"),
 
 def build_dataset(sc, src, stats, series=None, phase_series=None):
     """Assemble the result of a run (see /DEVELOPERS.md "Result files" for the layout)."""
+    planet = sc["scenario"]["planet"]
+    att = lambda name: attrs(name, planet=planet)
     salts = [s["name"] for s in sc.salts]
     sites = [s["name"] for s in sc.sites]
     n_ls = stats[0]["liquid_hours_by_ls"].shape[0]
     coords = {
-        "site": ("site", np.array(sites, dtype=object)),
-        "salt": ("salt", np.array(salts, dtype=object)),
-        "latitude": ("site", np.array([s["latitude"] for s in sc.sites]), attrs("latitude")),
-        "longitude": ("site", np.array([s["longitude"] for s in sc.sites]), attrs("longitude")),
-        "ls_bin": ("ls_bin", (np.arange(n_ls) + 0.5) * 360.0 / n_ls,
-                   {"units": "degree", "long_name": "centre of the Ls bin"}),
-        "hour_bin": ("hour_bin", np.arange(24) + 0.5, {"units": "hour", "long_name": "centre of the local-time bin"}),
+        "site": ("site", np.array(sites, dtype=object), att("site")),
+        "salt": ("salt", np.array(salts, dtype=object), att("salt")),
+        "latitude": ("site", np.array([s["latitude"] for s in sc.sites]), att("latitude")),
+        "longitude": ("site", np.array([s["longitude"] for s in sc.sites]), att("longitude")),
+        "ls_bin": ("ls_bin", (np.arange(n_ls) + 0.5) * 360.0 / n_ls, att("ls_bin")),
+        "hour_bin": ("hour_bin", np.arange(24) + 0.5, att("hour_bin")),
     }
     data = {}
     for name in stats[0]:
         dims = STAT_DIMS.get(name, ("salt", "site"))
         arr = np.stack([st[name].T if name in STAT_DIMS else st[name] for st in stats])
-        data[name] = (dims, arr, attrs(name))
+        data[name] = (dims, arr, att(name))
+    t = np.asarray(src.time_s, dtype=float)
+    t_attrs = time_attrs(src.info)
     if series is not None:
-        t_attrs = attrs("time")
-        if src.info.get("start_utc"):
-            # CF-1.8 sec. 4.4: a time coordinate's units name its reference date
-            t_attrs.update(units=f"seconds since {src.info['start_utc']}", calendar="standard", axis="T")
-        else:
-            # no date (a chamber programme, or a start before 1972 with no UTC leap-second table):
-            # elapsed seconds, not a CF time coordinate
-            t_attrs.pop("standard_name", None)
-            if src.info.get("forcing") == "chamber":
-                t_attrs["long_name"] = "time since the start of the programme"
-        coords["time"] = ("time", np.asarray(src.time_s, dtype=float), t_attrs)
-        coords["sol"] = ("time", np.asarray(src.sol), attrs("sol"))
-        coords["solar_longitude"] = ("time", np.asarray(src.ls_deg, dtype=float), attrs("solar_longitude"))
+        coords["time"] = ("time", t, t_attrs)
+        coords["sol"] = ("time", np.asarray(src.sol), att("sol"))
+        coords["solar_longitude"] = ("time", np.asarray(src.ls_deg, dtype=float), att("solar_longitude"))
         coords["local_solar_time"] = (("site", "time"), np.asarray(src.ltst_h, dtype=float).T,
-                                      attrs("local_solar_time"))
+                                      att("local_solar_time"))
         for k, parts in series.items():
-            data[k] = (("site", "time"), np.concatenate(parts, axis=0).T, attrs(k))
+            data[k] = (("site", "time"), np.concatenate(parts, axis=0).T, att(k))
         for k in phase_series[0]:
             arr = np.stack([np.concatenate(ps[k], axis=0).T for ps in phase_series])
-            data[k] = (("salt", "site", "time"), arr, attrs(k))
+            data[k] = (("salt", "site", "time"), arr, att(k))
     ds = xr.Dataset(data, coords=coords)
+    step = float(t[1] - t[0]) if t.size > 1 else 0.0
+    ds = add_time_bounds(ds, t, step, t_attrs)
+    ds = add_crs(ds, planet)
     tables = dict(sc.tables, site=list(sc.sites), salt=list(sc.salts))
     hab = sc["habitability"]
     ds.attrs.update(
@@ -104,6 +101,55 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
     return ds
 
 
+def time_attrs(info):
+    """CF attributes of the time coordinate of a run described by ``info`` (its start date)."""
+    t_attrs = attrs("time")
+    if info.get("start_utc"):
+        # CF-1.8 sec. 4.4: a time coordinate's units name its reference date
+        t_attrs.update(units=f"seconds since {info['start_utc']}", calendar="standard")
+    else:
+        # no date (a chamber programme, a series of elapsed seconds): elapsed seconds, not a
+        # CF time coordinate
+        t_attrs.pop("standard_name", None)
+        t_attrs.pop("axis", None)
+        t_attrs["long_name"] = ("time since the start of the programme" if info.get("forcing") == "chamber"
+                                else "time since the start of the series")
+    return t_attrs
+
+
+def add_time_bounds(ds, t, first_step_s, t_attrs):
+    """Time bounds (CF-1.8 sec. 7.1) for a result whose samples ``t`` [s] end their steps.
+
+    Step k of the phase model ends at sample k and starts at sample k - 1 (the first step lasts
+    ``first_step_s``).  A result with a ``time`` dimension gets per-step bounds; every result gets
+    the scalar coordinate ``period`` (the end of the run) whose bounds are the whole simulated
+    period, the cell over which the statistics' ``cell_methods`` reduce.
+    """
+    t = np.asarray(t, dtype=float)
+    start = np.concatenate([[t[0] - first_step_s], t[:-1]])
+    if "time" in ds.dims:
+        ds = ds.assign_coords(time=("time", t, dict(t_attrs, bounds="time_bounds")))
+        ds = ds.assign_coords(time_bounds=(("time", "nv"), np.stack([start, t], axis=1)))
+    pa = dict(t_attrs, long_name=attrs("period")["long_name"], bounds="period_bounds")
+    pa.pop("axis", None)
+    ds = ds.assign_coords(period=((), t[-1], pa), period_bounds=(("nv",), np.array([start[0], t[-1]])))
+    return ds
+
+
+def add_crs(ds, planet):
+    """The grid-mapping variable ``crs`` (CF-1.8 sec. 5.6) of the planet's body-fixed frame.
+
+    Every variable on the horizontal dimensions (``site`` or ``lat``/``lon``) names it in
+    ``grid_mapping``.
+    """
+    ds = ds.assign(crs=((), np.int32(0), dict(CRS[planet], long_name=f"coordinate reference system ({planet})")))
+    horiz = {"site", "lat", "lon"}
+    for name, v in ds.data_vars.items():
+        if horiz & set(v.dims):
+            v.attrs["grid_mapping"] = "crs"
+    return ds
+
+
 def check_output_path(path, field="output"):
     """Refuse, before any computing, a result path that cannot be written.
 
@@ -128,14 +174,61 @@ def check_output_path(path, field="output"):
     return path
 
 
+def _history_line():
+    """One line of the CF ``history`` attribute: time, program and how it was called."""
+    now = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+    argv0 = Path(sys.argv[0]).name if sys.argv and sys.argv[0] else ""
+    how = " ".join(["wetcycle"] + sys.argv[1:]) if argv0 == "wetcycle" else "the Python API"
+    return f"{now}: written by wetcycle {__version__} ({how})"
+
+
+def cf_encoded(ds):
+    """``ds`` made ready for a CF-1.8 NetCDF file, and its encoding.
+
+    * Labels (``salt``, ``site``, ...) become character arrays (``char`` with a length dimension):
+      NC_STRING is not in the classic data model many readers and checkers expect.
+    * 64-bit integers become 32-bit (CF-1.8 sec. 2.2 lists no int64); booleans become bytes.
+    * ``flag_values`` / ``flag_masks`` take the type of their variable (CF-1.8 sec. 3.5).
+    * Coordinate and bounds variables get no ``_FillValue`` (CF-1.8 sec. 2.5.1).
+    * Floating-point data are compressed (zlib, level 4).
+    * A line is added to the ``history`` attribute (CF-1.8 sec. 2.6.2).
+    """
+    ds = ds.copy()
+    bounds = {v.attrs["bounds"] for v in ds.variables.values() if "bounds" in v.attrs}
+    enc = {}
+    for name in list(ds.variables):
+        v = ds[name].variable
+        e = {}
+        if v.dtype.kind in "OUS":
+            e.update(dtype="S1", char_dim_name=f"{name}_strlen")
+        elif v.dtype == np.bool_:
+            ds[name] = ds[name].astype(np.int8)
+        elif v.dtype.kind in "iu" and v.dtype.itemsize > 4:
+            vals = np.asarray(v.values)
+            if vals.size and (vals.max() > np.iinfo(np.int32).max or vals.min() < np.iinfo(np.int32).min):
+                ds[name] = ds[name].astype(np.float64)  # does not fit: kept exact as a double
+            else:
+                ds[name] = ds[name].astype(np.int32)
+        v = ds[name].variable
+        for key in ("flag_values", "flag_masks"):
+            if key in v.attrs:
+                v.attrs[key] = np.asarray(v.attrs[key], dtype=v.dtype)
+        if name in ds.coords or name in bounds:
+            e["_FillValue"] = None
+        elif v.dtype.kind == "f":
+            e.update(zlib=True, complevel=4)
+        if e:
+            enc[name] = e
+    hist = ds.attrs.get("history", "")
+    ds.attrs["history"] = (hist + "\n" if hist else "") + _history_line()
+    return ds, enc
+
+
 def write_result(ds, path):
-    """Write ``ds`` to NetCDF at ``path`` atomically (temporary file + rename)."""
+    """Write ``ds`` to NetCDF at ``path`` atomically (temporary file + rename), CF-encoded."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    enc = {}
-    for k, v in ds.data_vars.items():
-        if v.dtype.kind == "f":
-            enc[k] = {"zlib": True, "complevel": 4}
+    ds, enc = cf_encoded(ds)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     os.close(fd)
     try:
@@ -170,8 +263,8 @@ def open_result(path):
     if not path.is_file():
         raise InputDataError(f"result: {str(path)!r} is not a file")
     try:
-        # times stay seconds since the start (their units name the reference date)
-        ds = xr.open_dataset(path, engine="netcdf4", decode_times=False)
+        # decoded as xarray decodes any CF file: times with a reference date become dates
+        ds = xr.open_dataset(path, engine="netcdf4")
         ds.load()
         ds.close()
     except (OSError, ValueError) as exc:

@@ -275,6 +275,24 @@ def forcing_source(sc, progress=False):
     return src
 
 
+def run_period(sc):
+    """(end of the run [s after its start], length of its first step [s], info with ``start_utc``).
+
+    The period a scenario's statistics cover, without computing any forcing.
+    """
+    if sc["forcing"]["kind"] == "chamber":
+        src = _chamber_source(sc)
+        return float(src.time_s[-1]), float(sc["clock"]["step_s"]), {"forcing": "chamber"}
+    clock, _ = _clock(sc)
+    info = {"forcing": sc["forcing"]["kind"]}
+    try:
+        start = np.datetime_as_string(jd_tt_to_utc(clock.jd_tt[0])[0], unit="ms")
+        info["start_utc"] = start.replace("T", " ")
+    except ValidityError:
+        pass
+    return float(clock.time_s[-1]), float(clock.dt_s), info
+
+
 def _forcing_from_clock(sc, clock, planet, kind, progress):
     if kind == "energy_balance":
         return _energy_source(sc, clock, planet, progress)

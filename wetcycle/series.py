@@ -13,12 +13,57 @@ import numpy as np
 import xarray as xr
 
 from . import __version__
-from .errors import ConfigError
+from .errors import ConfigError, shown
 from .forcing.prescribed import RANGES
 from .phase import PhaseModel
+from .output import add_time_bounds, time_attrs
 from .vocabulary import attrs
 
 OPTIONS = ("loading_kg_m2", "surface_pressure_Pa", "frost_kg_m2", "layer_thickness_m", "diffusivity_factor")
+
+
+def elapsed_seconds(times, field="time"):
+    """Times as float seconds since the first, and the first as a UTC date text (or None).
+
+    Accepts seconds (any real numbers), ``numpy.datetime64`` (any resolution: read in its own
+    unit, never as a bare integer), pandas time stamps and cftime dates (model calendars: the
+    seconds between dates are counted in their own calendar).
+    """
+    import pandas as pd
+
+    if isinstance(times, (pd.Series, pd.Index)):
+        times = times.to_numpy()
+    arr = np.asarray(times)
+    if arr.dtype.kind == "M":
+        t = (arr - arr[0]) / np.timedelta64(1, "s") if arr.size else arr.astype(float)
+        first = np.datetime_as_string(arr[0].astype("datetime64[ms]"), unit="ms").replace("T", " ")
+        return np.asarray(t, dtype=float), first
+    if arr.dtype == object and arr.size and hasattr(arr.flat[0], "calendar"):
+        import cftime
+        d0 = arr.flat[0]
+        t = cftime.date2num(arr, f"seconds since {d0.strftime('%Y-%m-%d %H:%M:%S')}", calendar=d0.calendar)
+        if d0.calendar not in ("standard", "gregorian", "proleptic_gregorian"):
+            raise ConfigError(f"{field}: dates in the {d0.calendar!r} calendar; allowed: real-calendar dates or "
+                              "seconds (convert with xarray's convert_calendar)")
+        return np.asarray(t, dtype=float), d0.strftime("%Y-%m-%d %H:%M:%S")
+    try:
+        return np.asarray(arr, dtype=float), None
+    except (TypeError, ValueError):
+        raise ConfigError(f"{field}: {shown(arr.flat[0]) if arr.size else '[]'} is neither a number of seconds "
+                          "nor a date") from None
+
+
+def _non_negative(field, value, shape, strict=False):
+    a = np.asarray(value, dtype=float)
+    try:
+        a = np.broadcast_to(a, shape)
+    except ValueError:
+        raise ConfigError(f"{field}: shape {a.shape} does not match the series ({shape[0]} samples)") from None
+    bad = ~np.isfinite(a) | ((a <= 0) if strict else (a < 0))
+    if np.any(bad):
+        raise ConfigError(f"{field}: {shown(a[bad].flat[0])} is not allowed; allowed: a finite number "
+                          f"{'> 0' if strict else '>= 0'}")
+    return a
 
 
 def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibrium", **options):
@@ -28,7 +73,9 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibri
     ----------
     salt : str
         Salt-system name (``wetcycle.salts.names()``).
-    time_s : array [s], strictly increasing
+    time_s : array, strictly increasing
+        Seconds [s] since any origin, or dates (``numpy.datetime64``, pandas time stamps or
+        cftime dates): dates give the result a CF time coordinate from the first date.
     temperature_K : array [K], same length
     relative_humidity : array [-], w.r.t. liquid water, in [0, 1]
     law : {"equilibrium", "vapour_limited"}
@@ -57,7 +104,7 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibri
     unknown = set(options) - set(OPTIONS)
     if unknown:
         raise ConfigError(f"option: {sorted(unknown)[0]!r} is not known; allowed: {', '.join(OPTIONS)}")
-    t = np.asarray(time_s, dtype=float)
+    t, start = elapsed_seconds(time_s, "time_s")
     T = np.asarray(temperature_K, dtype=float)
     rh = np.asarray(relative_humidity, dtype=float)
     if t.ndim != 1 or t.size < 2:
@@ -76,8 +123,8 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibri
     if np.any((rh < 0) | (rh > 1)):
         raise ConfigError(f"relative_humidity: {float(rh[(rh < 0) | (rh > 1)][0])!r} is outside [0, 1] (a fraction, not %)")
     loading = options.get("loading_kg_m2", 0.01)
-    P = np.broadcast_to(np.asarray(options.get("surface_pressure_Pa", 600.0), dtype=float), t.shape)
-    frost = np.broadcast_to(np.asarray(options.get("frost_kg_m2", 0.0), dtype=float), t.shape)
+    P = _non_negative("surface_pressure_Pa", options.get("surface_pressure_Pa", 600.0), t.shape, strict=True)
+    frost = _non_negative("frost_kg_m2", options.get("frost_kg_m2", 0.0), t.shape)
     model = PhaseModel(salt, law=law, layer_thickness_m=options.get("layer_thickness_m", 0.01),
                        diffusivity_factor=options.get("diffusivity_factor", 1.0))
     state = model.initial_state(1, loading, T[0], rh[0])
@@ -96,7 +143,9 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibri
         "relative_humidity": rh,
         "surface_pressure": np.array(P),
     }
-    ds = xr.Dataset({k: ("time", v, attrs(k)) for k, v in data.items()}, coords={"time": ("time", t, attrs("time"))})
+    t_attrs = time_attrs({"start_utc": start} if start else {})
+    ds = xr.Dataset({k: ("time", v, attrs(k)) for k, v in data.items()}, coords={"time": ("time", t, t_attrs)})
+    ds = add_time_bounds(ds, t, 0.0, t_attrs)
     ds.attrs.update(title=f"wetcycle series run: {model.tables.name}", salt=model.tables.name, law=model.law,
                     loading_kg_m2=float(loading), wetcycle_version=__version__, Conventions="CF-1.8")
     return ds

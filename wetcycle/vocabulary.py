@@ -5,17 +5,25 @@ here.  Units follow UDUNITS; standard names are CF standard names where CF has
 one (CF Standard Name Table v84), otherwise omitted.
 """
 
+from .orbit import EARTH, MARS
 from .phase.states import FLAG_MEANINGS, FLAG_VALUES
 
 #: name -> (units, long_name, standard_name or None)
 VARIABLES = {
     # coordinates
     "time": ("s", "time since the start of the run", "time"),
+    "period": ("s", "period simulated, over which the statistics are taken", "time"),
     "sol": ("1", "sol number since the start of the run", None),
     "solar_longitude": ("degree", "areocentric solar longitude Ls", None),
     "local_solar_time": ("hour", "local true solar time", None),
     "latitude": ("degrees_north", "latitude", "latitude"),
     "longitude": ("degrees_east", "longitude", "longitude"),
+    "lat": ("degrees_north", "latitude of the cell centre", "latitude"),
+    "lon": ("degrees_east", "longitude of the cell centre", "longitude"),
+    "salt": (None, "salt system (formula of the anhydrous salt)", None),
+    "site": (None, "site name", None),
+    "ls_bin": ("degree", "centre of the bin of areocentric solar longitude Ls", None),
+    "hour_bin": ("hour", "centre of the bin of local true solar time", None),
     # forcing
     "surface_temperature": ("K", "surface temperature", "surface_temperature"),
     "salt_temperature": ("K", "temperature at the depth of the salt", None),
@@ -53,12 +61,14 @@ VARIABLES = {
     "water_exchanged": ("kg m-2", "water taken up from vapour or frost during the step (negative: lost)", None),
     "validity_flag": ("1", "model validity flags of the step (sum of bits; 0: none)", None),
     # statistics
-    "liquid_hours_per_year": ("hour", "hours per year with liquid brine", None),
+    # per-year statistics: units name the year (see :func:`per_year_units`)
+    "liquid_hours_per_year": ("h {year}-1", "hours per year with liquid brine", None),
     "longest_liquid_spell_hours": ("hour", "longest continuous spell with liquid brine", None),
-    "wet_events_per_year": ("1", "number of transitions from no liquid to liquid per year", None),
-    "habitable_hours_per_year": ("hour", "hours per year with brine meeting both habitability thresholds", None),
-    "liquid_hours_by_ls": ("hour", "hours per year with liquid brine, by Ls bin", None),
-    "liquid_hours_by_local_time": ("hour", "hours per year with liquid brine, by local-time bin", None),
+    "wet_events_per_year": ("{year}-1", "number of transitions from no liquid to liquid per year", None),
+    "habitable_hours_per_year": ("h {year}-1", "hours per year with brine meeting both habitability thresholds",
+                                 None),
+    "liquid_hours_by_ls": ("h {year}-1", "hours per year with liquid brine, by Ls bin", None),
+    "liquid_hours_by_local_time": ("h {year}-1", "hours per year with liquid brine, by local-time bin", None),
     "liquid_temperature_min": ("K", "lowest temperature of the liquid brine", None),
     "liquid_temperature_max": ("K", "highest temperature of the liquid brine", None),
     "liquid_water_activity_min": ("1", "lowest water activity of the liquid brine", None),
@@ -86,11 +96,109 @@ FLAGS = {
 }
 
 
-def attrs(name):
-    """CF attributes of a variable from the vocabulary."""
+#: CF axis of coordinate variables (CF-1.8 sec. 4).
+AXES = {"lat": "Y", "lon": "X", "time": "T"}
+
+#: CF cell_methods of the statistics (CF-1.8 sec. 7.3): each is a reduction over the simulated
+#: period, the scalar coordinate ``period`` whose bounds are the run's start and end.
+_SUM = "period: sum"
+CELL_METHODS = {
+    "liquid_hours_per_year": _SUM + " (divided by the number of years simulated)",
+    "habitable_hours_per_year": _SUM + " (divided by the number of years simulated)",
+    "wet_events_per_year": _SUM + " (divided by the number of years simulated)",
+    "liquid_hours_by_ls": _SUM + " (divided by the number of years simulated)",
+    "liquid_hours_by_local_time": _SUM + " (divided by the number of years simulated)",
+    "longest_liquid_spell_hours": "period: maximum",
+    "liquid_temperature_min": "period: minimum (over steps with liquid brine)",
+    "liquid_temperature_max": "period: maximum (over steps with liquid brine)",
+    "liquid_water_activity_min": "period: minimum (over steps with liquid brine)",
+    "liquid_water_activity_max": "period: maximum (over steps with liquid brine)",
+    "clamped_steps": _SUM, "clamped_liquid_steps": _SUM, "molality_limit_steps": _SUM,
+    "lower_limit_freezes": _SUM,
+}
+
+
+def per_year_units(planet_year_days):
+    """The UDUNITS spelling of "per year" for a year of ``planet_year_days`` days.
+
+    UDUNITS' own ``year`` is an Earth (tropical) year, so "hours per Mars year" is written as
+    hours per 686.9726 days: ``h (686.9726 d)-1``.  A unit-aware reader converts it correctly.
+    """
+    return f"({planet_year_days:.7g} d)"
+
+
+def readable_units(units):
+    """Units as a label for people: the UDUNITS per-year forms read "h per Mars year"."""
+    for planet, days in YEAR_DAYS.items():
+        year = per_year_units(days)
+        if units == f"h {year}-1":
+            return f"h per {planet.capitalize()} year"
+        if units == f"{year}-1":
+            return f"per {planet.capitalize()} year"
+    return "–" if units in ("1", "") else units
+
+
+def attrs(name, *, planet="mars"):
+    """CF attributes of a variable from the vocabulary.
+
+    ``planet`` ("mars" or "earth") names the year of per-year statistics, in the units
+    (:func:`per_year_units`) and the long name.
+    """
     units, long_name, std = VARIABLES[name]
-    out = {"units": units, "long_name": long_name}
+    out = {"long_name": long_name.replace("per year", f"per {planet.capitalize()} year")}
+    if units is not None:
+        out["units"] = units.replace("{year}", per_year_units(YEAR_DAYS[planet]))
     if std:
         out["standard_name"] = std
+    if name in AXES:
+        out["axis"] = AXES[name]
+    if name in CELL_METHODS:
+        out["cell_methods"] = CELL_METHODS[name]
     out.update(FLAGS.get(name, {}))
     return out
+
+
+#: Length of the year [d] by planet (:mod:`wetcycle.orbit`: Allison & McEwen 2000 for Mars).
+YEAR_DAYS = {"mars": MARS.year_days, "earth": EARTH.year_days}
+
+#: Coordinate reference systems of result files (CF-1.8 sec. 5.6, grid_mapping with crs_wkt).
+#: Mars: IAU 2015 Mars sphere, planetocentric latitude, east-positive longitude, radius the IAU
+#: equatorial radius 3396.19 km (Archinal et al. 2018, Celest. Mech. Dyn. Astron. 130:22,
+#: doi:10.1007/s10569-017-9805-5; IAU_2015:49900).  Earth: WGS 84 (EPSG:4326).
+CRS = {
+    "mars": {
+        "grid_mapping_name": "latitude_longitude",
+        "semi_major_axis": 3396190.0,
+        "semi_minor_axis": 3396190.0,
+        "inverse_flattening": 0.0,
+        "longitude_of_prime_meridian": 0.0,
+        "reference_ellipsoid_name": "Mars (2015) - Sphere",
+        "horizontal_datum_name": "Mars (2015) - Sphere",
+        "prime_meridian_name": "Reference Meridian",
+        "geographic_crs_name": "Mars (2015) - Sphere / Ocentric",
+        "crs_wkt": (
+            'GEOGCRS["Mars (2015) - Sphere / Ocentric",DATUM["Mars (2015) - Sphere",'
+            'ELLIPSOID["Mars (2015) - Sphere",3396190,0,LENGTHUNIT["metre",1]],'
+            'ANCHOR["Viking 1 lander: 47.95137 W"]],PRIMEM["Reference Meridian",0,'
+            'ANGLEUNIT["degree",0.0174532925199433]],CS[ellipsoidal,2],'
+            'AXIS["geodetic latitude (Lat)",north,ORDER[1],ANGLEUNIT["degree",0.0174532925199433]],'
+            'AXIS["geodetic longitude (Lon)",east,ORDER[2],ANGLEUNIT["degree",0.0174532925199433]],'
+            'ID["IAU",49900,2015]]'),
+    },
+    "earth": {
+        "grid_mapping_name": "latitude_longitude",
+        "semi_major_axis": 6378137.0,
+        "inverse_flattening": 298.257223563,
+        "longitude_of_prime_meridian": 0.0,
+        "reference_ellipsoid_name": "WGS 84",
+        "horizontal_datum_name": "World Geodetic System 1984",
+        "prime_meridian_name": "Greenwich",
+        "geographic_crs_name": "WGS 84",
+        "crs_wkt": (
+            'GEOGCRS["WGS 84",DATUM["World Geodetic System 1984",ELLIPSOID["WGS 84",6378137,'
+            '298.257223563,LENGTHUNIT["metre",1]]],PRIMEM["Greenwich",0,ANGLEUNIT["degree",'
+            '0.0174532925199433]],CS[ellipsoidal,2],AXIS["geodetic latitude (Lat)",north,ORDER[1],'
+            'ANGLEUNIT["degree",0.0174532925199433]],AXIS["geodetic longitude (Lon)",east,ORDER[2],'
+            'ANGLEUNIT["degree",0.0174532925199433]],ID["EPSG",4326]]'),
+    },
+}
