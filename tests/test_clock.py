@@ -36,12 +36,12 @@ def test_leap_second_2016():
         assert abs((back - np.datetime64(utc.rstrip("Z"), "ns")) / np.timedelta64(1, "us")) < 50
 
 
-def test_time_scales_refuse_dates_before_1972():
-    # The leap-second table starts 1972-01-01 (IERS); earlier civil times are refused, not guessed.
-    with pytest.raises(ValidityError, match="1972"):
-        utc_to_jd_tt("1971-12-31T23:00:00Z")
+def test_time_scales_refuse_dates_before_1960():
+    # UTC starts 1960-01-01 (ERFA's table; IERS); earlier civil times are refused, not guessed.
+    with pytest.raises(ValidityError, match="1960"):
+        utc_to_jd_tt("1959-12-31T23:00:00Z")
     with pytest.raises(ValidityError, match="jd_tt"):
-        jd_tt_to_utc(2441000.0)  # 1970
+        jd_tt_to_utc(2436000.0)  # 1957
     with pytest.raises(ValidityError, match="ISO-8601"):
         utc_to_jd_tt("31/01/2024")
 
@@ -128,10 +128,10 @@ def test_clock_series_equal_single_functions():
     assert e.year[0] == 2016 and e.year[-1] == 2017
 
 
-def test_earth_clock_before_1972_is_refused():
-    # Mean solar time needs UTC, defined here from 1972 on (IERS leap-second table).
+def test_earth_clock_before_1960_is_refused():
+    # Mean solar time needs UTC, defined from 1960 on (ERFA).
     with pytest.raises(ValidityError, match="jd_tt"):
-        make_clock("earth", steps_per_sol=4, n_sols=1, start_jd_tt=2440000.5)
+        make_clock("earth", steps_per_sol=4, n_sols=1, start_jd_tt=2436000.5)
 
 
 def test_clock_bad_arguments_are_one_line_config_errors():

@@ -195,7 +195,7 @@ def make_clock(planet="mars", *, steps_per_sol, n_sols=None, n_years=None,
         For a bad or inconsistent argument.
     ValidityError
         For a run outside the dates the geometry supports: Mars 1874-2127
-        (AM2000), Earth 1972-2100 (UTC leap-second table; Almanac Sun).
+        (AM2000), Earth 1960-2100 (UTC from ERFA; Almanac Sun).
 
     Examples
     --------

@@ -269,7 +269,7 @@ def forcing_source(sc, progress=False):
         start = np.datetime_as_string(jd_tt_to_utc(clock.jd_tt[0])[0], unit="ms")
         src.info["start_utc"] = start.replace("T", " ")
     except ValidityError:
-        pass  # before 1972 (no UTC leap-second table): times stay seconds since the start
+        pass  # before 1960 (no UTC): times stay seconds since the start
     if kind == "file":
         src.info.update(_file_record(sc.resolve(sc["forcing"]["path"])))
     return src
