@@ -210,3 +210,26 @@ def test_netcdf_calendar_and_length_refused(tmp_path):
         files.read_netcdf_forcing(_raw_series(tmp_path, "d.nc", "360_day"), earth_clock(steps=8), m)
     with pytest.raises(InputDataError, match=r"'tsurf' \(temperature\) has dimensions \{'t2': 4\}"):
         files.read_netcdf_forcing(_raw_series(tmp_path, "l.nc", "standard", n_T=4), earth_clock(steps=8), m)
+
+
+def test_csv_from_a_spreadsheet_with_byte_order_mark(tmp_path):
+    # Unicode 15.0 sec. 23.8: U+FEFF at the start of a UTF-8 file is a byte-order mark, not text;
+    # spreadsheets write it.  CRLF line ends (RFC 4180) and indented comment lines are read too.
+    p = tmp_path / "bom.csv"
+    p.write_bytes(b"\xef\xbb\xbf" + CSV_ISO.replace("\n", "\r\n").replace("# invented", "  # invented").encode())
+    f = files.read_csv_forcing(p, earth_clock(steps=4))
+    np.testing.assert_allclose(f.temperature_K, [250.0, 256.0, 268.0, 262.0])  # the file's own samples
+
+
+def test_csv_not_utf8_is_one_line(tmp_path):
+    p = tmp_path / "latin1.csv"
+    p.write_bytes("time_s,temp\u00e9rature_K\n0,1\n".encode("latin-1"))
+    with pytest.raises(InputDataError, match="is not UTF-8 text") as ei:
+        files.read_csv_forcing(p, earth_clock())
+    assert "\n" not in str(ei.value)
+
+
+def test_csv_rows_keep_their_line_numbers_past_comments(tmp_path):
+    text = CSV_ISO.replace("2024-12-10T12:00:00Z,268.0", "# a note\n\n2024-12-10T12:00:00Z,968.0")
+    with pytest.raises(InputDataError, match=r"row 3 \(line 7\), column 'temperature_K': 968.0"):
+        files.read_csv_forcing(write(tmp_path, text), earth_clock(steps=4))

@@ -49,7 +49,6 @@ error is one line naming the file, the column (variable) and the row (index).
 
 from __future__ import annotations
 
-import csv
 from pathlib import Path
 
 import numpy as np
@@ -219,8 +218,38 @@ def _check_quantities(src, qtys, what):
         raise InputDataError(f"{src}: give exactly one humidity {what} (vapour pressure or relative humidity)")
 
 
+def _line_table(raw):
+    """Physical lines of a CSV text (bytes), vectorised: data-line numbers and fields per line.
+
+    Returns (line numbers [1-based] of the data lines, the header first; field counts of those
+    lines; 0-based numbers of the comment lines).  A comment line begins with ``#`` after
+    optional blanks; blank lines are skipped; fields are separated by commas (no quoted commas).
+    """
+    b = np.frombuffer(raw, np.uint8)
+    nl = np.flatnonzero(b == 10)
+    starts = np.concatenate([[0], nl + 1])
+    ends = np.concatenate([nl, [b.size]])
+    if starts[-1] >= b.size:
+        starts, ends = starts[:-1], ends[:-1]
+    # the first non-blank character of each line: the line's first byte, except on the (rare)
+    # lines that start with a blank, which are looked at one by one
+    first = starts.copy()
+    lead = np.flatnonzero((starts < ends) & np.isin(b[np.minimum(starts, b.size - 1)], (9, 13, 32)))
+    for i in lead:
+        text = raw[starts[i]:ends[i]]
+        first[i] = starts[i] + len(text) - len(text.lstrip(b" \t\r")) if text.strip() else ends[i]
+    blank = first >= ends
+    comment = ~blank & (b[np.minimum(first, b.size - 1)] == ord("#"))
+    commas = np.bincount(np.searchsorted(starts, np.flatnonzero(b == 44), side="right") - 1,
+                         minlength=starts.size)
+    data = ~blank & ~comment
+    return np.flatnonzero(data) + 1, commas[data] + 1, np.flatnonzero(comment)
+
+
 def read_csv_forcing(path, clock, *, gap_policy="refuse", max_gap_s=None, ignore_columns=()):
     """Read a forcing series from a CSV file with a header row (conventions in the module notes).
+
+    Parsed by ``pandas.read_csv`` (C engine); a spreadsheet's byte-order mark is accepted.
 
     Parameters
     ----------
@@ -239,65 +268,80 @@ def read_csv_forcing(path, clock, *, gap_policy="refuse", max_gap_s=None, ignore
     InputDataError   one line naming the file, the row (with its line number) and the column.
     ConfigError      bad gap policy.
     """
+    import codecs
+    import io
+
     _check_policy(gap_policy, max_gap_s)
     path = Path(path)
     src = path.name
     try:
-        with open(path, newline="", encoding="utf-8") as fh:
-            lines = [(n, ln) for n, ln in enumerate(fh, start=1) if ln.strip() and not ln.lstrip().startswith("#")]
+        raw = path.read_bytes()
     except OSError as exc:
         raise InputDataError(f"{path}: cannot be read ({exc.strerror})") from None
+    raw = raw[len(codecs.BOM_UTF8):] if raw.startswith(codecs.BOM_UTF8) else raw
+    line_no, n_fields, comments = _line_table(raw)
+    if line_no.size == 0:
+        raise InputDataError(f"{src}: no header row")
+    header_line = int(line_no[0])
+
+    def label(i):
+        return f"row {i + 1} (line {line_no[i + 1]})"
+
+    bad = np.flatnonzero(n_fields[1:] != n_fields[0])
+    if bad.size:
+        i = int(bad[0])
+        raise InputDataError(f"{src}: {label(i)}: {n_fields[i + 1]} fields, the header has {n_fields[0]}")
+    try:
+        header = [h.strip() for h in raw.split(b"\n", header_line)[header_line - 1].decode().split(",")]
     except UnicodeDecodeError:
         raise InputDataError(f"{path}: is not UTF-8 text") from None
-    if not lines:
-        raise InputDataError(f"{src}: no header row")
-    rows = list(csv.reader([ln for _, ln in lines]))
-    header = [h.strip() for h in rows[0]]
-    line_no = [n for n, _ in lines[1:]]
     ignore = set(ignore_columns)
     cols, seen = {}, {}
-    for j, h in enumerate(header):
+    for h in header:
         if h in ignore:
             continue
         if h not in CSV_COLUMNS:
-            raise InputDataError(f"{src}: line {lines[0][0]}, column {h!r} is not known; allowed: "
+            raise InputDataError(f"{src}: line {header_line}, column {h!r} is not known; allowed: "
                                  f"{', '.join(CSV_COLUMNS)} (or pass ignore_columns)")
         qty = CSV_COLUMNS[h][0]
         if qty in seen:
             raise InputDataError(f"{src}: columns {seen[qty]!r} and {h!r} both give {qty}; allowed: one")
         seen[qty] = h
-        cols[h] = j
+        cols[h] = True
     if "time" not in seen:
         raise InputDataError(f"{src}: no time column; allowed: time_s, time_sol, time_utc")
     _check_quantities(src, seen, "column")
-
-    def label(i):
-        return f"row {i + 1} (line {line_no[i]})"
-
-    body = rows[1:]
-    lens = np.fromiter(map(len, body), dtype=np.int64, count=len(body))
-    short = np.flatnonzero(lens != len(header))
-    if short.size:
-        i = int(short[0])
-        raise InputDataError(f"{src}: {label(i)}: {lens[i]} fields, the header has {len(header)}")
-    table = np.array(body, dtype=object).reshape(len(body), len(header))
-    missing_tokens = np.array(sorted(_MISSING))
+    missing_tokens = sorted({t for m in _MISSING for t in (m, m.upper(), m.capitalize())})
+    try:
+        table = pd.read_csv(io.BytesIO(raw), skiprows=list(comments) or None, header=0, names=header,
+                            usecols=list(cols), skipinitialspace=True, na_values=missing_tokens,
+                            keep_default_na=False, dtype={"time_utc": str}, engine="c")
+    except UnicodeDecodeError:
+        raise InputDataError(f"{path}: is not UTF-8 text") from None
+    except (ValueError, pd.errors.ParserError) as exc:
+        raise InputDataError(f"{src}: not a readable CSV table ({str(exc).splitlines()[0]})") from None
     data = {}
-    for h, j in cols.items():  # vectorised per column (no loop over rows)
-        col = np.char.strip(table[:, j].astype(str))
-        missing = np.isin(np.char.lower(col), missing_tokens)
+    for h in cols:
+        col = table[h]
         if CSV_COLUMNS[h][1] == "utc":
+            missing = col.isna().to_numpy()
             if missing.any():
                 raise InputDataError(f"{src}: {label(int(np.flatnonzero(missing)[0]))}, column {h!r}: missing time")
-            data[h] = col
+            data[h] = col.str.strip().to_numpy(dtype=str)
             continue
-        vals = pd.to_numeric(pd.Series(np.where(missing, "nan", col)), errors="coerce").to_numpy(dtype=float)
-        bad = ~missing & ~np.isfinite(vals)
-        if bad.any():
-            i = int(np.flatnonzero(bad)[0])
-            what = "is not a finite number" if np.isinf(vals[i]) or col[i].lower() in ("inf", "-inf") else \
-                "is not a number"
-            raise InputDataError(f"{src}: {label(i)}, column {h!r}: {str(col[i])!r} {what}") from None
+        if col.dtype.kind != "f" and col.dtype.kind not in "iu":
+            text = col.astype(str).str.strip()
+            vals = pd.to_numeric(text.where(~col.isna(), "nan"), errors="coerce").to_numpy(dtype=float)
+            notnum = ~col.isna().to_numpy() & np.isnan(vals)
+            if notnum.any():
+                i = int(np.flatnonzero(notnum)[0])
+                raise InputDataError(f"{src}: {label(i)}, column {h!r}: {text.iloc[i]!r} is not a number")
+        else:
+            vals = col.to_numpy(dtype=float)
+        inf = np.isinf(vals)
+        if inf.any():
+            i = int(np.flatnonzero(inf)[0])
+            raise InputDataError(f"{src}: {label(i)}, column {h!r}: {str(table[h].iloc[i])!r} is not a finite number")
         data[h] = vals
     th = seen["time"]
     kind = CSV_COLUMNS[th][1]
