@@ -173,7 +173,7 @@ def _raw_series(tmp_path, name, calendar, n_t=5, n_T=5):
     return path
 
 
-@pytest.mark.parametrize("calendar", [None, "standard", "noleap", "365_day", "all_leap"])
+@pytest.mark.parametrize("calendar", [None, "standard", "noleap", "365_day", "all_leap", "360_day"])
 def test_netcdf_cf_calendars_within_a_day(tmp_path, calendar):
     # CF conventions 1.11 sec. 4.4.1: within one day of the reference date no calendar's labels
     # differ, so a day's record reads the same whatever the calendar.
@@ -206,8 +206,6 @@ def test_netcdf_calendar_and_length_refused(tmp_path):
     m = {"time": "time", "temperature": "tsurf", "vapor_pressure": "e"}
     with pytest.raises(InputDataError, match="calendar 'julian' not allowed; allowed: standard"):
         files.read_netcdf_forcing(_raw_series(tmp_path, "j.nc", "julian"), earth_clock(steps=8), m)
-    with pytest.raises(InputDataError, match="360_day"):
-        files.read_netcdf_forcing(_raw_series(tmp_path, "d.nc", "360_day"), earth_clock(steps=8), m)
     with pytest.raises(InputDataError, match=r"'tsurf' \(temperature\) has dimensions \{'t2': 4\}"):
         files.read_netcdf_forcing(_raw_series(tmp_path, "l.nc", "standard", n_T=4), earth_clock(steps=8), m)
 
@@ -233,3 +231,20 @@ def test_csv_rows_keep_their_line_numbers_past_comments(tmp_path):
     text = CSV_ISO.replace("2024-12-10T12:00:00Z,268.0", "# a note\n\n2024-12-10T12:00:00Z,968.0")
     with pytest.raises(InputDataError, match=r"row 3 \(line 7\), column 'temperature_K': 968.0"):
         files.read_csv_forcing(write(tmp_path, text), earth_clock(steps=4))
+
+
+def test_netcdf_360_day_labels_are_read_as_real_dates(tmp_path):
+    # CF conventions sec. 4.4.1: a "360_day" year has twelve 30-day months; day 59 after 1 January
+    # is labelled 30 February, which no real calendar has (dropped), day 60 is 1 March.  xarray's
+    # convert_calendar (align_on="date") keeps each label's meaning.
+    attrs = {"units": "days since 2023-01-01 00:00:00", "calendar": "360_day"}
+    days = np.array([57.0, 58.0, 59.0, 60.0, 61.0])   # 28, 29, 30 February, 1, 2 March
+    ds = xr.Dataset({"time": ("t", days, attrs),
+                     "tsurf": ("t", np.array([250.0, 251.0, 252.0, 253.0, 254.0]), {"units": "K"}),
+                     "e": ("t", np.full(5, 0.5), {"units": "Pa"})})
+    path = tmp_path / "d360.nc"
+    ds.to_netcdf(path)
+    c = make_clock("earth", steps_per_sol=1, n_sols=2, start_utc="2023-03-01T00:00:00Z")
+    f = files.read_netcdf_forcing(path, c, {"time": "time", "temperature": "tsurf", "vapor_pressure": "e"},
+                                  gap_policy="interpolate", max_gap_s=3 * 86400.0)
+    np.testing.assert_allclose(f.temperature_K, [253.0, 254.0], atol=1e-9)  # the labels 1 and 2 March

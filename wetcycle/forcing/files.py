@@ -26,14 +26,14 @@ Relative times count from the clock start (``time_sol`` in sols of the
 clock's planet).  Absolute times are placed with the clock's ``jd_tt``.
 
 NetCDF ``calendar`` (CF conventions, sec. 4.4.1): ``standard``,
-``gregorian`` and ``proleptic_gregorian`` are decoded as real dates.  In
-the model calendars ``noleap``/``365_day`` and ``all_leap``/``366_day``
-each time is decoded in its own calendar (cftime) and its date label read
-as the same real date, as climate-model output is meant; a label the real
-calendar lacks (29 February of a common year) is refused, and a leap day
-missing from a ``noleap`` series is a one-day gap (see Gaps).  ``360_day``
-(30 February exists) and other calendars (``julian``, ``none``) are refused:
-convert such a series to a real calendar first.
+``gregorian`` and ``proleptic_gregorian`` are decoded as real dates.  The
+model calendars ``noleap``/``365_day``, ``all_leap``/``366_day`` and
+``360_day`` are moved to real dates by ``xarray.convert_calendar``
+(:func:`model_calendar_dates`): a date label keeps its meaning, as
+climate-model output is meant; a label the real calendar lacks (29 February
+of a common year, 30 February) is dropped, and a day a model lacks (a leap
+day in ``noleap``, the 31st of a month in ``360_day``) is a one-day gap (see
+Gaps).  Other calendars (``julian``, ``none``) are refused.
 Relative humidity is with respect to liquid water.  Lines of a CSV file that
 begin with ``#`` are comments.
 
@@ -112,35 +112,37 @@ def _relative_seconds(kind, values, clock):
     return np.asarray(values, dtype=float)
 
 
-def _model_calendar_seconds(src, tname, tunits, values, calendar, clock):
-    """'<unit> since <date>' in a model calendar -> seconds since the clock start.
+def model_calendar_dates(values, tunits, calendar):
+    """Times of a model calendar as real dates: ``(datetime64[ns] dates, kept indices)``.
 
-    Each time is decoded in its own calendar (cftime) and its date label read as the same
-    label in the real calendar, as climate-model output is meant (a "noleap" 1 July is 1 July).
-    A label the real calendar lacks (29 February of a common year in ``all_leap``; any
-    ``360_day`` series, whose 30 February has no counterpart) is refused.
+    Each time is decoded in its own calendar (cftime) and moved to the real (proleptic
+    Gregorian) calendar by ``xarray.convert_calendar``: a date label keeps its meaning (a
+    "noleap" 1 July is 1 July); a label the real calendar lacks (29 February of a common year in
+    "all_leap", 30 February in "360_day") is dropped, and real days a model lacks (31 March in
+    "360_day") have no sample.  Dropped and missing days become gaps (see Gaps in the module
+    notes).
+
+    Raises ValueError/TypeError/OverflowError (from cftime) for undecodable units.
     """
     import cftime
+    import xarray as xr
 
-    if calendar == "360_day":
-        raise InputDataError(f"{src}: variable {tname!r}: calendar '360_day' has dates with no real counterpart "
-                             "(e.g. 30 February); allowed: convert the series to a real calendar first "
-                             "(e.g. xarray's convert_calendar)")
+    dates = cftime.num2date(values, tunits, calendar=calendar, only_use_cftime_datetimes=True)
+    da = xr.DataArray(np.arange(np.size(values)), dims="t", coords={"t": np.ravel(dates)})
+    conv = da.convert_calendar("proleptic_gregorian", dim="t", use_cftime=False,
+                               align_on="date" if calendar == "360_day" else None)
+    return conv["t"].values.astype("datetime64[ns]"), conv.values
+
+
+def _model_calendar_seconds(src, tname, tunits, values, calendar, clock):
+    """'<unit> since <date>' in a model calendar -> (seconds since the clock start, kept indices)."""
     try:
-        dates = cftime.num2date(values, tunits, calendar=calendar, only_use_cftime_datetimes=True)
+        dates, keep = model_calendar_dates(values, tunits, calendar)
     except (ValueError, TypeError, OverflowError) as exc:
         raise InputDataError(f"{src}: variable {tname!r}: units {tunits!r} could not be decoded in calendar "
                              f"{calendar!r} ({exc})") from None
-    labels = np.empty(values.size, dtype="datetime64[us]")
-    for k, d in enumerate(np.ravel(dates)):
-        try:
-            labels[k] = np.datetime64(f"{d.year:04d}-{d.month:02d}-{d.day:02d}T{d.hour:02d}:{d.minute:02d}:"
-                                      f"{d.second:02d}.{d.microsecond:06d}")
-        except ValueError:
-            raise InputDataError(f"{src}: variable {tname!r}, index {k}: date {d} (calendar {calendar!r}) does "
-                                 "not exist in the real calendar") from None
     try:
-        return _relative_seconds("utc", labels.astype("datetime64[ns]"), clock)
+        return _relative_seconds("utc", dates, clock), keep
     except ValidityError as exc:
         raise InputDataError(f"{src}: variable {tname!r}: {exc}") from None
 
@@ -424,9 +426,10 @@ def read_netcdf_forcing(path, clock, variables, *, gap_policy="refuse", max_gap_
                 raise InputDataError(f"{src}: variable {variables[ours]!r} ({ours}) has dimensions "
                                      f"{dict(da.sizes)}; allowed: the time variable's {dict(tda.sizes)}")
         calendar = str(tda.attrs.get("calendar", "standard")).strip().lower()
+        keep = None
         if " since " in tunits and calendar in _MODEL_CALENDARS:
-            t_file = _model_calendar_seconds(src, tname, tunits, np.asarray(tda.values, dtype=float), calendar,
-                                             clock)
+            t_file, keep = _model_calendar_seconds(src, tname, tunits, np.asarray(tda.values, dtype=float),
+                                                   calendar, clock)
         elif " since " in tunits and calendar in _REAL_CALENDARS:
             try:
                 dec = xr.decode_cf(xr.Dataset({"_t": ("_n", tda.values, dict(tda.attrs))}))["_t"].values
@@ -455,6 +458,7 @@ def read_netcdf_forcing(path, clock, variables, *, gap_policy="refuse", max_gap_
             if conv is None:
                 raise InputDataError(f"{src}: variable {variables[ours]!r} ({ours}): units {units!r} not allowed; "
                                      f"allowed: {', '.join(NETCDF_UNITS[qty])}")
-            qcols[qty] = (conv(np.asarray(da.values, dtype=float)), variables[ours])
+            v = conv(np.asarray(da.values, dtype=float))
+            qcols[qty] = (v if keep is None else v[keep], variables[ours])
     _check_quantities(src, qcols, "variable")
     return _assemble(src, t_file, qcols, clock, gap_policy, max_gap_s, lambda i: f"index {i}")
