@@ -12,7 +12,7 @@ functions and figures are drawn on the Agg canvas, never through ``pyplot``.
 Cells are drawn as quadrilaterals (``pcolormesh``) between cell edges: the CF
 ``bounds`` variable of ``lat``/``lon`` where the dataset has one, otherwise
 midway between neighbouring centres, the outer edges half a spacing beyond the
-outer centres (latitude edges clipped to ±90°).  Axes are equal in degrees
+outer centres (latitude edges clipped to ±90°); both by cf_xarray.  Axes are equal in degrees
 (plate carrée).  Colours: the sequential "cividis" map, designed to read the
 same with red-green colour-vision deficiency (Nuñez, Anderton & Renslow 2018,
 PLoS ONE 13, e0199239, doi:10.1371/journal.pone.0199239); one colour scale is
@@ -69,7 +69,13 @@ def _check_stat(ds, stat):
 
 
 def _edges(ds, name, lo, hi):
-    """Cell edges [degree] along coordinate ``name``: CF bounds if given, else midway between centres."""
+    """Cell edges [degree] along coordinate ``name``: CF bounds if given, else midway between centres.
+
+    Both through cf_xarray: ``bounds_to_vertices`` turns a CF bounds variable into edges,
+    ``add_bounds`` estimates bounds midway between neighbouring centres.
+    """
+    import cf_xarray
+
     c = np.asarray(ds[name].values, dtype=float)
     if c.ndim != 1 or not np.all(np.isfinite(c)):
         raise InputDataError(f"{name}: coordinate must be 1-D and finite")
@@ -77,18 +83,20 @@ def _edges(ds, name, lo, hi):
         raise InputDataError(f"{name}: centres must be strictly ascending; got {c[:4].tolist()}...")
     bname = ds[name].attrs.get("bounds")
     if bname and bname in ds.variables:
-        b = np.asarray(ds[bname].values, dtype=float)
+        b = ds[bname]
         if b.shape != (c.size, 2):
             raise InputDataError(f"{bname}: bounds of {name} must have shape ({c.size}, 2), got {b.shape}")
-        b = np.sort(b, axis=1)
-        if c.size > 1 and not np.allclose(b[1:, 0], b[:-1, 1]):
+        b = b.copy(data=np.sort(np.asarray(b.values, dtype=float), axis=1))
+        if c.size > 1 and not np.allclose(b.values[1:, 0], b.values[:-1, 1]):
             raise InputDataError(f"{bname}: cells of {name} are not contiguous; a map needs adjoining cells")
-        e = np.concatenate([b[:, 0], b[-1:, 1]])
+        bdim = [d for d in b.dims if d != name][0]
+        e = np.asarray(cf_xarray.bounds_to_vertices(b, bounds_dim=bdim).values, dtype=float)
     elif c.size == 1:
         raise InputDataError(f"{name}: one centre and no CF bounds variable; the cell width is unknown")
     else:
-        mid = 0.5 * (c[1:] + c[:-1])
-        e = np.concatenate([[c[0] - (mid[0] - c[0])], mid, [c[-1] + (c[-1] - mid[-1])]])
+        frame = ds[[name]].drop_vars([v for v in ds[[name]].coords if v != name]).cf.add_bounds(name)
+        bnd = frame[f"{name}_bounds"]
+        e = np.asarray(cf_xarray.bounds_to_vertices(bnd, bounds_dim="bounds").values, dtype=float)
     if lo is not None:
         e = np.clip(e, lo, hi)
     return e
