@@ -1,6 +1,8 @@
 """README and CI agree (common practice: the documented commands are the tested ones)."""
 
 import re
+
+import pytest
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -38,3 +40,25 @@ def test_developer_guide_lists_every_scenario_field():
     block = text.split("<!-- fields:begin -->\n")[1].split("<!-- fields:end -->")[0]
     assert block == schema_markdown(), "run: python scripts/field_reference.py"
     assert sum(len(v) for v in SCHEMA.values()) == block.count("\n") - 2
+
+
+def test_json_schema_accepts_the_examples_and_refuses_what_wetcycle_refuses(capsys):
+    # jsonschema (the reference validator of JSON Schema draft 2020-12) checks the example
+    # scenarios against the schema that `wetcycle schema` prints.
+    import json
+    import tomllib
+
+    jsonschema = pytest.importorskip("jsonschema")
+    from wetcycle import cli
+    assert cli.main(["schema"]) == 0
+    schema = json.loads(capsys.readouterr().out)
+    jsonschema.Draft202012Validator.check_schema(schema)
+    for path in sorted((ROOT / "runs").glob("*.toml")):
+        jsonschema.validate(tomllib.loads(path.read_text()), schema)
+    doc = tomllib.loads((ROOT / "runs" / "demo.toml").read_text())
+    for table, key, bad in (("clock", "steps_per_sol", 2), ("forcing", "kind", "crystal_ball"),
+                            ("phase", "colour", "red")):
+        broken = json.loads(json.dumps(doc))
+        broken[table][key] = bad
+        with pytest.raises(jsonschema.ValidationError):
+            jsonschema.validate(broken, schema)

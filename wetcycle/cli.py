@@ -156,6 +156,12 @@ def cmd_demo(args):
     return cmd_run(argparse.Namespace(scenario=path, output=None, quiet=args.quiet, workers=1, fresh=False))
 
 
+def cmd_schema(args):
+    from .config import json_schema
+    print(json.dumps(json_schema(), indent=1))
+    return 0
+
+
 def cmd_summary(args):
     from .output import open_result, summary_text
 
@@ -343,6 +349,11 @@ def build_parser():
                         description=f"Run {DEMO_SCENARIO} (an invented site) from the top of a checkout.")
     pd.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
     pd.set_defaults(func=cmd_demo)
+
+    psc = sub.add_parser("schema", help="print the scenario schema as JSON Schema (for editors)",
+                         description="Print the scenario file's schema as a JSON Schema (draft 2020-12), "
+                         "for editors that check TOML against a schema.")
+    psc.set_defaults(func=cmd_schema)
 
     pm = sub.add_parser("summary", help="the table of a result file",
                         description="Print the per-salt table of a result file.")

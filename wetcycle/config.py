@@ -164,6 +164,52 @@ def schema_markdown():
     return "\n".join(lines) + "\n"
 
 
+def json_schema():
+    """The scenario schema as a JSON Schema (draft 2020-12) for editors (``wetcycle schema``).
+
+    Generated from :data:`SCHEMA`: types, defaults, ranges, required keys, unknown keys refused;
+    the registries' choices (forcing kinds, time laws) as enums.  TOML maps onto JSON one to one
+    for these types.  Checks made after the tables (e.g. a field required by one forcing kind)
+    are left to ``wetcycle run``.
+    """
+    jtypes = {str: "string", bool: "boolean", int: "integer", dict: "object", NUM: "number", list: "array"}
+    enums = {("forcing", "kind"): list(FORCING_KINDS), ("phase", "law"): list(TIME_LAWS)}
+
+    def table(name, fields):
+        props, required = {}, []
+        for key, (typ, default, lo, hi, note) in fields.items():
+            p = {"type": jtypes[typ]}
+            if note:
+                p["description"] = note
+            if default is REQUIRED:
+                required.append(key)
+            elif default is not None:
+                p["default"] = default
+            if lo is not None:
+                p["minimum"] = lo
+            if hi is not None:
+                p["maximum"] = hi
+            if (name, key) in enums:
+                p["enum"] = enums[(name, key)]
+            props[key] = p
+        out = {"type": "object", "properties": props, "additionalProperties": False}
+        if required:
+            out["required"] = required
+        return out
+
+    props = {}
+    for name, fields in SCHEMA.items():
+        t = table(name, fields)
+        props[name] = ({"type": "array", "minItems": 1, "items": t} if name in ARRAYS else t)
+    return {
+        "$schema": "https://json-schema.org/draft/2020-12/schema",
+        "title": "wetcycle scenario",
+        "description": "A wetcycle scenario file (TOML); generated from wetcycle.config.SCHEMA",
+        "type": "object", "properties": props, "additionalProperties": False,
+        "required": ["scenario", "salt"],
+    }
+
+
 def _check_table(where, table, schema, src):
     if not isinstance(table, dict):
         raise ConfigError(f"{src}: {where}: must be a table")
