@@ -132,14 +132,14 @@ def cmd_run(args):
     from .output import check_output_path, summary_text
 
     sc = load_scenario(args.scenario)
-    out = check_output_path(args.output or sc.output_path, "--output" if args.output else "output")
+    out = check_output_path(args.output or sc.output_path, "--output" if args.output else "output",
+                            allow_zarr=sc["grid"] is not None)
     if sc["grid"] is None and getattr(args, "workers", 1) not in (None, 1):
         print(f"note: --workers {args.workers} is ignored: {sc.source} is a site scenario (runs in one process)")
     if sc["grid"] is not None:
         from .grid import grid_summary_text, run_grid
         ds = run_grid(sc, workers=getattr(args, "workers", 1), progress=not args.quiet, output_path=out,
-                      fresh=getattr(args, "fresh", False), scheduler=getattr(args, "scheduler", None),
-                      threads=getattr(args, "threads", False))
+                      fresh=getattr(args, "fresh", False), scheduler=getattr(args, "scheduler", None))
         print(grid_summary_text(ds))
     else:
         from .runner import run
@@ -332,15 +332,14 @@ def build_parser():
                         description="Run a scenario (TOML) and write its NetCDF result; print liquid hours, "
                         "longest spell and habitable hours per salt.")
     pr.add_argument("scenario", help="scenario TOML file (see runs/demo.toml)")
-    pr.add_argument("-o", "--output", help="NetCDF result path (default: the scenario's output)")
+    pr.add_argument("-o", "--output", help="result path (default: the scenario's output); gridded runs: "
+                    "a path ending in .zarr writes a zarr store")
     pr.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
     pr.add_argument("--workers", type=int, default=1, metavar="N",
-                    help="gridded runs: local worker processes (default 1: in this process)")
-    pr.add_argument("--threads", action="store_true",
-                    help="gridded runs: use --workers threads in this process instead of processes")
+                    help="gridded runs: N > 1 starts a local dask cluster of N worker processes "
+                    "(default 1: in this process)")
     pr.add_argument("--scheduler", metavar="ADDRESS",
-                    help="gridded runs on dask.distributed: 'local' starts a local cluster of --workers "
-                    "processes; otherwise the address of a running scheduler (tcp://host:8786)")
+                    help="gridded runs: join the dask scheduler at ADDRESS (tcp://host:8786)")
     pr.add_argument("--fresh", action="store_true",
                     help="gridded runs: discard finished chunks of an earlier run and start over")
     pr.set_defaults(func=cmd_run)

@@ -1,33 +1,42 @@
-"""Gridded runs: a latitude-longitude grid split into chunks of cells.
+"""Gridded runs: tiles of a latitude-longitude grid, computed by dask, kept in a zarr store.
 
-A chunk is a pure function of its inputs: its cells go through exactly the
-same path as a site run (:func:`wetcycle.runner.run`, statistics only), and its
-statistics are written to the run's folder as soon as it finishes
-(``<output>.chunks/chunk_NNNNN.npz``, atomically).  A run started again with
-the same scenario skips finished chunks; a changed scenario refuses to resume
-into an old folder unless told to start over (``fresh=True``).  Chunks run in
-this process (one at a time, or in threads: the numba kernels release the GIL),
-in a local process pool, or on a dask.distributed cluster (a
-local one started for the run, or an existing scheduler); the final NetCDF is
-written under a temporary name and renamed into place.
+The grid is cut into rectangular tiles of at most ``grid.chunk_cells`` cells, and the run store
+(``<output>.store.zarr``) holds every statistic on (salt, [bin,] lat, lon) in zarr chunks of
+exactly one tile.  A tile is a pure function of its inputs: its unmasked cells go through the same
+path as a site run (:func:`wetcycle.runner.statistics`) and the tile is written into its own
+region of the store as soon as it finishes (no locks: tiles never share a chunk), then marked
+done in ``cell_state`` (NaN pending, 1 computed, 0 masked).  The store can be opened with
+``xarray.open_zarr`` while the run goes on; a run started again with the same command computes
+only the tiles not yet done.  Once the result is written the store is removed (``write=False``
+keeps it).  At the end the result is assembled from the store into a CF NetCDF
+file (or a zarr store when the output path ends in ``.zarr``), written under a temporary name and
+renamed into place.
 
-Chunk independence: grid runs spin the surface energy balance up for exactly
-``clock.spinup_max_years`` (no early stop, which would depend on the slowest
-cell of a chunk), the energy kernel converges its Newton iteration per cell,
-and per-cell reductions in the forcing sum each cell's values in a fixed order.
-Statistics are bitwise identical whatever the chunk size or worker count
-(``tests/test_grid.py``).
+dask is the one engine: one worker runs the tiles in this process (dask's synchronous
+scheduler), ``workers > 1`` starts a local cluster of that many worker processes (bound to
+127.0.0.1, no dashboard, each dying with this process), and ``scheduler=ADDRESS`` joins a running
+cluster.  Salts reach the workers as their phase tables, never by name.
+
+Tile independence: grid runs spin the surface energy balance up for exactly
+``clock.spinup_max_years`` (no early stop, which would depend on the slowest cell of a tile), the
+energy kernel converges its Newton iteration per cell, and per-cell reductions sum each cell's
+values in a fixed order, so the statistics are bitwise identical whatever the tile size, worker
+count or scheduler (``tests/test_grid.py`` compares every statistic).
+
+The resume fingerprint covers the scenario, the version, the salts' phase tables and every input
+file by content (:mod:`wetcycle.inputs`); an edited property map or forcing file is a different
+run.  The store is locked (``fcntl.flock``) by the run writing it: a second run into the same
+output is refused in one line.
 """
 
 from __future__ import annotations
 
 import dataclasses
-import hashlib
+import datetime as _dt
 import json
 import os
 import shutil
 import tempfile
-from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor, as_completed
 from pathlib import Path
 
 import numpy as np
@@ -35,238 +44,399 @@ import xarray as xr
 
 from . import __version__
 from .config import Scenario, grid_axes, load_scenario
+from .errors import ConfigError, InputDataError
+from .inputs import fingerprint, input_hashes
+from .output import (CAUTION, add_crs, add_time_bounds, check_output_path, limit_notes, set_new_file_mode,
+                     time_attrs, write_result)
 from .runner import run_period
-from .errors import ConfigError
-from .output import (CAUTION, add_crs, add_time_bounds, check_output_path, limit_notes,
-                     set_new_file_mode, time_attrs, write_result)
+from .stats import Accumulator
 from .vocabulary import attrs
 
-#: Spin-up tolerance used for grid chunks: effectively zero, so every chunk spins up
-#: for exactly ``clock.spinup_max_years`` whatever its cells.
+#: How long to try reaching a dask scheduler given by address.
+CONNECT_TIMEOUT = "3s"
+
+#: Spin-up tolerance used for grid tiles: effectively zero, so every tile spins up for exactly
+#: ``clock.spinup_max_years`` whatever its cells.
 FIXED_SPINUP_TOL_K = 1e-12
 
 
-def _fingerprint(sc):
-    key = json.dumps({"text": sc.text or "", "tables": sc.tables, "salts": sc.salts,
-                      "version": __version__}, sort_keys=True, default=str)
-    return hashlib.sha256(key.encode()).hexdigest()
+# ---- tiles and cells ------------------------------------------------------------------------
+@dataclasses.dataclass(frozen=True)
+class Tile:
+    """A rectangle of grid rows and columns: one zarr chunk of the store."""
+
+    index: int
+    rows: tuple  # (start, stop)
+    cols: tuple
 
 
-def _chunks(sc):
-    n = len(sc.sites)
-    size = sc["grid"]["chunk_cells"]
-    return [(k, i, min(i + size, n)) for k, i in enumerate(range(0, n, size))]
+def tile_shape(n_lat, n_lon, chunk_cells):
+    """Rows and columns of a tile of at most ``chunk_cells`` cells: whole rows when they fit."""
+    if n_lon <= chunk_cells:
+        return max(1, min(n_lat, chunk_cells // n_lon)), n_lon
+    return 1, chunk_cells
 
 
-def _sub_scenario(sc, i0, i1):
-    tables = {k: (dict(v) if isinstance(v, dict) else v) for k, v in sc.tables.items()}
-    tables["clock"]["spinup_tolerance_K"] = FIXED_SPINUP_TOL_K
-    tables["output"]["series"] = False
-    return dataclasses.replace(sc, tables=tables, sites=tuple(sc.sites[i0:i1]))
-
-
-def run_chunk(sc, i0, i1):
-    """Statistics of cells [i0, i1) of a grid scenario: dict name -> array [salt, cell, ...]."""
-    from .runner import run
-
-    ds = run(_sub_scenario(sc, i0, i1), write=False)
-    out = {}
-    for name, v in ds.data_vars.items():
-        dims = v.dims
-        if not {"salt", "site"} <= set(dims):
-            continue  # the grid mapping and the period's bounds: rebuilt by assemble
-        arr = v.transpose("salt", "site", *[d for d in dims if d not in ("salt", "site")]).values
-        out[name] = np.asarray(arr, dtype=float)
-    out["_years"] = np.array(ds.attrs["years"])
-    out["_spinup_years"] = np.array(ds.attrs["spinup_years"])
+def tiles(n_lat, n_lon, chunk_cells):
+    """Every tile of the grid, row-major."""
+    tr, tc = tile_shape(n_lat, n_lon, chunk_cells)
+    out = []
+    for i in range(0, n_lat, tr):
+        for j in range(0, n_lon, tc):
+            out.append(Tile(len(out), (i, min(i + tr, n_lat)), (j, min(j + tc, n_lon))))
     return out
 
 
-def _save_npz(path, data):
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    os.close(fd)
-    try:
-        with open(tmp, "wb") as fh:
-            np.savez(fh, **data)
-        set_new_file_mode(tmp)
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
+def cell_index(sc):
+    """[lat, lon] -> index of the cell in ``sc.sites`` (-1: masked), from the cells' coordinates."""
+    g = sc["grid"]
+    lats, lons = grid_axes(g)
+    idx = np.full((lats.size, lons.size), -1, dtype=np.int64)
+    for k, s in enumerate(sc.sites):
+        i = int(round((s["latitude"] - g["lat_min"]) / g["lat_step"]))
+        j = int(round((s["longitude"] - g["lon_min"]) / g["lon_step"]))
+        idx[i, j] = k
+    return idx
 
 
+def _statistic_layout(sc):
+    """{statistic name: trailing bin dimensions} as the accumulator produces them."""
+    from .runner import WATER_CYCLE_STATS
+    sample = Accumulator.new(1, sc["output"]["ls_bins"]).finish(1.0)
+    out = {name: () if arr.ndim == 1 else ("hour_bin",) if "local_time" in name else ("ls_bin",)
+           for name, arr in sample.items()}
+    if sc["forcing"]["kind"] == "energy_balance":
+        out.update({name: () for name in WATER_CYCLE_STATS})
+    return out
+
+
+# ---- the work of one tile ---------------------------------------------------------------------
+@dataclasses.dataclass(frozen=True)
+class GridRun:
+    """Everything a worker needs for any tile: sent to each worker once."""
+
+    scenario: Scenario
+    tables: dict        # salt name -> PhaseTables
+    store: str
+    cells: np.ndarray   # cell_index(scenario)
+    layout: dict        # statistic -> trailing dims
+
+
+def _sub_scenario(sc, ks):
+    tables = {k: (dict(v) if isinstance(v, dict) else v) for k, v in sc.tables.items()}
+    tables["clock"]["spinup_tolerance_K"] = FIXED_SPINUP_TOL_K
+    tables["output"]["series"] = False
+    return dataclasses.replace(sc, tables=tables, sites=tuple(sc.sites[k] for k in ks))
+
+
+def compute_tile(run, tile):
+    """Compute one tile's statistics and write them into its region of the store; return its index."""
+    from .runner import statistics
+
+    r0, r1 = tile.rows
+    c0, c1 = tile.cols
+    idx = run.cells[r0:r1, c0:c1]
+    n_salt = len(run.scenario.salts)
+    n_ls = run.scenario["output"]["ls_bins"]
+    sizes = {"ls_bin": n_ls, "hour_bin": 24}
+    out = {name: np.full((n_salt,) + tuple(sizes[d] for d in trail) + idx.shape, np.nan)
+           for name, trail in run.layout.items()}
+    live = np.argwhere(idx >= 0)
+    if live.size:
+        stats, _ = statistics(_sub_scenario(run.scenario, idx[idx >= 0]), run.tables)
+        for name in run.layout:
+            for s, st in enumerate(stats):
+                v = np.asarray(st[name], dtype=float)  # [cell] or [bin, cell]
+                out[name][s][..., live[:, 0], live[:, 1]] = v
+    region = {"lat": slice(r0, r1), "lon": slice(c0, c1)}
+    data = {name: (("salt",) + run.layout[name] + ("lat", "lon"), arr) for name, arr in out.items()}
+    xr.Dataset(data).to_zarr(run.store, region=region, mode="r+", consolidated=False)
+    state = np.where(idx >= 0, 1.0, 0.0).astype(np.float32)
+    xr.Dataset({"cell_state": (("lat", "lon"), state)}).to_zarr(run.store, region=region, mode="r+",
+                                                                 consolidated=False)
+    return tile.index
+
+
+# ---- the store ----------------------------------------------------------------------------
 def run_dir_for(output_path):
-    """Folder holding the finished chunks of a gridded run."""
+    """The run store (zarr) of a gridded run writing ``output_path``."""
     p = Path(output_path)
-    return p.with_name(p.name + ".chunks")
+    return p.with_name(p.name + ".store.zarr")
 
 
-def _prepare_dir(sc, rdir, fresh):
-    fp = _fingerprint(sc)
-    manifest = rdir / "manifest.json"
-    if rdir.exists() and fresh:
-        shutil.rmtree(rdir)
-    if rdir.exists():
-        old = json.loads(manifest.read_text()) if manifest.is_file() else {}
-        if old.get("fingerprint") != fp:
-            raise ConfigError(f"run folder: {str(rdir)!r} holds chunks of a different scenario or version; "
-                              "start over with --fresh (or remove the folder)")
-    else:
-        rdir.mkdir(parents=True)
-        manifest.write_text(json.dumps({"fingerprint": fp, "wetcycle_version": __version__,
-                                        "chunk_cells": sc["grid"]["chunk_cells"], "cells": len(sc.sites)}))
-    return rdir
+class StoreLock:
+    """An exclusive ``flock`` on ``<store>.lock``: one writer per run store; released on exit or death."""
+
+    def __init__(self, store):
+        self.path = Path(str(store) + ".lock")
+        self.fh = None
+
+    def __enter__(self):
+        import fcntl
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        self.fh = open(self.path, "a+")
+        try:
+            fcntl.flock(self.fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except BlockingIOError:
+            self.fh.seek(0)
+            who = self.fh.read().strip() or "another process"
+            self.fh.close()
+            self.fh = None
+            raise ConfigError(f"output: {str(self.path)[:-5]!r} is being written by another wetcycle run "
+                              f"({who}); wait for it to finish or choose another output") from None
+        self.fh.seek(0)
+        self.fh.truncate()
+        self.fh.write(f"pid {os.getpid()}")
+        self.fh.flush()
+        return self
+
+    def __exit__(self, *exc):
+        if self.fh is not None:
+            try:
+                self.path.unlink()
+            except OSError:
+                pass
+            self.fh.close()
+        return False
 
 
-def _dask_client(scheduler, workers):
-    """A dask.distributed Client: ``"local"`` starts a local cluster, else join ``scheduler``."""
-    try:
-        from dask.distributed import Client, LocalCluster
-    except ImportError:
-        raise ConfigError("scheduler: dask.distributed is not installed; install with "
-                          "pip install 'wetcycle[distributed]'") from None
-    if scheduler == "local":
-        cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
-                               dashboard_address=None)
+def _template(sc, layout, shape):
+    """The store's template: every statistic on (salt, [bin,] lat, lon), NaN, chunked by tiles."""
+    import dask.array as da
+
+    lats, lons = grid_axes(sc["grid"])
+    n_ls = sc["output"]["ls_bins"]
+    sizes = {"ls_bin": n_ls, "hour_bin": 24}
+    planet = sc["scenario"]["planet"]
+    data = {}
+    for name, trail in layout.items():
+        dims = ("salt",) + trail + ("lat", "lon")
+        full = (len(sc.salts),) + tuple(sizes[d] for d in trail) + (lats.size, lons.size)
+        chunks = full[:-2] + shape
+        data[name] = (dims, da.full(full, np.nan, chunks=chunks), attrs(name, planet=planet))
+    data["cell_state"] = (("lat", "lon"), da.full((lats.size, lons.size), np.nan, dtype=np.float32, chunks=shape),
+                          {"long_name": "state of the cell in this run", "flag_values": np.array([0, 1], np.float32),
+                           "flag_meanings": "masked computed", "comment": "NaN: not yet computed"})
+    ds = xr.Dataset(data, coords=grid_coords(sc, n_ls))
+    return ds
+
+
+def _open_store(sc, store, layout, shape, fp, fresh):
+    """Create the store, or check that an existing one belongs to this run; returns done tile mask."""
+    store = Path(store)
+    if store.exists() and fresh:
+        shutil.rmtree(store)
+    if store.exists():
+        try:
+            old = xr.open_zarr(store, consolidated=False)
+        except Exception as exc:  # noqa: BLE001  (any zarr/xarray failure: an unreadable folder)
+            raise ConfigError(f"run store: {str(store)!r} is not a readable run store ({type(exc).__name__}); "
+                              "start over with --fresh (or remove it)") from None
+        with old:
+            if old.attrs.get("fingerprint") != fp:
+                raise ConfigError(f"run store: {str(store)!r} holds tiles of a different scenario, input file or "
+                                  "version; start over with --fresh (or remove the folder)")
+            try:
+                return np.asarray(old["cell_state"].values)
+            except Exception:  # noqa: BLE001  (a chunk cut short by a killed write: recompute all)
+                return np.full(old["cell_state"].shape, np.nan, np.float32)
+    tmp = store.with_name(store.name + ".new")
+    if tmp.exists():
+        shutil.rmtree(tmp)
+    t = _template(sc, layout, shape)
+    t.attrs.update(fingerprint=fp, wetcycle_version=__version__, chunk_cells=int(sc["grid"]["chunk_cells"]))
+    t.to_zarr(tmp, compute=False, mode="w", consolidated=False)
+    os.replace(tmp, store)
+    return None
+
+
+# ---- dask ---------------------------------------------------------------------------------
+def dask_client(scheduler, workers, *, dashboard=False):
+    """A dask.distributed Client and the cluster it owns (None for a joined one).
+
+    ``None``/"local" start a local cluster of ``workers`` processes bound to 127.0.0.1, one thread
+    each, whose processes die with this one (:mod:`wetcycle._workerguard`); the dashboard is off
+    (the scheduler's small HTTP server binds to 127.0.0.1 on a free port) unless ``dashboard``,
+    which serves it on 127.0.0.1:8787.  Any other value joins the scheduler at that address.
+    """
+    from dask.distributed import Client, LocalCluster
+
+    if scheduler in (None, "local"):
+        cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
+                               dashboard_address="127.0.0.1:8787" if dashboard else None,
+                               scheduler_kwargs=None if dashboard else {"dashboard_address": "127.0.0.1:0"},
+                               preload=["wetcycle._workerguard"], death_timeout="10s", silence_logs=40)
         return Client(cluster), cluster
     try:
-        return Client(scheduler, timeout="10s"), None
-    except (OSError, TimeoutError) as exc:
+        return Client(scheduler, timeout=CONNECT_TIMEOUT), None
+    except (OSError, TimeoutError, ValueError) as exc:
         raise ConfigError(f"scheduler: {scheduler!r} could not be reached ({exc}); allowed: 'local' "
                           "or the address of a running dask scheduler (e.g. tcp://host:8786)") from None
 
 
-def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=None, fresh=False,
-             stop_after_chunks=None, scheduler=None, threads=False):
-    """Run a gridded scenario chunk by chunk; return the statistics on (salt, lat, lon).
-
-    Parameters
-    ----------
-    scenario : Scenario or path
-    workers : int
-        1: chunks in this process; > 1: a local process pool of that many workers (or, with
-        ``scheduler="local"``, a local dask cluster of that many worker processes).
-    threads : bool
-        With ``workers > 1``: run chunks in threads of this process instead of worker
-        processes (the heavy numba kernels release the GIL; set-up between them does not).
-    scheduler : str, optional
-        Run the chunks on dask.distributed: ``"local"`` starts a local cluster for the run,
-        any other value is the address of a running scheduler to join.  The same chunk
-        function runs everywhere, so the numbers are the same as in-process.
-    fresh : bool
-        Discard finished chunks of an earlier run in the run folder.
-    stop_after_chunks : int, optional
-        Stop (raise KeyboardInterrupt) after this many chunks have finished in this call:
-        used by the tests to simulate an interrupted run.
-    """
-    sc = scenario if isinstance(scenario, Scenario) else load_scenario(scenario)
-    if sc["grid"] is None:
-        raise ConfigError(f"{sc.source}: [grid]: not a gridded scenario (it has [[site]]); use wetcycle.run")
-    if not (isinstance(workers, int) and workers >= 1):
-        raise ConfigError(f"workers: {workers!r} is not allowed; allowed: a whole number >= 1")
-    out_path = Path(output_path) if output_path else sc.output_path
-    if write:
-        check_output_path(out_path, "output_path" if output_path else "output")
-    out_path.parent.mkdir(parents=True, exist_ok=True)
-    client = cluster = None
-    if scheduler is not None:
-        # connect first: an unreachable scheduler must not cost the finished chunks of --fresh
-        client, cluster = _dask_client(scheduler, workers)
-    try:
-        rdir = _prepare_dir(sc, run_dir_for(out_path), fresh)
-    except BaseException:
-        _close_dask(client, cluster)
-        raise
-    chunks = _chunks(sc)
-    todo = [c for c in chunks if not (rdir / f"chunk_{c[0]:05d}.npz").is_file()]
-    bar = None
-    if progress:
-        from tqdm import tqdm
-        bar = tqdm(total=len(chunks), initial=len(chunks) - len(todo), unit="chunk", desc=sc.name)
-    done_now = 0
-
-    def finished(k, data):
-        nonlocal done_now
-        _save_npz(rdir / f"chunk_{k:05d}.npz", data)
-        done_now += 1
-        if bar is not None:
-            bar.update(1)
-        if stop_after_chunks is not None and done_now >= stop_after_chunks:
-            raise KeyboardInterrupt("stopped after the requested number of chunks")
-
-    try:
-        if client is not None:
-            from dask.distributed import as_completed as dask_completed
-            futs = {client.submit(run_chunk, sc, i0, i1, pure=False): k for k, i0, i1 in todo}
-            for f in dask_completed(list(futs)):
-                finished(futs[f], f.result())
-        elif workers == 1:
-            for k, i0, i1 in todo:
-                finished(k, run_chunk(sc, i0, i1))
-        else:
-            pool_kind = ThreadPoolExecutor if threads else ProcessPoolExecutor
-            with pool_kind(max_workers=workers) as pool:
-                futs = {pool.submit(run_chunk, sc, i0, i1): k for k, i0, i1 in todo}
-                for f in as_completed(futs):
-                    finished(futs[f], f.result())
-    finally:
-        _close_dask(client, cluster)
-        if bar is not None:
-            bar.close()
-    ds = assemble(sc, rdir, chunks)
-    if write:
-        write_result(ds, out_path)
-    return ds
-
-
-def _close_dask(client, cluster):
+def _close(client, cluster):
     if client is not None:
         client.close()
     if cluster is not None:
         cluster.close()
 
 
-def assemble(sc, rdir, chunks):
-    """Gather finished chunks into a Dataset on (salt, [bin,] lat, lon)."""
+def _execute(run, todo, workers, scheduler, done_cb):
+    """Run ``compute_tile`` over ``todo`` on dask; ``done_cb(tile index)`` as each finishes."""
+    if scheduler is None and workers == 1:
+        import dask
+        from dask.callbacks import Callback
+
+        class _Done(Callback):
+            def _posttask(self, key, result, dsk, state, id):
+                if isinstance(key, tuple) and key and str(key[0]).startswith("tile-"):
+                    done_cb(result)
+
+        graph = {("tile-", t.index): (compute_tile, "run", t) for t in todo}
+        graph["run"] = run
+        with _Done():
+            dask.get(graph, list(k for k in graph if k != "run"))  # the synchronous scheduler
+        return
+    from dask.distributed import as_completed
+    client, cluster = dask_client(scheduler, workers)
+    try:
+        run_f = client.scatter(run, broadcast=True)
+        futs = client.map(compute_tile, [run_f] * len(todo), todo, pure=False)
+        for f in as_completed(futs):
+            done_cb(f.result())
+    finally:
+        _close(client, cluster)
+
+
+# ---- the run ------------------------------------------------------------------------------
+def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=None, fresh=False,
+             scheduler=None):
+    """Run a gridded scenario tile by tile; return the statistics on (salt, [bin,] lat, lon).
+
+    Parameters
+    ----------
+    scenario : Scenario or path
+    workers : int
+        1: tiles in this process (dask's synchronous scheduler); > 1: a local dask cluster of that
+        many worker processes.
+    scheduler : str, optional
+        The address of a running dask scheduler to join ("local" is the same as none).
+    fresh : bool
+        Discard the run store of an earlier run and start over.
+    output_path : path, optional
+        Overrides ``scenario.output``; a path ending in ``.zarr`` writes a zarr store.
+    """
+    sc = scenario if isinstance(scenario, Scenario) else load_scenario(scenario)
+    if sc["grid"] is None:
+        raise ConfigError(f"{sc.source}: [grid]: not a gridded scenario (it has [[site]]); use wetcycle.run")
+    if not (isinstance(workers, int) and not isinstance(workers, bool) and workers >= 1):
+        raise ConfigError(f"workers: {workers!r} is not allowed; allowed: a whole number >= 1")
+    out_path = Path(output_path) if output_path else sc.output_path
+    if write:
+        check_output_path(out_path, "output_path" if output_path else "output", allow_zarr=True)
+    if scheduler == "local":
+        scheduler = None
+    if scheduler is not None:
+        # reach it first: an unreachable scheduler must not cost the finished tiles of --fresh
+        _close(*dask_client(scheduler, workers))
+    from .runner import phase_models
+    tables = {m.tables.name: m.tables for m in phase_models(sc)}
+    hashes = input_hashes(sc, tables)
+    fp = fingerprint(sc, hashes)
     lats, lons = grid_axes(sc["grid"])
-    cell_ij = [tuple(int(x) for x in s["name"].split("_")[1:]) for s in sc.sites]
-    parts = [dict(np.load(rdir / f"chunk_{k:05d}.npz")) for k, _, _ in chunks]
-    names = [n for n in parts[0] if not n.startswith("_")]
+    shape = tile_shape(lats.size, lons.size, sc["grid"]["chunk_cells"])
+    all_tiles = tiles(lats.size, lons.size, sc["grid"]["chunk_cells"])
+    layout = _statistic_layout(sc)
+    store = run_dir_for(out_path)
+    with StoreLock(store):
+        state = _open_store(sc, store, layout, shape, fp, fresh)
+        todo = [t for t in all_tiles
+                if state is None or np.isnan(state[t.rows[0]:t.rows[1], t.cols[0]:t.cols[1]]).any()]
+        run = GridRun(sc, tables, str(store), cell_index(sc), layout)
+        bar = None
+        if progress:
+            from tqdm import tqdm
+            bar = tqdm(total=len(all_tiles), initial=len(all_tiles) - len(todo), unit="tile", desc=sc.name)
+        try:
+            _execute(run, todo, workers, scheduler, lambda k: bar.update(1) if bar is not None else None)
+        finally:
+            if bar is not None:
+                bar.close()
+        ds = assemble(sc, store, hashes)
+        if write:
+            write_grid_result(ds, out_path)
+            shutil.rmtree(store)  # the result holds everything; a rerun starts afresh
+    return ds
+
+
+def assemble(sc, store, hashes=None):
+    """The result of a finished run store: statistics on (salt, [bin,] lat, lon), CF-complete."""
+    with xr.open_zarr(store, consolidated=False) as z:
+        ds = z.load()
+    if np.isnan(ds["cell_state"].values).any():
+        raise InputDataError(f"run store: {str(store)!r} is not finished")
+    ds = ds[[k for k in _statistic_layout(sc) if k in ds]]
+    for k in ("fingerprint", "chunk_cells", "wetcycle_version"):
+        ds.attrs.pop(k, None)
     planet = sc["scenario"]["planet"]
-    data = {}
-    for name in names:
-        trailing = parts[0][name].shape[2:]
-        arr = np.full((len(sc.salts), lats.size, lons.size) + trailing, np.nan)
-        for (k, i0, i1), part in zip(chunks, parts):
-            for c, idx in enumerate(range(i0, i1)):
-                i, j = cell_ij[idx]
-                arr[:, i, j] = part[name][:, c]
-        dims = ("salt", "lat", "lon") + {1: ("ls_bin",) if name == "liquid_hours_by_ls" else ("hour_bin",)}.get(
-            len(trailing), ())
-        # counts are stored as floats here (unlike a site result) so that masked cells can be NaN
-        da = xr.DataArray(arr, dims=dims, attrs=attrs(name, planet=planet))
-        # CF-1.8 sec. 2.4: the horizontal axes come last
-        data[name] = da.transpose("salt", *dims[3:], "lat", "lon")
-    n_ls = parts[0]["liquid_hours_by_ls"].shape[2]
-    ds = xr.Dataset(data, coords=grid_coords(sc, n_ls))
     t_end, first, info = run_period(sc)
     ds = add_time_bounds(ds, [t_end], t_end + first, time_attrs(info))
     ds = add_crs(ds, planet)
     hab = sc["habitability"]
-    import datetime as _dt
+    years = t_end_years(sc, t_end, first)
     ds.attrs.update(
         title=f"wetcycle gridded result: {sc.name}", scenario_name=sc.name,
         scenario=sc.text or json.dumps(sc.tables, default=str), wetcycle_version=__version__,
         created=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"), caution=CAUTION,
         Conventions="CF-1.8", forcing=sc["forcing"]["kind"], law=sc["phase"]["law"],
-        years=float(parts[0]["_years"]), steps_per_sol=int(sc["clock"]["steps_per_sol"]),
-        spinup_years=int(parts[0]["_spinup_years"]), chunk_cells=int(sc["grid"]["chunk_cells"]),
+        years=years, steps_per_sol=int(sc["clock"]["steps_per_sol"]),
+        spinup_years=int(sc["clock"]["spinup_max_years"]) if sc["forcing"]["kind"] == "energy_balance" else 0,
+        chunk_cells=int(sc["grid"]["chunk_cells"]),
         habitability_min_water_activity=float(hab["min_water_activity"]),
         habitability_min_temperature_K=float(hab["min_temperature"]),
     )
+    if hashes is not None:
+        ds.attrs["input_sha256"] = json.dumps(hashes, sort_keys=True)
     if info.get("start_utc"):
         ds.attrs["start_utc"] = info["start_utc"]
     return ds
+
+
+def t_end_years(sc, t_end, first):
+    """Years simulated (the planet's years) by a run ending at ``t_end`` with a first step ``first``."""
+    from .orbit import get_planet
+    p = get_planet(sc["scenario"]["planet"])
+    return float((t_end + first) / (p.year_sols * p.sol_s))
+
+
+def write_grid_result(ds, path):
+    """Write a gridded result: NetCDF, or a zarr store when ``path`` ends in ``.zarr`` (atomically)."""
+    path = Path(path)
+    if path.suffix.lower() != ".zarr":
+        return write_result(ds, path)
+    from .output import cf_encoded
+    ds, enc = cf_encoded(ds)
+    enc = {k: {kk: vv for kk, vv in v.items() if kk in ("_FillValue", "dtype")} for k, v in enc.items()}
+    for k, v in list(enc.items()):
+        if v.get("dtype") == "S1":  # zarr keeps text as text
+            enc[k].pop("dtype")
+    tmp = Path(tempfile.mkdtemp(prefix=f".{path.name}.", dir=path.parent))
+    try:
+        ds.to_zarr(tmp, mode="w", encoding=enc, consolidated=True, zarr_format=2)  # the widest-read format
+        if path.exists():
+            shutil.rmtree(path)
+        os.replace(tmp, path)
+        set_new_file_mode(path)
+        os.chmod(path, 0o777 & ~_umask())
+    finally:
+        if tmp.exists():
+            shutil.rmtree(tmp)
+    return path
+
+
+def _umask():
+    from .output import _UMASK
+    return _UMASK
 
 
 def grid_coords(sc, n_ls):
@@ -275,7 +445,6 @@ def grid_coords(sc, n_ls):
 
     planet = sc["scenario"]["planet"]
     lats, lons = grid_axes(sc["grid"])
-    g = sc["grid"]
     frame = xr.Dataset(coords={
         "salt": ("salt", np.array([s["name"] for s in sc.salts], dtype=object), attrs("salt")),
         "lat": ("lat", lats, attrs("lat")),

@@ -150,15 +150,17 @@ def add_crs(ds, planet):
     return ds
 
 
-def check_output_path(path, field="output"):
+def check_output_path(path, field="output", *, allow_zarr=False):
     """Refuse, before any computing, a result path that cannot be written.
 
     The path must name a file (not an existing folder, not ending in a path separator) whose folder
-    exists or can be created and accepts new files.  Returns the path.
+    exists or can be created and accepts new files; with ``allow_zarr`` a path ending in ``.zarr``
+    (a zarr store, which is a folder) is allowed too.  Returns the path.
     """
     raw = str(path)
     path = Path(path)
-    if raw.endswith(("/", os.sep)) or path.is_dir():
+    zarr = allow_zarr and path.suffix.lower() == ".zarr" and not raw.endswith(("/", os.sep))
+    if not zarr and (raw.endswith(("/", os.sep)) or path.is_dir()):
         raise ConfigError(f"{field}: {raw!r} is a folder; allowed: a file path such as {str(path / 'result.nc')!r}")
     parent = path.parent
     try:
@@ -169,7 +171,7 @@ def check_output_path(path, field="output"):
     except OSError as exc:
         raise ConfigError(f"{field}: {raw!r} cannot be written ({exc.strerror or exc}); allowed: a file in a "
                           "writable folder") from None
-    if path.exists() and not os.access(path, os.W_OK):
+    if path.exists() and not os.access(path, os.W_OK) and not zarr:
         raise ConfigError(f"{field}: {raw!r} exists and is not writable; allowed: a writable file path")
     return path
 

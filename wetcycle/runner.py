@@ -29,6 +29,8 @@ WATER_CYCLE_KEYS = ("air_temperature", "air_vapor_pressure", "air_relative_humid
                     "surface_vapor_pressure", "sensible_heat_flux", "downwelling_longwave",
                     "surface_water_flux", "atmosphere_exchange", "dust_optical_depth",
                     "free_vapor_pressure")
+#: Per-salt water-budget statistics of energy-balance runs (DESIGN decision 4).
+WATER_CYCLE_STATS = ("salt_water_uptake", "surface_water_delivered", "uptake_exceeds_supply_steps")
 PHASE_KEYS = ("phase_state", "brine_water_activity", "liquid_water", "hydrate_water", "ice_water",
               "liquid_fraction", "validity_flag")
 
@@ -340,14 +342,41 @@ def run(scenario, *, write=True, progress=False, output_path=None):
     if write:  # refuse an unwritable result path before computing anything
         output.check_output_path(output_path or sc.output_path, "output_path" if output_path else "output")
     src = forcing_source(sc, progress=progress)
+    stats, series, phase_series = simulate(sc, src, phase_models(sc), keep_series=sc["output"]["series"],
+                                           progress=progress)
+    ds = output.build_dataset(sc, src, stats, series, phase_series)
+    if write:
+        output.write_result(ds, output_path or sc.output_path)
+    return ds
+
+
+def phase_models(sc, tables=None):
+    """One :class:`PhaseModel` per ``[[salt]]`` of the scenario; ``tables`` (salt name -> PhaseTables)
+    are used as given when passed (a worker process never looks a salt up by name)."""
     ph = sc["phase"]
-    models = [PhaseModel(s["name"], law=ph["law"], layer_thickness_m=ph["layer_thickness"],
-                         diffusivity_factor=ph["diffusivity_factor"]) for s in sc.salts]
+    return [PhaseModel(s["name"], law=ph["law"], layer_thickness_m=ph["layer_thickness"],
+                       diffusivity_factor=ph["diffusivity_factor"],
+                       tables=None if tables is None else tables[s["name"]]) for s in sc.salts]
+
+
+def statistics(sc, tables=None):
+    """Statistics of a scenario's cells without series or dataset: (list per salt of dicts, source)."""
+    src = forcing_source(sc)
+    stats, _, _ = simulate(sc, src, phase_models(sc, tables), keep_series=False)
+    return stats, src
+
+
+def simulate(sc, src, models, *, keep_series, progress=False):
+    """Stream the forcing blocks of ``src`` through the phase models and the accumulators.
+
+    Returns (statistics per salt, forcing series or None, phase series per salt or None).
+    """
+    ph = sc["phase"]
     hab = sc["habitability"]
     n_sites = len(sc.sites)
     accs = [Accumulator.new(n_sites, sc["output"]["ls_bins"], hab["min_water_activity"], hab["min_temperature"])
             for _ in models]
-    keep = sc["output"]["series"]
+    keep = keep_series
     water_cycle = sc["forcing"]["kind"] == "energy_balance"
     series_keys = FORCING_KEYS + (WATER_CYCLE_KEYS if water_cycle else ())
     series = {k: [] for k in series_keys} if keep else None
@@ -405,7 +434,4 @@ def run(scenario, *, write=True, progress=False, output_path=None):
             st["salt_water_uptake"] = uptake[j]
             st["surface_water_delivered"] = delivered.copy()
             st["uptake_exceeds_supply_steps"] = exceed[j]
-    ds = output.build_dataset(sc, src, stats, series, phase_series)
-    if write:
-        output.write_result(ds, output_path or sc.output_path)
-    return ds
+    return stats, series, phase_series
