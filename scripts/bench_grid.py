@@ -1,19 +1,26 @@
-"""Benchmark: a gridded run, cells x steps per second, wall time, peak memory, 1 vs 2 workers.
+"""Benchmark of the gridded engine: cell-steps per second, where the time goes, peak memory.
 
-    python scripts/bench_grid.py [--cells 2000] [--sols 669] [--steps 48] [--spinup 2]
+    python scripts/bench_grid.py --global          # the issue-12 target run (several minutes)
+    python scripts/bench_grid.py --cells 2000 --workers 1 2
 
-Runs an invented uniform grid (about --cells cells between 60 S and 60 N) with three salts
-for --sols sols at --steps steps per sol after a fixed --spinup years, once with one worker
-and once with two, and prints the figures.  Peak memory is the largest resident set of this
-process and its worker children (resource.getrusage).  Issue 5 targets on a 2-core machine:
-a 2 x 2 degree global grid (16,200 cells), one Mars year after spin-up, 48 steps per sol,
-three salts, in under 5 minutes with under 4 GB peak memory.
+``--global``: the full 2 x 2 degree grid of Mars, poles included (90 x 180 = 16,200 cells,
+centres 89 S to 89 N), one Mars year (669 sols) at 48 steps per sol after 2 spin-up years
+(design decision 11), three salts (runs/grid_demo.toml's), uniform invented surface
+properties, on a local dask cluster of 2 worker processes.  Targets on the 2-core reference
+machine: under 5 minutes and under 4 GB.
+
+Printed: wall time; cell-steps per second; the share of worker time spent on the forcing
+(energy balance set-up, spin-up and blocks), the phase model (kernel and accumulators) and the
+store writes, and the assembly of the result; peak memory (sum of the resident sets of this
+process and its workers, sampled every 0.2 s with psutil); the measured start-up of a worker
+(cluster start, then a one-cell tile on each worker: import, numba cache load, tables); and the
+projection to a 1 x 1 degree grid (64,800 cells) on a 10-node cluster of such 2-core machines.
 """
 
 import argparse
 import math
-import resource
 import tempfile
+import threading
 import time
 import tomllib
 from pathlib import Path
@@ -21,47 +28,120 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 
 
-def scenario(n_cells, sols, steps, spinup, out):
+def scenario(out, *, cells=None, sols=669, steps=48, spinup=2, global_grid=False, chunk_cells=64):
     from wetcycle.config import scenario_from_dict
     doc = tomllib.loads((ROOT / "runs" / "grid_demo.toml").read_text())
     doc["grid"].pop("properties", None)  # uniform properties over the benchmark grid
     doc["grid"].pop("property_variables", None)
-    n_lat = max(int(math.sqrt(n_cells / 2)), 3)
-    n_lon = max(int(math.ceil(n_cells / n_lat)), 1)
-    doc["grid"].update(lat_min=-60.0, lat_max=60.0, lat_step=120.0 / max(n_lat - 1, 1),
-                       lon_min=0.0, lon_max=359.0, lon_step=359.0 / max(n_lon - 1, 1), chunk_cells=256)
+    if global_grid:
+        doc["grid"].update(lat_min=-89.0, lat_max=89.0, lat_step=2.0, lon_min=0.0, lon_max=358.0, lon_step=2.0)
+    else:
+        n_lat = max(int(math.sqrt(cells / 2)), 3)
+        n_lon = max(int(math.ceil(cells / n_lat)), 1)
+        doc["grid"].update(lat_min=-60.0, lat_max=60.0, lat_step=120.0 / max(n_lat - 1, 1),
+                           lon_min=0.0, lon_max=359.0, lon_step=359.0 / max(n_lon - 1, 1))
+    doc["grid"]["chunk_cells"] = chunk_cells
     doc["clock"].update(sols=sols, steps_per_sol=steps, spinup_max_years=spinup)
     doc["clock"].pop("years", None)
     doc["scenario"]["output"] = str(out)
     return scenario_from_dict(doc)
 
 
+class MemorySampler(threading.Thread):
+    """Peak of the summed resident memory of this process and its children."""
+
+    def __init__(self):
+        super().__init__(daemon=True)
+        self.peak = 0
+        self.stop = threading.Event()
+
+    def run(self):
+        import psutil
+        me = psutil.Process()
+        while not self.stop.is_set():
+            total = 0
+            for p in [me] + me.children(recursive=True):
+                try:
+                    total += p.memory_info().rss
+                except psutil.Error:
+                    pass
+            self.peak = max(self.peak, total)
+            time.sleep(0.2)
+
+
+def worker_startup(workers, tmp):
+    """Seconds to start a local cluster, and then for a one-cell tile on each worker (cold worker)."""
+    from wetcycle import grid
+    from wetcycle.runner import phase_models
+    t0 = time.perf_counter()
+    client, cluster = grid.dask_client(None, workers)
+    t_cluster = time.perf_counter() - t0
+    try:
+        sc = scenario(Path(tmp) / "s.nc", cells=8, sols=1, steps=48, spinup=0)
+        tables = {m.tables.name: m.tables for m in phase_models(sc)}
+        t1 = time.perf_counter()
+        futs = [client.submit(_one_cell, sc, tables, pure=False, workers=[w])
+                for w in client.scheduler_info()["workers"]]
+        client.gather(futs)
+        t_first = time.perf_counter() - t1
+    finally:
+        grid._close(client, cluster)
+    return t_cluster, t_first
+
+
+def _one_cell(sc, tables):
+    import dataclasses
+
+    from wetcycle.runner import statistics
+    statistics(dataclasses.replace(sc, sites=sc.sites[:1]), tables)
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    ap.add_argument("--global", dest="global_grid", action="store_true", help="the 2 x 2 degree global grid")
     ap.add_argument("--cells", type=int, default=2000)
     ap.add_argument("--sols", type=int, default=669)
     ap.add_argument("--steps", type=int, default=48)
     ap.add_argument("--spinup", type=int, default=2)
-    ap.add_argument("--workers", type=int, nargs="+", default=[1, 2], help="worker counts to time")
+    ap.add_argument("--chunk-cells", type=int, default=180, help="cells per tile (default one row of the 2 deg grid)")
+    ap.add_argument("--workers", type=int, nargs="+", default=[2], help="worker counts to time")
     a = ap.parse_args()
     from wetcycle.grid import run_grid
-    walls = {}
     with tempfile.TemporaryDirectory() as tmp:
-        run_grid(scenario(8, 2, a.steps, 0, Path(tmp) / "warm.nc"))  # compile and build tables first
+        run_grid(scenario(Path(tmp) / "warm.nc", cells=8, sols=2, steps=a.steps, spinup=0))  # compile first
+        t_cluster, t_first = worker_startup(max(a.workers), tmp)
+        print(f"worker start-up: local cluster {t_cluster:.1f} s, then a first one-cell tile on each worker "
+              f"{t_first:.1f} s (import, numba cache, tables)")
         for workers in a.workers:
-            sc = scenario(a.cells, a.sols, a.steps, a.spinup, Path(tmp) / f"w{workers}.nc")
+            sc = scenario(Path(tmp) / f"w{workers}.nc", cells=a.cells, sols=a.sols, steps=a.steps,
+                          spinup=a.spinup, global_grid=a.global_grid, chunk_cells=a.chunk_cells)
             n = len(sc.sites)
+            steps = a.sols * a.steps
+            mem = MemorySampler()
+            mem.start()
+            spent = {}
             t0 = time.perf_counter()
-            run_grid(sc, workers=workers)
-            walls[workers] = time.perf_counter() - t0
-            rate = n * a.sols * a.steps / walls[workers]
-            print(f"workers {workers}: {n} cells x {a.sols * a.steps} steps ({a.spinup} spin-up years, "
-                  f"3 salts): {walls[workers]:.1f} s, {rate:.3e} cell-steps/s")
-    peak_mb = max(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
-                  resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss) / 1024.0
-    if 1 in walls and 2 in walls:
-        print(f"speed-up 1 -> 2 workers: {walls[1] / walls[2]:.2f}x")
-    print(f"peak resident memory (largest process): {peak_mb:.0f} MB")
+            run_grid(sc, workers=workers, timings=spent)
+            wall = time.perf_counter() - t0
+            mem.stop.set()
+            mem.join()
+            rate = n * steps / wall
+            work = spent["forcing"] + spent["phase"] + spent["io"]
+            print(f"workers {workers}: {n} cells x {steps} steps ({a.spinup} spin-up years, 3 salts): "
+                  f"{wall:.1f} s ({wall / 60:.2f} min), {rate:.3e} cell-steps/s, "
+                  f"peak memory {mem.peak / 1e9:.2f} GB (this process + workers)")
+            print(f"  worker time: forcing {100 * spent['forcing'] / work:.0f} %, phase model "
+                  f"{100 * spent['phase'] / work:.0f} %, store writes {100 * spent['io'] / work:.1f} %; "
+                  f"assembling the result {spent['assemble']:.1f} s")
+            per_worker = n * steps / (work / 1.0) if work else float("nan")  # cell-steps/s per busy worker
+            cells_1deg = 180 * 360
+            nodes, per_node = 10, 2
+            compute = cells_1deg * steps / (per_worker * nodes * per_node)
+            assemble = spent["assemble"] * cells_1deg / n
+            total = t_cluster + t_first + compute + assemble
+            print(f"  projection, 1 x 1 degree ({cells_1deg} cells) on {nodes} nodes x {per_node} workers: "
+                  f"start-up {t_cluster + t_first:.0f} s + compute {compute:.0f} s + assembly {assemble:.0f} s "
+                  f"= {total / 60:.1f} min (per-worker rate {per_worker:.3e} cell-steps/s, from this run)")
 
 
 if __name__ == "__main__":

@@ -105,6 +105,7 @@ SCHEMA = {
         # chamber / file
         "programme": (str, None, None, None, "chamber programme TOML, relative to the scenario"),
         "path": (str, None, None, None, "forcing CSV/NetCDF, relative to the scenario"),
+        "variables": (dict, None, None, None, "NetCDF forcing: our name = the file's variable"),
         "gap_policy": (str, "refuse", None, None, "refuse | interpolate"),
         "max_gap_s": (NUM, None, 0.0, 1e9, "s"),
     },
@@ -290,8 +291,10 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
             raise ConfigError(f"{source}: [grid] and [[site]]: give one or the other, not both")
         if grid["lat_max"] < grid["lat_min"] or grid["lon_max"] < grid["lon_min"]:
             raise ConfigError(f"{source}: grid: lat_max/lon_max must not be below lat_min/lon_min")
-        if not tables["forcing"]["kind"] == "energy_balance":
-            raise ConfigError(f"{source}: grid: gridded runs need forcing.kind = energy_balance")
+        fk_, fp_ = tables["forcing"]["kind"], tables["forcing"]["path"]
+        if not (fk_ == "energy_balance" or (fk_ == "file" and str(fp_).lower().endswith((".nc", ".nc4", ".cdf")))):
+            raise ConfigError(f"{source}: grid: forcing.kind = {fk_!r} is not allowed for a grid; allowed: "
+                              "energy_balance, or file with a NetCDF forcing.path on (time, lat, lon)")
         doc = dict(doc, site=grid_sites(grid, base_dir=Path(base_dir), source=source))
         tables["output"]["series"] = False  # a grid keeps statistics only
     lists = {}

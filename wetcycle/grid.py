@@ -130,8 +130,14 @@ def _sub_scenario(sc, ks):
 
 
 def compute_tile(run, tile):
-    """Compute one tile's statistics and write them into its region of the store; return its index."""
+    """Compute one tile's statistics and write them into its region of the store.
+
+    Returns (tile index, {"forcing", "phase", "io": seconds, "cells": number computed}).
+    """
+    import time
+
     from .runner import statistics
+    timings = {"forcing": 0.0, "phase": 0.0}
 
     r0, r1 = tile.rows
     c0, c1 = tile.cols
@@ -143,18 +149,20 @@ def compute_tile(run, tile):
            for name, trail in run.layout.items()}
     live = np.argwhere(idx >= 0)
     if live.size:
-        stats, _ = statistics(_sub_scenario(run.scenario, idx[idx >= 0]), run.tables)
+        stats, _ = statistics(_sub_scenario(run.scenario, idx[idx >= 0]), run.tables, timings)
         for name in run.layout:
             for s, st in enumerate(stats):
                 v = np.asarray(st[name], dtype=float)  # [cell] or [bin, cell]
                 out[name][s][..., live[:, 0], live[:, 1]] = v
+    t_io = time.perf_counter()
     region = {"lat": slice(r0, r1), "lon": slice(c0, c1)}
     data = {name: (("salt",) + run.layout[name] + ("lat", "lon"), arr) for name, arr in out.items()}
     xr.Dataset(data).to_zarr(run.store, region=region, mode="r+", consolidated=False)
     state = np.where(idx >= 0, 1.0, 0.0).astype(np.float32)
     xr.Dataset({"cell_state": (("lat", "lon"), state)}).to_zarr(run.store, region=region, mode="r+",
                                                                  consolidated=False)
-    return tile.index
+    timings.update(io=time.perf_counter() - t_io, cells=int(live.shape[0]))
+    return tile.index, timings
 
 
 # ---- the store ----------------------------------------------------------------------------
@@ -282,7 +290,7 @@ def _close(client, cluster):
 
 
 def _execute(run, todo, workers, scheduler, done_cb):
-    """Run ``compute_tile`` over ``todo`` on dask; ``done_cb(tile index)`` as each finishes."""
+    """Run ``compute_tile`` over ``todo`` on dask; ``done_cb(tile index, timings)`` as each finishes."""
     if scheduler is None and workers == 1:
         import dask
         from dask.callbacks import Callback
@@ -290,7 +298,7 @@ def _execute(run, todo, workers, scheduler, done_cb):
         class _Done(Callback):
             def _posttask(self, key, result, dsk, state, id):
                 if isinstance(key, tuple) and key and str(key[0]).startswith("tile-"):
-                    done_cb(result)
+                    done_cb(*result)
 
         graph = {("tile-", t.index): (compute_tile, "run", t) for t in todo}
         graph["run"] = run
@@ -303,14 +311,14 @@ def _execute(run, todo, workers, scheduler, done_cb):
         run_f = client.scatter(run, broadcast=True)
         futs = client.map(compute_tile, [run_f] * len(todo), todo, pure=False)
         for f in as_completed(futs):
-            done_cb(f.result())
+            done_cb(*f.result())
     finally:
         _close(client, cluster)
 
 
 # ---- the run ------------------------------------------------------------------------------
 def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=None, fresh=False,
-             scheduler=None):
+             scheduler=None, timings=None):
     """Run a gridded scenario tile by tile; return the statistics on (salt, [bin,] lat, lon).
 
     Parameters
@@ -325,6 +333,9 @@ def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=Non
         Discard the run store of an earlier run and start over.
     output_path : path, optional
         Overrides ``scenario.output``; a path ending in ``.zarr`` writes a zarr store.
+    timings : dict, optional
+        Receives the seconds spent in the tiles on forcing, phase model and store writes (summed
+        over workers), and on assembling and writing the result ("assemble").
     """
     sc = scenario if isinstance(scenario, Scenario) else load_scenario(scenario)
     if sc["grid"] is None:
@@ -357,15 +368,26 @@ def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=Non
         if progress:
             from tqdm import tqdm
             bar = tqdm(total=len(all_tiles), initial=len(all_tiles) - len(todo), unit="tile", desc=sc.name)
+        spent = timings if timings is not None else {}
+
+        def finished(k, t):
+            for key in ("forcing", "phase", "io", "cells"):
+                spent[key] = spent.get(key, 0) + t[key]
+            if bar is not None:
+                bar.update(1)
+
         try:
-            _execute(run, todo, workers, scheduler, lambda k: bar.update(1) if bar is not None else None)
+            _execute(run, todo, workers, scheduler, finished)
         finally:
             if bar is not None:
                 bar.close()
+        import time
+        t0 = time.perf_counter()
         ds = assemble(sc, store, hashes)
         if write:
             write_grid_result(ds, out_path)
             shutil.rmtree(store)  # the result holds everything; a rerun starts afresh
+        spent["assemble"] = time.perf_counter() - t0
     return ds
 
 

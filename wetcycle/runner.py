@@ -8,6 +8,7 @@ are kept only when the scenario asks for them.
 
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass
 
 import numpy as np
@@ -92,8 +93,12 @@ def _rh(e, T):
     return np.clip(rh, 0.0, 1.0), rhi
 
 
-def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None):
-    """A ForcingSource from full series [step, site] (prescribed or file forcing)."""
+def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None, salt_T=None, frost=None):
+    """A ForcingSource from full series [step, site] (prescribed or file forcing).
+
+    ``salt_T`` is the temperature at the salt (default the surface temperature ``T``), ``frost``
+    the surface water frost [kg m-2] (default none).
+    """
     n = T.shape[0]
     if rh is None:
         rh, rhi = _rh(e, T)
@@ -101,9 +106,9 @@ def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None):
         e = rh * saturation_vapor_pressure_liquid(np.clip(T, 123.0, 332.0))
         _, rhi = _rh(e, T)
     P = np.broadcast_to(P if P is not None else planet.mean_surface_pressure_pa, T.shape)
-    data = dict(surface_temperature=T, salt_temperature=T, vapor_pressure=e, relative_humidity=rh,
-                relative_humidity_ice=rhi, surface_pressure=P, water_frost=np.zeros_like(T),
-                co2_frost=np.zeros_like(T))
+    data = dict(surface_temperature=T, salt_temperature=T if salt_T is None else salt_T, vapor_pressure=e,
+                relative_humidity=rh, relative_humidity_ice=rhi, surface_pressure=P,
+                water_frost=np.zeros_like(T) if frost is None else frost, co2_frost=np.zeros_like(T))
     lon = _sites(sc)("longitude")
     ltst = clock.local_true_solar_time(lon)
     spd = clock.steps_per_sol
@@ -311,17 +316,48 @@ def _forcing_from_clock(sc, clock, planet, kind, progress):
         return _series_source(sc, clock, planet, T, e=np.asarray(fs.vapor_pressure_Pa, dtype=float),
                               P=None if fs.surface_pressure_Pa is None else np.asarray(fs.surface_pressure_Pa))
     # file
-    from .forcing.files import read_csv_forcing, read_netcdf_forcing
+    from .forcing.files import read_csv_forcing
     path = sc.resolve(f["path"])
-    if path.suffix.lower() in (".nc", ".nc4", ".cdf"):
-        raise ConfigError(f"{sc.source}: forcing.path: NetCDF forcing needs a variable mapping; "
-                          "use the Python API (wetcycle.forcing.files.read_netcdf_forcing) or a CSV file")
+    if path.suffix.lower() in NETCDF_SUFFIXES:
+        return _netcdf_source(sc, clock, planet, path)
     fs = read_csv_forcing(path, clock, gap_policy=f["gap_policy"], max_gap_s=f["max_gap_s"])
     n_sites = len(sc.sites)
     col = lambda a: None if a is None else np.repeat(np.asarray(a, dtype=float).reshape(-1, 1), n_sites, axis=1) \
         if np.ndim(a) == 1 else np.asarray(a, dtype=float)
     return _series_source(sc, clock, planet, col(fs.temperature_K), e=col(fs.vapor_pressure_Pa),
                           rh=col(fs.relative_humidity), P=col(fs.surface_pressure_Pa))
+
+
+NETCDF_SUFFIXES = (".nc", ".nc4", ".cdf", ".netcdf")
+
+
+def _netcdf_source(sc, clock, planet, path):
+    """Forcing of every site or grid cell from a NetCDF file on (time[, lat, lon]).
+
+    The salt's temperature comes from the file's ``salt_temperature`` when mapped, otherwise from
+    the regolith column driven by the file's surface temperature (sites with ``salt_depth`` > 0).
+    """
+    from .forcing.files import read_netcdf_cells, salt_temperature_from_surface
+    f = sc["forcing"]
+    if not f["variables"]:
+        raise ConfigError(f"{sc.source}: forcing.variables: required for a NetCDF forcing.path; allowed: a table "
+                          "of our name = the file's variable, e.g. { time = \"time\", temperature = \"ts\", "
+                          "vapor_pressure = \"e\" }")
+    g = _sites(sc)
+    q = read_netcdf_cells(path, clock, f["variables"], g("latitude"), g("longitude"), gap_policy=f["gap_policy"],
+                          max_gap_s=f["max_gap_s"])
+    T = q["temperature_K"]
+    salt_T = q.get("salt_temperature_K")
+    if salt_T is None:
+        salt_T = salt_temperature_from_surface(T, clock.dt_s, g("salt_depth"), g("thermal_inertia"),
+                                               _site_or(sc, "density", 1500.0), _site_or(sc, "heat_capacity", 800.0),
+                                               planet)
+    return _series_source(sc, clock, planet, T, e=q.get("vapor_pressure_Pa"), rh=q.get("relative_humidity"),
+                          P=q.get("surface_pressure_Pa"), salt_T=salt_T, frost=q.get("water_frost_kg_m2"))
+
+
+def _site_or(sc, key, default):
+    return np.array([s.get(key, default) for s in sc.sites], dtype=float)
 
 
 def run(scenario, *, write=True, progress=False, output_path=None):
@@ -359,17 +395,25 @@ def phase_models(sc, tables=None):
                        tables=None if tables is None else tables[s["name"]]) for s in sc.salts]
 
 
-def statistics(sc, tables=None):
-    """Statistics of a scenario's cells without series or dataset: (list per salt of dicts, source)."""
+def statistics(sc, tables=None, timings=None):
+    """Statistics of a scenario's cells without series or dataset: (list per salt of dicts, source).
+
+    ``timings``, a dict, receives the seconds spent on the forcing (set-up, spin-up and blocks)
+    and on the phase model (kernel and accumulators) under "forcing" and "phase".
+    """
+    t0 = time.perf_counter()
     src = forcing_source(sc)
-    stats, _, _ = simulate(sc, src, phase_models(sc, tables), keep_series=False)
+    if timings is not None:
+        timings["forcing"] = timings.get("forcing", 0.0) + time.perf_counter() - t0
+    stats, _, _ = simulate(sc, src, phase_models(sc, tables), keep_series=False, timings=timings)
     return stats, src
 
 
-def simulate(sc, src, models, *, keep_series, progress=False):
+def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
     """Stream the forcing blocks of ``src`` through the phase models and the accumulators.
 
     Returns (statistics per salt, forcing series or None, phase series per salt or None).
+    ``timings``: see :func:`statistics`.
     """
     ph = sc["phase"]
     hab = sc["habitability"]
@@ -392,7 +436,12 @@ def simulate(sc, src, models, *, keep_series, progress=False):
     if progress:
         from tqdm import tqdm
         bar = tqdm(total=src.n_steps, unit="step", desc=f"{sc.name}", leave=False)
+    clock = time.perf_counter
+    t_forcing = t_phase = 0.0
+    t_mark = clock()
     for blk in src.blocks:
+        t_start_phase = clock()
+        t_forcing += t_start_phase - t_mark
         d = blk.data
         frost = d["water_frost"] if ph["frost_contact"] else np.zeros_like(d["water_frost"])
         if water_cycle:
@@ -426,8 +475,13 @@ def simulate(sc, src, models, *, keep_series, progress=False):
                 series[k].append(np.asarray(d[k], dtype=np.float32))
         if bar is not None:
             bar.update(blk.i1 - blk.i0)
+        t_mark = clock()
+        t_phase += t_mark - t_start_phase
     if bar is not None:
         bar.close()
+    if timings is not None:
+        timings["forcing"] = timings.get("forcing", 0.0) + t_forcing
+        timings["phase"] = timings.get("phase", 0.0) + t_phase
     stats = [acc.finish(src.years) for acc in accs]
     if water_cycle:
         for j, st in enumerate(stats):

@@ -10,8 +10,9 @@ The conversions are those of the IAU SOFA/ERFA library (pyerfa): ``dtf2d``,
 ``utctai`` and ``taitt`` one way, ``tttai``, ``taiutc`` and ``d2dtf`` back.
 ERFA keeps the table of TAI - UTC (IERS Bulletin C, leap seconds since 1972,
 and the drift rates of 1960-1971 UTC), so no table is kept here; a pyerfa
-release after a new leap second knows it.  UTC before 1960-01-01 is refused
-(ERFA's "dubious year").
+release after a new leap second knows it.  UTC before 1960-01-01 is refused;
+after the last leap second ERFA knows, TAI - UTC keeps its last value (a
+leap second announced later would put later times 1 s off).
 
 Conventions
 -----------
@@ -75,13 +76,15 @@ def _to_datetime64(value):
 
 
 def _erfa(func, *args):
-    """Call an ERFA function; its warnings (a dubious year) become a ValidityError."""
+    """Call an ERFA function quietly.
+
+    ERFA warns of a "dubious year" before 1960 (refused by the callers here, before calling) and
+    more than five years after its release (no leap second known that far ahead: TAI - UTC is
+    held at its last value; a future leap second would put later times 1 s off).
+    """
     with warnings.catch_warnings():
-        warnings.simplefilter("error", erfa.ErfaWarning)
-        try:
-            return func(*args)
-        except erfa.ErfaWarning as exc:
-            raise ValidityError(f"time: outside the range of UTC (from {UTC_START} on): {exc}") from None
+        warnings.simplefilter("ignore", erfa.ErfaWarning)
+        return func(*args)
 
 
 def utc_to_jd_tt(utc):

@@ -147,10 +147,11 @@ def _model_calendar_seconds(src, tname, tunits, values, calendar, clock):
         raise InputDataError(f"{src}: variable {tname!r}: {exc}") from None
 
 
-def _assemble(src, t_file, cols, clock, gap_policy, max_gap_s, label):
+def _assemble(src, t_file, cols, clock, gap_policy, max_gap_s, label, as_series=True):
     """Check times, ranges and gaps, then interpolate onto clock.time_s.
 
     cols : {quantity: (values_SI, column_label)}; label(i) names row i for messages.
+    Returns a ForcingSeries, or with ``as_series=False`` a dict quantity -> values on the clock.
     """
     if t_file.size < 2:
         raise InputDataError(f"{src}: has {t_file.size} data rows; allowed: at least 2")
@@ -168,7 +169,7 @@ def _assemble(src, t_file, cols, clock, gap_policy, max_gap_s, label):
                 f"{src}: {label(i + 1)}, time column: {d[i]:g} s after the previous row, more than 1.5 x the "
                 f"median spacing {med:g} s (missing rows); gap_policy 'refuse' (use 'interpolate' with max_gap_s)")
     for qty, (v, colname) in cols.items():
-        lo, hi = RANGES[qty]
+        lo, hi = _CELL_RANGES[qty]
         nan = np.isnan(v)
         bad = ~nan & ~((v >= lo) & (v <= hi))
         if np.any(bad):
@@ -210,7 +211,7 @@ def _assemble(src, t_file, cols, clock, gap_policy, max_gap_s, label):
                 raise InputDataError(f"{src}: {label(k + 1)}, time column: gap of {d[k]:g} s between rows "
                                      f"exceeds max_gap_s = {max_gap_s:g} s")
             out[qty] = np.interp(t_clock, t_file, v)
-    return ForcingSeries(time_s=t_clock, **out)
+    return ForcingSeries(time_s=t_clock, **out) if as_series else out
 
 
 def _check_quantities(src, qtys, what):
@@ -462,3 +463,245 @@ def read_netcdf_forcing(path, clock, variables, *, gap_policy="refuse", max_gap_
             qcols[qty] = (v if keep is None else v[keep], variables[ours])
     _check_quantities(src, qcols, "variable")
     return _assemble(src, t_file, qcols, clock, gap_policy, max_gap_s, lambda i: f"index {i}")
+
+
+# ---- NetCDF forcing on (time, lat, lon): climate-model and gridded measured fields ----------
+#: Our names in ``forcing.variables`` -> quantity; ``time`` and ``temperature`` (the surface
+#: temperature) and one of vapour pressure / relative humidity are required.
+CELL_NAMES = dict(NETCDF_NAMES, water_frost="water_frost_kg_m2", salt_temperature="salt_temperature_K")
+_CELL_UNITS = dict(NETCDF_UNITS, water_frost_kg_m2={"kg m-2": lambda x: x, "kg/m2": lambda x: x,
+                                                   "kg m**-2": lambda x: x},
+                   salt_temperature_K=NETCDF_UNITS["temperature_K"])
+_CELL_RANGES = dict(RANGES, water_frost_kg_m2=(0.0, 1.0e4), salt_temperature_K=RANGES["temperature_K"])
+
+
+def _horizontal(ds, da, src, theirs):
+    """Names of the latitude and longitude dimensions of ``da`` (CF: by standard name or units)."""
+    found = {}
+    for dim in da.dims:
+        if dim not in ds.coords:
+            continue
+        c = ds[dim]
+        std = str(c.attrs.get("standard_name", "")).lower()
+        units = str(c.attrs.get("units", "")).lower()
+        if std == "latitude" or units in ("degrees_north", "degree_north", "degrees_n") or dim in ("lat", "latitude"):
+            found["lat"] = dim
+        elif std == "longitude" or units in ("degrees_east", "degree_east", "degrees_e") or dim in ("lon", "longitude"):
+            found["lon"] = dim
+    if set(found) != {"lat", "lon"}:
+        raise InputDataError(f"{src}: variable {theirs!r} has dimensions {da.dims}; allowed: time only, or time "
+                             "with latitude and longitude coordinates (CF standard_name or degrees_north/east units)")
+    return found["lat"], found["lon"]
+
+
+def _nearest(src, axis, values, wanted, periodic):
+    """Index of the file cell nearest each wanted coordinate; refused beyond half a file spacing."""
+    v = np.asarray(values, dtype=float)
+    w = np.asarray(wanted, dtype=float)
+    d = v[None, :] - w[:, None]
+    if periodic:
+        d = (d + 180.0) % 360.0 - 180.0
+    idx = np.argmin(np.abs(d), axis=1)
+    step = float(np.median(np.abs(np.diff(np.sort(v))))) if v.size > 1 else 360.0
+    far = np.abs(d[np.arange(w.size), idx]) > 0.5 * step + 1e-6
+    if np.any(far):
+        k = int(np.flatnonzero(far)[0])
+        raise InputDataError(f"{src}: does not cover {axis} {w[k]:g} (nearest {v[idx[k]]:g}, file spacing "
+                             f"{step:g} degrees)")
+    return idx
+
+
+def _interp_cells(src, t_file, v, t_clock, qty, colname, gap_policy, max_gap_s):
+    """Check one quantity [file time, cell] and interpolate it onto the clock, all cells at once."""
+    lo, hi = _CELL_RANGES[qty]
+    nan = np.isnan(v)
+    bad = ~nan & ~((v >= lo) & (v <= hi))
+    if np.any(bad):
+        i, c = (int(x[0]) for x in np.nonzero(bad))
+        raise InputDataError(f"{src}: index {i}, cell {c}, variable {colname!r}: {float(v[i, c])!r} (as {qty}) is "
+                             f"outside the allowed {lo:g}-{hi:g}")
+    if np.any(nan):
+        if gap_policy == "refuse":
+            i, c = (int(x[0]) for x in np.nonzero(nan))
+            raise InputDataError(f"{src}: index {i}, cell {c}, variable {colname!r}: missing value; gap_policy "
+                                 "'refuse' (use 'interpolate' with max_gap_s)")
+        out = np.empty((t_clock.size, v.shape[1]))
+        for c in np.flatnonzero(nan.any(axis=0)):  # only cells with gaps, one at a time
+            out[:, c] = _assemble(src, t_file, {qty: (v[:, c], colname)}, _ClockTimes(t_clock), gap_policy,
+                                  max_gap_s, lambda i, c=c: f"index {i}, cell {c}", as_series=False)[qty]
+        clean = ~nan.any(axis=0)
+    else:
+        out = np.empty((t_clock.size, v.shape[1]))
+        clean = np.ones(v.shape[1], bool)
+    # one set of interpolation weights for every clean cell
+    j = np.clip(np.searchsorted(t_file, t_clock, side="right") - 1, 0, t_file.size - 2)
+    w = (t_clock - t_file[j]) / (t_file[j + 1] - t_file[j])
+    out[:, clean] = v[j][:, clean] * (1.0 - w[:, None]) + v[j + 1][:, clean] * w[:, None]
+    return out
+
+
+class _ClockTimes:
+    """A stand-in clock holding only ``time_s`` (for :func:`_assemble` on one cell)."""
+
+    def __init__(self, t):
+        self.time_s = t
+
+
+def read_netcdf_cells(path, clock, variables, latitude, longitude, *, gap_policy="refuse", max_gap_s=None,
+                      time_block=4096):
+    """Read forcing for cells from a NetCDF file on (time[, lat, lon]), as climate models write it.
+
+    Parameters
+    ----------
+    path : str or Path
+    clock : wetcycle.clock.Clock
+    variables : dict
+        Our name -> the file's variable: ``time``, ``temperature`` (surface) and ``vapor_pressure``
+        or ``relative_humidity``; optional ``surface_pressure``, ``water_frost`` [kg m-2] and
+        ``salt_temperature``.  Units from each variable's ``units`` (module notes).
+    latitude, longitude : array [cell] [degrees north, east]
+        The cells.  A variable on (time, lat, lon) is taken at the nearest file cell (within
+        half its spacing; latitudes in either direction, longitudes 0-360 or -180-180); a
+        variable on time alone applies to every cell.  Dimensions in any order.
+    gap_policy, max_gap_s : see :func:`read_csv_forcing`
+    time_block : int
+        File records read at a time (dask chunks): a file larger than memory is read lazily,
+        only the cells asked for.
+
+    Returns
+    -------
+    dict quantity -> ndarray [step, cell] in SI units on ``clock.time_s`` (quantities as in
+    :data:`CELL_NAMES`).
+    """
+    import xarray as xr
+
+    _check_policy(gap_policy, max_gap_s)
+    if not isinstance(variables, dict):
+        raise ConfigError(f"forcing.variables: {variables!r} is not allowed; allowed: a table of our name = "
+                          "the file's variable")
+    unknown = set(variables) - set(CELL_NAMES)
+    if unknown:
+        raise ConfigError(f"forcing.variables.{sorted(unknown)[0]}: not one of our names; allowed: "
+                          f"{', '.join(CELL_NAMES)}")
+    if "time" not in variables:
+        raise ConfigError("forcing.variables.time: missing; map it to the file's time variable")
+    path = Path(path)
+    src = path.name
+    lat = np.atleast_1d(np.asarray(latitude, dtype=float))
+    lon = np.atleast_1d(np.asarray(longitude, dtype=float))
+    try:
+        ds = xr.open_dataset(path, decode_times=False, decode_timedelta=False, chunks={})
+    except (OSError, ValueError) as exc:
+        raise InputDataError(f"{path}: cannot be read as NetCDF ({exc})") from None
+    with ds:
+        for ours, theirs in variables.items():
+            if theirs not in ds.variables:
+                raise InputDataError(f"{src}: variable {theirs!r} (for {ours}) is not in the file; "
+                                     f"it has: {', '.join(map(str, ds.variables))}")
+        tda = ds[variables["time"]]
+        if tda.ndim != 1:
+            raise InputDataError(f"{src}: variable {variables['time']!r} (time) has dimensions {tda.dims}; allowed: 1-D")
+        tdim = tda.dims[0]
+        t_file, keep = _file_seconds(src, variables["time"], tda, clock)
+        cols = {}
+        for ours, theirs in variables.items():
+            if ours == "time":
+                continue
+            da = ds[theirs]
+            if tdim not in da.dims:
+                raise InputDataError(f"{src}: variable {theirs!r} ({ours}) has dimensions {da.dims}; allowed: "
+                                     f"the time dimension {tdim!r} with or without latitude and longitude")
+            units = da.attrs.get("units")
+            qty = CELL_NAMES[ours]
+            conv = _CELL_UNITS[qty].get(None if units is None else str(units).strip())
+            if conv is None:
+                raise InputDataError(f"{src}: variable {theirs!r} ({ours}): units {units!r} not allowed; allowed: "
+                                     f"{', '.join(_CELL_UNITS[qty])}")
+            if da.ndim == 1:
+                v = np.repeat(np.asarray(da.values, dtype=float)[:, None], lat.size, axis=1)
+            else:
+                ydim, xdim = _horizontal(ds, da, src, theirs)
+                extra = set(da.dims) - {tdim, ydim, xdim}
+                if extra:
+                    raise InputDataError(f"{src}: variable {theirs!r} has other dimensions {sorted(extra)}; "
+                                         "allowed: time, latitude, longitude")
+                ii = _nearest(src, "latitude", ds[ydim].values, lat, periodic=False)
+                jj = _nearest(src, "longitude", ds[xdim].values, lon, periodic=True)
+                sel = da.chunk({tdim: time_block}).isel({ydim: xr.DataArray(ii, dims="_cell"),
+                                                         xdim: xr.DataArray(jj, dims="_cell")})
+                v = np.asarray(sel.transpose(tdim, "_cell").values, dtype=float)
+            v = conv(v)
+            cols[qty] = (v if keep is None else v[keep], theirs)
+    _check_quantities(src, cols, "variable")
+    t_clock = clock.time_s
+    _assemble(src, t_file, {}, clock, gap_policy, max_gap_s, lambda i: f"index {i}", as_series=False)  # times
+    return {qty: _interp_cells(src, t_file, v, t_clock, qty, name, gap_policy, max_gap_s)
+            for qty, (v, name) in cols.items()}
+
+
+def _file_seconds(src, tname, tda, clock):
+    """A file's time variable as seconds since the clock start (and the records kept)."""
+    import xarray as xr
+
+    tunits = str(tda.attrs.get("units", "")).strip()
+    if not tunits:
+        raise InputDataError(f"{src}: variable {tname!r} has no units attribute")
+    calendar = str(tda.attrs.get("calendar", "standard")).strip().lower()
+    values = np.asarray(tda.values, dtype=float)
+    if " since " in tunits and calendar in _MODEL_CALENDARS:
+        return _model_calendar_seconds(src, tname, tunits, values, calendar, clock)
+    if " since " in tunits and calendar in _REAL_CALENDARS:
+        try:
+            dec = xr.decode_cf(xr.Dataset({"_t": ("_n", values, dict(tda.attrs))}))["_t"].values
+        except (ValueError, TypeError, OverflowError):
+            dec = np.array([], dtype=object)
+        if dec.dtype.kind != "M":
+            raise InputDataError(f"{src}: variable {tname!r}: units {tunits!r} could not be decoded")
+        return _relative_seconds("utc", dec.astype("datetime64[ns]"), clock), None
+    if " since " in tunits:
+        raise InputDataError(f"{src}: variable {tname!r}: calendar {calendar!r} not allowed; allowed: "
+                             f"{', '.join(_REAL_CALENDARS + _MODEL_CALENDARS)}")
+    if tunits in ("s", "seconds", "second"):
+        return _relative_seconds("s", values, clock), None
+    if tunits in ("sol", "sols"):
+        return _relative_seconds("sol", values, clock), None
+    raise InputDataError(f"{src}: variable {tname!r}: units {tunits!r} not allowed; allowed: s, sol, or "
+                         "'<unit> since <date>'")
+
+
+def salt_temperature_from_surface(surface_temperature, dt_s, depth_m, thermal_inertia, density, heat_capacity,
+                                  planet):
+    """Temperature at the salt's depth under a prescribed surface temperature series (per cell).
+
+    Method: the project's regolith conduction (:mod:`wetcycle.forcing.regolith`, implicit
+    Crank-Nicolson on a grid resolving the diurnal skin depth) driven by the file's surface
+    temperature as the upper boundary, insulated at the bottom.  The column starts at the series'
+    mean surface temperature, runs through the series once to spin up, and the second pass gives
+    the result: the series is taken as representative of the period before it (a year, or a
+    season of a roughly periodic record).  A cell at depth 0 gets its surface temperature.
+
+    Parameters
+    ----------
+    surface_temperature : ndarray [step, cell] [K], on a uniform step ``dt_s`` [s]
+    depth_m, thermal_inertia, density, heat_capacity : array [cell]
+        [m], [J m-2 K-1 s-1/2], [kg m-3], [J kg-1 K-1] (validated ranges of the scenario schema).
+    planet : wetcycle.orbit.Planet (sets the diurnal and annual skin depths of the grid)
+
+    Returns
+    -------
+    ndarray [step, cell] [K]
+    """
+    from .regolith import build_columns, conduct_prescribed, factorize, probe_weights
+
+    T = np.ascontiguousarray(surface_temperature, dtype=float)
+    depth = np.broadcast_to(np.asarray(depth_m, dtype=float), (T.shape[1],))
+    if not np.any(depth > 0):
+        return T.copy()
+    cols = build_columns(np.broadcast_to(thermal_inertia, depth.shape), np.broadcast_to(density, depth.shape),
+                         np.broadcast_to(heat_capacity, depth.shape), planet.sol_s, planet.year_days * 86400.0)
+    fac = factorize(cols, float(dt_s))
+    idx, w = probe_weights(cols, depth)
+    start = np.repeat(T.mean(axis=0)[None, :], cols.n_nodes, axis=0)
+    spun, _ = conduct_prescribed(start, T, fac, idx, w)
+    _, probe = conduct_prescribed(spun, T, fac, idx, w)
+    return np.where(depth[None, :] > 0, probe, T)
