@@ -263,3 +263,13 @@ def test_time_coordinate_is_cf_and_forcing_files_are_recorded(demo_result, tmp_p
     ds = run(scenario_from_dict(doc))
     assert ds.attrs["forcing_programme_text"] == prog.read_text()
     assert "standard_name" not in ds.time.attrs and ds.time.attrs["units"] == "s"
+
+
+@pytest.mark.parametrize("content", [b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR", "name = 'caf\u00e9'".encode("latin-1")])
+def test_binary_or_non_utf8_scenario_is_one_line(tmp_path, capsys, content):
+    # TOML 1.0 (toml.io): a TOML file is UTF-8 text; anything else is refused in one line.
+    p = tmp_path / "scenario.toml"
+    p.write_bytes(content)
+    code = cli.main(["run", str(p), "-q"])
+    err = capsys.readouterr().err
+    assert code == 2 and err.count("\n") == 1 and "not a text TOML file" in err

@@ -26,5 +26,13 @@ def die_with_parent():
 
 
 def dask_setup(worker=None):
-    """Hook called by dask.distributed's preload mechanism in each worker process."""
+    """Hook called by dask.distributed's preload mechanism in each worker process.
+
+    Ctrl-C reaches every process of the terminal's group: the workers leave it to their parent,
+    which stops the run in one line and closes them.
+    """
     die_with_parent()
+    try:
+        signal.signal(signal.SIGINT, signal.SIG_IGN)
+    except ValueError:  # not the main thread of the worker process
+        pass

@@ -408,16 +408,42 @@ def build_parser():
     return p
 
 
+class Terminated(BaseException):
+    """SIGTERM, raised in the main thread so that every clean-up (temporary files, workers) runs."""
+
+
+def _on_sigterm(signum, frame):
+    raise Terminated()
+
+
 def main(argv=None):
+    """Run the command; exit status 0, 2 for a user mistake, 130 for Ctrl-C, 143 for SIGTERM."""
+    import signal
+    import threading
+
     parser = build_parser()
     args = parser.parse_args(argv)
+    old = None
+    if threading.current_thread() is threading.main_thread():
+        old = signal.signal(signal.SIGTERM, _on_sigterm)
     try:
         return args.func(args)
     except WetcycleError as exc:
         print(f"wetcycle: error: {exc}", file=sys.stderr)
         return 2
+    except KeyboardInterrupt:
+        print("wetcycle: interrupted (a gridded run keeps its finished tiles: the same command resumes)",
+              file=sys.stderr)
+        return 130
+    except Terminated:
+        print("wetcycle: terminated (a gridded run keeps its finished tiles: the same command resumes)",
+              file=sys.stderr)
+        return 143
     except BrokenPipeError:
         return 0
+    finally:
+        if old is not None:
+            signal.signal(signal.SIGTERM, old)
 
 
 if __name__ == "__main__":

@@ -439,7 +439,14 @@ def load_scenario(path):
     path = Path(path)
     if not path.is_file():
         raise ConfigError(f"scenario: {str(path)!r} is not a file")
-    text = path.read_text(encoding="utf-8")
+    raw = path.read_bytes()
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        text = None
+    if text is None or "\x00" in text:
+        raise ConfigError(f"scenario: {str(path)!r} is not a text TOML file (not UTF-8 text); allowed: a "
+                          "scenario written as TOML, e.g. runs/demo.toml")
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:

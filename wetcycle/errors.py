@@ -24,6 +24,10 @@ class ValidityError(WetcycleError):
     """A physical function was asked for a state outside its validity range."""
 
 
+class OutputError(WetcycleError):
+    """A result could not be written (no space left, a folder that cannot be created)."""
+
+
 class UnknownNameError(WetcycleError):
     """A name (salt system, forcing kind, time law) is not in its registry."""
 

@@ -20,7 +20,7 @@ import numpy as np
 import xarray as xr
 
 from . import __version__
-from .errors import ConfigError, InputDataError
+from .errors import ConfigError, InputDataError, OutputError
 from .vocabulary import CRS, attrs
 
 CAUTION = ("Model estimates with stated uncertainties, not evidence of liquid water or of life. "
@@ -162,12 +162,20 @@ def check_output_path(path, field="output", *, allow_zarr=False):
     zarr = allow_zarr and path.suffix.lower() == ".zarr" and not raw.endswith(("/", os.sep))
     if not zarr and (raw.endswith(("/", os.sep)) or path.is_dir()):
         raise ConfigError(f"{field}: {raw!r} is a folder; allowed: a file path such as {str(path / 'result.nc')!r}")
+    # folders are created only when the result is written: look at the nearest existing one
     parent = path.parent
+    existing = parent
+    while not existing.exists() and existing != existing.parent:
+        existing = existing.parent
     try:
-        parent.mkdir(parents=True, exist_ok=True)
-        fd, probe = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".probe", dir=parent)
-        os.close(fd)
-        os.remove(probe)
+        if not existing.is_dir():
+            raise NotADirectoryError(20, "Not a directory")
+        if existing == parent:
+            fd, probe = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".probe", dir=parent)
+            os.close(fd)
+            os.remove(probe)
+        elif not os.access(existing, os.W_OK | os.X_OK):
+            raise PermissionError(13, "Permission denied")
     except OSError as exc:
         raise ConfigError(f"{field}: {raw!r} cannot be written ({exc.strerror or exc}); allowed: a file in a "
                           "writable folder") from None
@@ -231,17 +239,45 @@ def write_result(ds, path):
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     ds, enc = cf_encoded(ds)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    except OSError as exc:
+        raise _write_error(exc, path) from None
     os.close(fd)
     try:
         ds.to_netcdf(tmp, engine="netcdf4", encoding=enc)
         set_new_file_mode(tmp)
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         if os.path.exists(tmp):
             os.remove(tmp)
+        if isinstance(exc, (OSError, RuntimeError)):
+            raise _write_error(exc, path) from None
         raise
     return path
+
+
+def _write_error(exc, path):
+    """One line for a failed write: "no space left on <folder>" when the disk is full.
+
+    The NetCDF library reports a full disk as "NetCDF: HDF error"; the free space of the folder
+    (after the partial file is removed) tells a full disk from other failures.
+    """
+    import errno
+
+    folder = path.parent
+    full = getattr(exc, "errno", None) == errno.ENOSPC
+    if not full:
+        try:
+            st = os.statvfs(folder)
+            full = st.f_bavail * st.f_frsize < (1 << 20)  # under 1 MiB left
+        except OSError:
+            pass
+    if full:
+        return OutputError(f"output: no space left on {str(folder)!r} to write {path.name}; free some space or "
+                           "choose another output")
+    msg = str(getattr(exc, "strerror", None) or exc).splitlines()[0] if str(exc) else type(exc).__name__
+    return OutputError(f"output: {str(path)!r} could not be written ({msg})")
 
 
 def _read_umask():
