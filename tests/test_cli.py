@@ -106,3 +106,18 @@ def test_hydration_above_the_drh_is_marked_as_via_brine(capsys):
     assert hot["rh"] > at[0]["deliquescence_rh"] and hot["solid_state"] is False
     cold = at[1]["hydrate_transitions"][0]
     assert cold["rh"] < at[1]["deliquescence_rh"] and cold["solid_state"] is True
+
+
+def test_demo_runs_outside_a_checkout(tmp_path, monkeypatch):
+    # Issue: `wetcycle demo` worked only at the top of a checkout.  The package ships the scenario
+    # (identical to runs/demo.toml); outside a checkout the result goes to ./wetcycle-demo/.
+    from pathlib import Path
+    from wetcycle.config import load_scenario
+    root = Path(__file__).resolve().parents[1]
+    monkeypatch.chdir(tmp_path)
+    path, output = cli._demo_path()
+    assert path.read_text() == (root / "runs" / "demo.toml").read_text()
+    assert output == tmp_path / "wetcycle-demo" / "demo.nc"
+    assert load_scenario(path).name == "demo"
+    monkeypatch.chdir(root)
+    assert cli._demo_path() == (root / "runs" / "demo.toml", None)

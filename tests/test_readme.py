@@ -62,3 +62,23 @@ def test_json_schema_accepts_the_examples_and_refuses_what_wetcycle_refuses(caps
         broken[table][key] = bad
         with pytest.raises(jsonschema.ValidationError):
             jsonschema.validate(broken, schema)
+
+
+def test_license_file_matches_the_metadata():
+    # The package metadata declares BSD-3-Clause; the file must exist and say so (SPDX: BSD-3-Clause).
+    import tomllib
+    meta = tomllib.loads((ROOT / "pyproject.toml").read_text())["project"]
+    assert meta["license"]["text"] == "BSD-3-Clause"
+    text = (ROOT / "LICENSE").read_text()
+    assert text.startswith("BSD 3-Clause License") and "Neither the name of the copyright holder" in text
+
+
+def test_dependency_lower_bounds_are_consistent():
+    # NumPy 2.0 support arrived in numba 0.60 (numba release notes, from memory): a bound that
+    # allows numpy 2 must not allow an older numba.
+    import tomllib
+    deps = tomllib.loads((ROOT / "pyproject.toml").read_text())["project"]["dependencies"]
+    bound = {d.split(">=")[0].split("[")[0].strip().lower(): d.split(">=")[1].split(",")[0].split()[0]
+             for d in deps if ">=" in d}
+    assert bound["numpy"].startswith("2")
+    assert tuple(int(x) for x in bound["numba"].split(".")[:2]) >= (0, 60)

@@ -118,13 +118,14 @@ DEMO_SCENARIO = "runs/demo.toml"
 
 
 def _demo_path():
+    """The demo scenario: runs/demo.toml of a checkout when run from its top, else the packaged copy."""
+    from importlib.resources import files
     from pathlib import Path
     here = Path.cwd() / DEMO_SCENARIO
     if here.is_file():
-        return here
-    from .errors import ConfigError
-    raise ConfigError(f"demo: {DEMO_SCENARIO} not found in {Path.cwd()}; run the demo from the top of a "
-                      "wetcycle checkout")
+        return here, None
+    packaged = Path(str(files("wetcycle.demo") / "demo.toml"))
+    return packaged, Path.cwd() / "wetcycle-demo" / "demo.nc"
 
 
 def cmd_run(args):
@@ -151,9 +152,9 @@ def cmd_run(args):
 
 def cmd_demo(args):
     """The built-in demo: the demo scenario (invented site), then its table."""
-    path = _demo_path()
+    path, output = _demo_path()
     print(f"wetcycle demo: {path.name}, one Mars year at an invented mid-latitude site\n")
-    return cmd_run(argparse.Namespace(scenario=path, output=None, quiet=args.quiet, workers=1, fresh=False))
+    return cmd_run(argparse.Namespace(scenario=path, output=output, quiet=args.quiet, workers=1, fresh=False))
 
 
 def cmd_schema(args):
@@ -345,7 +346,8 @@ def build_parser():
     pr.set_defaults(func=cmd_run)
 
     pd = sub.add_parser("demo", help="run the built-in demo scenario",
-                        description=f"Run {DEMO_SCENARIO} (an invented site) from the top of a checkout.")
+                        description=f"Run the demo scenario (an invented site): {DEMO_SCENARIO} from the top "
+                        "of a checkout, elsewhere the copy shipped in the package (result in ./wetcycle-demo/).")
     pd.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
     pd.set_defaults(func=cmd_demo)
 
