@@ -103,7 +103,7 @@ def test_full_disk_is_one_line_and_leaves_nothing(tmp_path, capsys):
         assert code == 2 and err.count("\n") == 1 and "no space left on" in err
         assert list(disk.iterdir()) == []
     finally:
-        subprocess.run(["umount", str(disk)], capture_output=True)
+        subprocess.run(["umount", "-l", str(disk)], capture_output=True)
 
 
 def test_failed_run_creates_no_output_folder(tmp_path, capsys):

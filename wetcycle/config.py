@@ -139,7 +139,7 @@ SCHEMA = {
     },
     "output": {
         "series": (bool, True, None, None, "save full time series (site runs)"),
-        "ls_bins": (int, 12, 1, 360, "bins of Ls for liquid hours"),
+        "ls_bins": (int, 12, 1, 360, "bins of Ls for liquid hours (Mars; Earth: the 12 months)"),
     },
     "habitability": {
         "min_water_activity": (NUM, HABITABILITY_DEFAULTS["min_water_activity"], 0.0, 1.0, ""),
@@ -339,6 +339,22 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
     if isinstance(raw_clock, dict) and "years" in raw_clock and "sols" in raw_clock:
         raise ConfigError(f"{source}: clock.sols and clock.years: give one or the other, not both "
                           f"(got sols = {raw_clock['sols']!r}, years = {raw_clock['years']!r})")
+    if isinstance(raw_clock, dict):
+        if fk == "chamber":
+            ignored = sorted(set(raw_clock) - {"step_s"})
+            if ignored:
+                raise ConfigError(f"{source}: clock.{ignored[0]}: not used by a chamber programme (its segments set "
+                                  "the time); allowed in [clock]: step_s")
+        elif "step_s" in raw_clock:
+            raise ConfigError(f"{source}: clock.step_s: used by chamber programmes only; forcing.kind = {fk!r} "
+                              "steps by clock.steps_per_sol")
+    if sc["planet"] == "earth" and tables["output"]["ls_bins"] != 12:
+        raise ConfigError(f"{source}: output.ls_bins: {tables['output']['ls_bins']} is not allowed for planet earth; "
+                          "Earth runs bin by calendar month: allowed 12")
+    sols = tables["clock"]["sols"]
+    if sols is not None and sols != int(sols):
+        raise ConfigError(f"{source}: clock.sols: {shown(sols)} is not a whole number; allowed: whole sols "
+                          f"(the clock runs whole sols), e.g. {int(sols) or 1} or {int(sols) + 1}")
     if tables["clock"]["spinup_max_years"] == 1:
         raise ConfigError(f"{source}: clock.spinup_max_years: 1 is not allowed; 0 (no spin-up) or 2-60 "
                           "(periodicity needs two years to compare)")

@@ -46,8 +46,8 @@ from . import __version__
 from .config import Scenario, grid_axes, load_scenario
 from .errors import ConfigError, InputDataError
 from .inputs import fingerprint, input_hashes
-from .output import (CAUTION, add_crs, add_time_bounds, check_output_path, limit_notes, set_new_file_mode,
-                     time_attrs, write_result)
+from .output import (CAUTION, add_crs, add_time_bounds, check_output_path, frame_statistics, limit_notes,
+                     note_short_run, set_new_file_mode, time_attrs, write_result)
 from .runner import run_period
 from .stats import Accumulator
 from .vocabulary import attrs
@@ -101,8 +101,11 @@ def cell_index(sc):
 
 def _statistic_layout(sc):
     """{statistic name: trailing bin dimensions} as the accumulator produces them."""
-    from .runner import WATER_CYCLE_STATS
-    sample = Accumulator.new(1, sc["output"]["ls_bins"]).finish(1.0)
+    from .runner import WATER_CYCLE_STATS, statistics_frame
+    per_year, durations, _ = statistics_frame(sc)
+    n = sc["output"]["ls_bins"]
+    sample = Accumulator.new(1, n).finish(1.0, per_year=per_year,
+                                          bin_duration_s=None if durations is None else np.ones(n))
     out = {name: () if arr.ndim == 1 else ("hour_bin",) if "local_time" in name else ("ls_bin",)
            for name, arr in sample.items()}
     if sc["forcing"]["kind"] == "energy_balance":
@@ -397,13 +400,16 @@ def assemble(sc, store, hashes=None):
         ds = z.load()
     if np.isnan(ds["cell_state"].values).any():
         raise InputDataError(f"run store: {str(store)!r} is not finished")
-    ds = ds[[k for k in _statistic_layout(sc) if k in ds]]
+    bounds = [b for b in ("lat_bounds", "lon_bounds") if b in ds.variables]
+    ds = ds[[k for k in _statistic_layout(sc) if k in ds] + bounds].set_coords(bounds)
     for k in ("fingerprint", "chunk_cells", "wetcycle_version"):
         ds.attrs.pop(k, None)
     planet = sc["scenario"]["planet"]
     t_end, first, info = run_period(sc)
     ds = add_time_bounds(ds, [t_end], t_end + first, time_attrs(info))
     ds = add_crs(ds, planet)
+    from .runner import bin_coverage
+    ds = frame_statistics(ds, sc, bin_coverage(sc))
     hab = sc["habitability"]
     years = t_end_years(sc, t_end, first)
     ds.attrs.update(
@@ -417,6 +423,7 @@ def assemble(sc, store, hashes=None):
         habitability_min_water_activity=float(hab["min_water_activity"]),
         habitability_min_temperature_K=float(hab["min_temperature"]),
     )
+    note_short_run(ds, years, planet)
     if hashes is not None:
         ds.attrs["input_sha256"] = json.dumps(hashes, sort_keys=True)
     if info.get("start_utc"):

@@ -43,7 +43,7 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
     att = lambda name: attrs(name, planet=planet)
     salts = [s["name"] for s in sc.salts]
     sites = [s["name"] for s in sc.sites]
-    n_ls = stats[0]["liquid_hours_by_ls"].shape[0]
+    n_ls = sc["output"]["ls_bins"]
     coords = {
         "site": ("site", np.array(sites, dtype=object), att("site")),
         "salt": ("salt", np.array(salts, dtype=object), att("salt")),
@@ -61,7 +61,10 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
     t_attrs = time_attrs(src.info)
     if series is not None:
         coords["time"] = ("time", t, t_attrs)
-        coords["sol"] = ("time", np.asarray(src.sol), att("sol"))
+        sol_attrs = att("sol")
+        if planet == "earth":
+            sol_attrs["long_name"] = "day number since the start of the run"
+        coords["sol"] = ("time", np.asarray(src.sol), sol_attrs)
         coords["solar_longitude"] = ("time", np.asarray(src.ls_deg, dtype=float), att("solar_longitude"))
         coords["local_solar_time"] = (("site", "time"), np.asarray(src.ltst_h, dtype=float).T,
                                       att("local_solar_time"))
@@ -74,6 +77,8 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
     step = float(t[1] - t[0]) if t.size > 1 else 0.0
     ds = add_time_bounds(ds, t, step, t_attrs)
     ds = add_crs(ds, planet)
+    from .runner import bin_coverage
+    ds = frame_statistics(ds, sc, bin_coverage(sc, src))
     tables = dict(sc.tables, site=list(sc.sites), salt=list(sc.salts))
     hab = sc["habitability"]
     ds.attrs.update(
@@ -98,6 +103,40 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
             ds.attrs[key] = str(src.info[key])
     if src.info.get("forcing") == "energy_balance":
         ds.attrs["spinup_converged"] = int(bool(src.info.get("spinup_converged")))
+    if sc["forcing"]["kind"] != "chamber":
+        note_short_run(ds, float(src.years), planet)
+    return ds
+
+
+def frame_statistics(ds, sc, coverage):
+    """Name the season bins by what they are (design decision 7) and say how often each was simulated.
+
+    Mars: ``liquid_hours_by_ls`` on ``ls_bin`` with ``ls_bin_coverage``.  Earth: the bins are
+    calendar months: ``liquid_hours_by_month`` on ``month`` (1-12) with ``month_coverage``.  A
+    chamber programme has neither season bins nor local-time bins (no sun, no season).
+    """
+    planet = sc["scenario"]["planet"]
+    if coverage is None:
+        return ds.drop_vars([v for v in ("liquid_hours_by_ls", "ls_bin", "hour_bin") if v in ds.variables])
+    if planet == "earth":
+        ds = ds.rename({"liquid_hours_by_ls": "liquid_hours_by_month", "ls_bin": "month"})
+        ds = ds.assign_coords(month=("month", np.arange(1, 13, dtype=np.int32), attrs("month")))
+        ds["liquid_hours_by_month"].attrs = attrs("liquid_hours_by_month", planet=planet)
+        ds["liquid_hours_by_month"].attrs["grid_mapping"] = "crs"
+        return ds.assign_coords(month_coverage=("month", coverage, attrs("month_coverage")))
+    return ds.assign_coords(ls_bin_coverage=("ls_bin", coverage, attrs("ls_bin_coverage")))
+
+
+PER_YEAR = ("liquid_hours_per_year", "habitable_hours_per_year", "wet_events_per_year", "liquid_hours_by_local_time")
+
+
+def note_short_run(ds, years, planet):
+    """Per-year figures of a run shorter than a year say so (issue 11): a comment on each."""
+    if np.isfinite(years) and years < 1.0:
+        for k in PER_YEAR:
+            if k in ds:
+                ds[k].attrs["comment"] = (f"scaled to one {planet.capitalize()} year from {years:.3g} year(s) "
+                                          "simulated: not a statistic of a whole year")
     return ds
 
 
@@ -312,14 +351,25 @@ def open_result(path):
     return ds
 
 
+def _per_year(ds):
+    return "liquid_hours_per_year" in ds
+
+
 def summary_rows(ds):
-    """Rows (site, salt, liquid h/yr, longest spell h, wet events/yr, habitable h/yr, T range, a_w range)."""
+    """Rows (site, salt, liquid h, longest spell h, wet events, habitable h, T range, a_w range).
+
+    Liquid hours, wet events and habitable hours are per year when the result has per-year
+    figures, else totals over the run (a chamber programme).
+    """
+    py = _per_year(ds)
+    keys = (("liquid_hours_per_year", "wet_events_per_year", "habitable_hours_per_year") if py
+            else ("liquid_hours", "wet_events", "habitable_hours"))
     rows = []
     for site in ds.site.values:
         for salt in ds.salt.values:
             g = lambda k: float(ds[k].sel(site=site, salt=salt))
-            rows.append((str(site), str(salt), g("liquid_hours_per_year"), g("longest_liquid_spell_hours"),
-                         g("wet_events_per_year"), g("habitable_hours_per_year"),
+            rows.append((str(site), str(salt), g(keys[0]), g("longest_liquid_spell_hours"),
+                         g(keys[1]), g(keys[2]),
                          (g("liquid_temperature_min"), g("liquid_temperature_max")),
                          (g("liquid_water_activity_min"), g("liquid_water_activity_max"))))
     return rows
@@ -327,8 +377,10 @@ def summary_rows(ds):
 
 def summary_text(ds):
     """The per-salt table printed by ``wetcycle run`` and ``wetcycle summary``."""
-    head = ("site", "salt", "liquid h/yr", "longest spell h", "wet events/yr", "habitable h/yr",
-            "liquid T [K]", "liquid a_w")
+    py = _per_year(ds)
+    head = (("site", "salt", "liquid h/yr", "longest spell h", "wet events/yr", "habitable h/yr") if py else
+            ("site", "salt", "liquid h (total)", "longest spell h", "wet events", "habitable h (total)"))
+    head = head + ("liquid T [K]", "liquid a_w")
     fmt_r = lambda lo, hi, f: "—" if not np.isfinite(lo) else f"{lo:{f}}–{hi:{f}}"
     rows = [(a, b, f"{c:.1f}", f"{d:.1f}", f"{e:.1f}", f"{h:.1f}", fmt_r(*t, ".0f"), fmt_r(*w, ".2f"))
             for a, b, c, d, e, h, t, w in summary_rows(ds)]
@@ -336,13 +388,22 @@ def summary_text(ds):
     lines = ["  ".join(h.ljust(w) for h, w in zip(head, widths)), "  ".join("-" * w for w in widths)]
     lines += ["  ".join(c.ljust(w) for c, w in zip(r, widths)) for r in rows]
     yrs = ds.attrs.get("years", float("nan"))
-    lines.append(f"({ds.attrs.get('forcing', '?')} forcing, {ds.attrs.get('law', '?')} law, {yrs:.3g} year(s) "
-                 f"after {ds.attrs.get('spinup_years', 0)} spin-up year(s); habitable: a_w >= "
-                 f"{ds.attrs.get('habitability_min_water_activity', float('nan')):g} and T >= "
+    span = (f"{yrs:.3g} year(s) after {ds.attrs.get('spinup_years', 0)} spin-up year(s)" if py else
+            f"{_run_hours(ds):.3g} h from the start of the programme")
+    lines.append(f"({ds.attrs.get('forcing', '?')} forcing, {ds.attrs.get('law', '?')} law, {span}; habitable: "
+                 f"a_w >= {ds.attrs.get('habitability_min_water_activity', float('nan')):g} and T >= "
                  f"{ds.attrs.get('habitability_min_temperature_K', float('nan')):g} K)")
     lines += limit_notes(ds)
     lines.append("Caution: " + ds.attrs.get("caution", CAUTION))
     return "\n".join(lines)
+
+
+def _run_hours(ds):
+    if "period_bounds" in ds:
+        b = ds["period_bounds"].values
+        d = b[-1] - b[0]
+        return float(d / np.timedelta64(1, "h")) if np.asarray(d).dtype.kind == "m" else float(d) / 3600.0
+    return float("nan")
 
 
 def limit_notes(ds):
@@ -354,7 +415,7 @@ def limit_notes(ds):
     """
     out = []
     yrs = float(ds.attrs.get("years", float("nan")))
-    if np.isfinite(yrs) and yrs < 1.0:
+    if _per_year(ds) and np.isfinite(yrs) and yrs < 1.0:
         out.append(f"Note: the run covers {yrs:.3g} year(s); '/yr' figures are scaled up from it, "
                    "not statistics of a whole year.")
     names = (("clamped_liquid_steps", "step(s) with brine outside the salt's validity temperature range "

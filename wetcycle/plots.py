@@ -367,7 +367,7 @@ def _yearly_panel(fig, spec, ds, site_i, salts):
     w = width / len(salts)
     total = 0.0
     for k, name in enumerate(salts):
-        h = hours.sel(salt=name).values
+        h = np.nan_to_num(hours.sel(salt=name).values, nan=0.0)
         total += float(np.nansum(h))
         label = name
         if "liquid_hours_per_year" in ds:
@@ -381,8 +381,9 @@ def _yearly_panel(fig, spec, ds, site_i, salts):
     ax.set_xlim(0, 360)
     ax.set_xticks(np.arange(0, 361, 30))
     ax.set_xlabel("solar longitude Ls [°] (bins of 30°)")
-    ax.set_ylabel("liquid hours\nper year [h]")
-    ax.set_title("hours with liquid brine per year, by season", fontsize=9, loc="left")
+    ax.set_ylabel("liquid hours\nin the bin [h]")
+    ax.set_title("hours with liquid brine by season (per occurrence of each Ls bin simulated; "
+                 "bins not simulated are empty)", fontsize=9, loc="left")
     ax.grid(axis="y", color="0.85", lw=0.6)
     ax.set_axisbelow(True)
     _legend_right(ax, title="salt (total per year)", title_fontsize=8)
@@ -396,7 +397,7 @@ def plot_result(ds, path, *, sols=None, salts=None, site=0):
     humidity w.r.t. liquid water and ice, with each salt's deliquescence RH at the
     salt temperature (masked outside the salt's validity range); (3...) per salt,
     the phase state as a colour band and the liquid water [kg m-2] on the right
-    axis; (last) liquid hours per year by Ls bin, bars grouped by salt.  A result
+    axis; (last) liquid hours by Ls bin (per occurrence simulated), bars grouped by salt.  A result
     with statistics only gets the last panel alone.  Local night (18-06 h local
     true solar time) is shaded where the result has ``local_solar_time``.
 

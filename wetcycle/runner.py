@@ -386,6 +386,54 @@ def run(scenario, *, write=True, progress=False, output_path=None):
     return ds
 
 
+def statistics_frame(sc, src=None):
+    """How a run's statistics are framed (design decision 7): ``(per_year, bin_duration_s, season_deg)``.
+
+    * Mars: per-year figures per Mars year; season bins of solar longitude Ls, each bin's length
+      in the Mars year of the run's start (Allison & McEwen 2000 through
+      :func:`wetcycle.orbit.jd_tt_at_ls`); ``season_deg`` is Ls.
+    * Earth: per-year figures per Earth year; the season bins are the 12 calendar months (UTC),
+      each month's length in days; ``season_deg`` places each step in its month.
+    * A chamber programme: totals only (no year, no season): ``(False, None, zeros)``.
+
+    ``src`` (a :class:`ForcingSource`) gives the steps' ``season_deg``; without it only the first
+    two are meaningful (``season_deg`` is None).
+    """
+    if sc["forcing"]["kind"] == "chamber":
+        n = src.n_steps if src is not None else _chamber_source(sc).n_steps
+        return False, None, np.zeros(n)
+    planet = sc["scenario"]["planet"]
+    n = sc["output"]["ls_bins"]
+    clock, _ = _clock(sc)
+    time_s = np.asarray(src.time_s if src is not None else clock.time_s, dtype=float)
+    if planet == "earth":
+        utc = jd_tt_to_utc(clock.jd_tt[:1])[0]
+        year = int(str(utc)[:4])
+        months = np.arange(f"{year}-01", f"{year + 1}-01", dtype="datetime64[M]")
+        durations = ((months + 1).astype("datetime64[D]") - months.astype("datetime64[D]")).astype(float) * 86400.0
+        dates = np.datetime64(utc, "ns") + (time_s * 1e9).astype("timedelta64[ns]")
+        month = dates.astype("datetime64[M]").astype(int) % 12          # 0 = January
+        return True, durations, (month + 0.5) * 30.0
+    from .orbit import jd_tt_at_ls
+    my = int(clock.year[0])
+    edges = np.arange(n + 1) * 360.0 / n
+    jd = [jd_tt_at_ls(e % 360.0, mars_year=my + (1 if e >= 360.0 else 0)) for e in edges]
+    durations = np.diff(np.asarray(jd, dtype=float)) * 86400.0
+    return True, durations, np.asarray(src.ls_deg if src is not None else clock.ls_deg, dtype=float)
+
+
+def bin_coverage(sc, src=None):
+    """Times each season bin was simulated [bin] (None for a chamber programme)."""
+    per_year, durations, season = statistics_frame(sc, src)
+    if durations is None:
+        return None
+    nb = durations.size
+    t = np.asarray(src.time_s if src is not None else _clock(sc)[0].time_s, dtype=float)
+    dt = np.full(t.size, float(t[1] - t[0]) if t.size > 1 else 0.0)
+    b = np.minimum((season % 360.0 / (360.0 / nb)).astype(np.int64), nb - 1)
+    return np.bincount(b, weights=dt, minlength=nb) / durations
+
+
 def phase_models(sc, tables=None):
     """One :class:`PhaseModel` per ``[[salt]]`` of the scenario; ``tables`` (salt name -> PhaseTables)
     are used as given when passed (a worker process never looks a salt up by name)."""
@@ -418,6 +466,8 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
     ph = sc["phase"]
     hab = sc["habitability"]
     n_sites = len(sc.sites)
+    frame = statistics_frame(sc, src)
+    season = frame[2]
     accs = [Accumulator.new(n_sites, sc["output"]["ls_bins"], hab["min_water_activity"], hab["min_temperature"])
             for _ in models]
     keep = keep_series
@@ -455,8 +505,8 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
                                             d["salt_temperature"][0], d["relative_humidity"][0])
             r = m.step(states[j], d["salt_temperature"], d["relative_humidity"], d["surface_pressure"], frost,
                        blk.dt_s)
-            acc.add(r.liquid_fraction, r.phase, r.water_activity, d["salt_temperature"], blk.ls_deg, blk.ltst_h,
-                    r.clamped, blk.dt_s)
+            acc.add(r.liquid_fraction, r.phase, r.water_activity, d["salt_temperature"], season[blk.i0:blk.i1],
+                    blk.ltst_h, r.clamped, blk.dt_s)
             if water_cycle:
                 gain = np.maximum(r.exchanged, 0.0)
                 uptake[j] += gain.sum(axis=0)
@@ -482,7 +532,8 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
     if timings is not None:
         timings["forcing"] = timings.get("forcing", 0.0) + t_forcing
         timings["phase"] = timings.get("phase", 0.0) + t_phase
-    stats = [acc.finish(src.years) for acc in accs]
+    per_year, durations, _ = frame
+    stats = [acc.finish(src.years, per_year=per_year, bin_duration_s=durations) for acc in accs]
     if water_cycle:
         for j, st in enumerate(stats):
             st["salt_water_uptake"] = uptake[j]

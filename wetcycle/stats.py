@@ -127,6 +127,8 @@ class Accumulator:
     T_last: np.ndarray   # temperature at the end of the previous step [K]
     aw_thr: float
     T_thr: float
+    bin_time: np.ndarray = None  # [bin] seconds simulated in each season bin (the same for every cell)
+    max_dt: float = None         # the longest step seen [s]
 
     @classmethod
     def new(cls, n_cells, n_ls_bins=12, min_water_activity=0.5, min_temperature_K=245.15):
@@ -139,9 +141,20 @@ class Accumulator:
                    float(min_temperature_K))
 
     def add(self, liquid_fraction, phase, water_activity, temperature_K, ls_deg, ltst_h, clamped, dt_s):
-        """Add a block: arrays [step, cell]; ``ls_deg`` and ``dt_s`` per step."""
+        """Add a block: arrays [step, cell]; ``ls_deg`` and ``dt_s`` per step.
+
+        ``ls_deg`` places each step in a season bin (``n_ls_bins`` equal bins of 360 degrees):
+        the solar longitude Ls on Mars, a calendar month as an angle on Earth.
+        """
         n = liquid_fraction.shape[0]
         dt = np.ascontiguousarray(np.broadcast_to(np.asarray(dt_s, float), (n,)))
+        nb = self.by_ls.shape[0]
+        if self.bin_time is None:
+            self.bin_time = np.zeros(nb)
+        b = np.minimum((np.asarray(ls_deg, float) % 360.0 / (360.0 / nb)).astype(np.int64), nb - 1)
+        self.bin_time += np.bincount(b, weights=dt, minlength=nb)
+        if n:
+            self.max_dt = max(self.max_dt or 0.0, float(dt.max()))
         accumulate(np.ascontiguousarray(liquid_fraction), np.ascontiguousarray(phase),
                    np.ascontiguousarray(water_activity), np.ascontiguousarray(temperature_K, dtype=float),
                    np.ascontiguousarray(ls_deg, dtype=float), np.ascontiguousarray(ltst_h, dtype=float),
@@ -150,21 +163,55 @@ class Accumulator:
                    self.by_ls, self.by_hour, self.T_lo, self.T_hi, self.aw_lo, self.aw_hi,
                    self.n_flags, self.wet_prev, self.aw_last, self.T_last)
 
-    def finish(self, years):
-        """Statistics per year as a dict of arrays (hours; NaN ranges where never liquid)."""
-        if not years > 0:
+    def finish(self, years, *, per_year=True, bin_duration_s=None):
+        """Statistics as a dict of arrays [cell] or [bin, cell] (hours; NaN ranges where never liquid).
+
+        Parameters
+        ----------
+        years : float
+            Years simulated (> 0 when ``per_year``).
+        per_year : bool
+            Add the per-year statistics (``*_per_year`` = total / ``years``, and the local-time
+            bins per year): on a planet with a year, never for a chamber programme.
+        bin_duration_s : array [bin] [s], optional
+            The length of each season bin in a year.  A bin's liquid hours are then given per
+            occurrence of the bin actually simulated: the hours in the bin divided by the number
+            of times it was simulated (its simulated time / its length), never scaled up when it
+            was simulated once or in part; a bin never simulated is NaN.  Without it (a chamber
+            programme), the hours in each bin over the run.
+
+        Totals over the simulated time (``liquid_hours``, ``habitable_hours``, ``wet_events``) are
+        always there (design decision 7).
+        """
+        if per_year and not years > 0:
             raise ValueError("years must be > 0")
         h = 1.0 / 3600.0
         longest = np.maximum(self.spell_max, self.spell_cur) * h
         never = self.liquid_s == 0
         rng = lambda a: np.where(never | ~np.isfinite(a), np.nan, a)
-        return {
-            "liquid_hours_per_year": self.liquid_s * h / years,
-            "longest_liquid_spell_hours": longest,
-            "wet_events_per_year": self.events / years,
-            "habitable_hours_per_year": self.habitable_s * h / years,
-            "liquid_hours_by_ls": self.by_ls * h / years,
-            "liquid_hours_by_local_time": self.by_hour * h / years,
+        out = {
+            "liquid_hours": self.liquid_s * h,
+            "habitable_hours": self.habitable_s * h,
+            "wet_events": self.events.astype(float),
+        }
+        if per_year:
+            out.update({
+                "liquid_hours_per_year": self.liquid_s * h / years,
+                "wet_events_per_year": self.events / years,
+                "habitable_hours_per_year": self.habitable_s * h / years,
+            })
+        out["longest_liquid_spell_hours"] = longest
+        if bin_duration_s is not None:
+            sim = self.bin_time if self.bin_time is not None else np.zeros(self.by_ls.shape[0])
+            dur = np.asarray(bin_duration_s, dtype=float)
+            occ = sim / dur
+            # a bin simulated once counts its edge steps in full: within a step of one occurrence is one
+            tol = (self.max_dt if self.max_dt is not None else 0.0) / dur
+            div = np.where(sim > 0, np.where(occ > 1.0 + tol, occ, 1.0), np.nan)
+            out["liquid_hours_by_ls"] = self.by_ls * h / div[:, None]
+        if per_year:
+            out["liquid_hours_by_local_time"] = self.by_hour * h / years
+        out.update({
             "liquid_temperature_min": rng(self.T_lo),
             "liquid_temperature_max": rng(self.T_hi),
             "liquid_water_activity_min": rng(self.aw_lo),
@@ -173,4 +220,10 @@ class Accumulator:
             "clamped_liquid_steps": self.n_flags[1].copy(),
             "molality_limit_steps": self.n_flags[2].copy(),
             "lower_limit_freezes": self.n_flags[3].copy(),
-        }
+        })
+        return out
+
+    def bin_coverage(self, bin_duration_s):
+        """Times each season bin was simulated (its simulated time / its length) [bin]."""
+        sim = self.bin_time if self.bin_time is not None else np.zeros(self.by_ls.shape[0])
+        return sim / np.asarray(bin_duration_s, dtype=float)
