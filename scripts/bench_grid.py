@@ -48,21 +48,29 @@ def scenario(out, *, cells=None, sols=669, steps=48, spinup=2, global_grid=False
 
 
 class MemorySampler(threading.Thread):
-    """Peak of the summed resident memory of this process and its children."""
+    """Peak of the summed resident memory of this process and its children, and their CPU time.
+
+    CPU seconds (user + system, the last sample of each process) make the rate independent of
+    other work sharing the machine: wall time is not.
+    """
 
     def __init__(self):
         super().__init__(daemon=True)
         self.peak = 0
+        self.cpu = {}
         self.stop = threading.Event()
 
     def run(self):
         import psutil
         me = psutil.Process()
+        base = sum(me.cpu_times()[:2])
         while not self.stop.is_set():
             total = 0
             for p in [me] + me.children(recursive=True):
                 try:
                     total += p.memory_info().rss
+                    t = p.cpu_times()
+                    self.cpu[p.pid] = t.user + t.system - (base if p.pid == me.pid else 0.0)
                 except psutil.Error:
                     pass
             self.peak = max(self.peak, total)
@@ -127,9 +135,13 @@ def main():
             mem.join()
             rate = n * steps / wall
             work = spent["forcing"] + spent["phase"] + spent["io"]
+            cpu = sum(mem.cpu.values())
             print(f"workers {workers}: {n} cells x {steps} steps ({a.spinup} spin-up years, 3 salts): "
                   f"{wall:.1f} s ({wall / 60:.2f} min), {rate:.3e} cell-steps/s, "
                   f"peak memory {mem.peak / 1e9:.2f} GB (this process + workers)")
+            print(f"  CPU time {cpu:.0f} s: {n * steps / cpu:.3e} cell-steps per CPU-second; on {workers} idle "
+                  f"cores this run would take about {cpu / workers:.0f} s (load average now "
+                  f"{__import__('os').getloadavg()[0]:.1f})")
             print(f"  worker time: forcing {100 * spent['forcing'] / work:.0f} %, phase model "
                   f"{100 * spent['phase'] / work:.0f} %, store writes {100 * spent['io'] / work:.1f} %; "
                   f"assembling the result {spent['assemble']:.1f} s")
