@@ -280,3 +280,32 @@ def test_time_decoded_to_dates_gives_the_same_sol_positions(result):
     (x_dated, sol_dated), (x_s, sol_s) = plots._sol_position(dated), plots._sol_position(result)
     np.testing.assert_allclose(x_dated, x_s, atol=1e-9)
     assert sol_dated == pytest.approx(sol_s, rel=1e-12)
+
+
+def test_long_windows_are_drawn_as_daily_summaries():
+    # Issue: a whole-year plot of steps is an aliased moire.  A window longer than
+    # plots.DAILY_AFTER_SOLS sols is drawn as daily ranges and daily liquid hours.
+    ds = make_result(n_sols=plots.DAILY_AFTER_SOLS + 2)
+    fig = plots.result_figure(ds, sols=(0, plots.DAILY_AFTER_SOLS + 1))
+    labels = [ax.get_ylabel() for ax in fig.axes]
+    assert any("liquid h/sol" in lb for lb in labels)
+    assert any("daily summaries" in ax.get_xlabel() for ax in fig.axes)
+    bars = [ax for ax in fig.axes if "liquid h/sol" in ax.get_ylabel()][0]
+    heights = [p.get_height() for p in bars.patches]
+    lf = ds.liquid_fraction.sel(salt=SALTS[0]).isel(site=0).values
+    np.testing.assert_allclose(sum(heights), lf.sum() * SOL / STEPS / 3600.0, rtol=1e-9)  # hours = sum f dt
+    short = plots.result_figure(ds, sols=(0, 2))
+    assert not any("liquid h/sol" in ax.get_ylabel() for ax in short.axes)
+
+
+def test_night_shading_follows_the_sun_at_the_site():
+    # Solar elevation (spherical astronomy, common practice): at 80 N in northern summer (Ls 90,
+    # declination +25.2 deg on Mars) the sun never sets; at the equator it sets every sol.
+    ds = make_result(n_sols=2)
+    ds = ds.assign_coords(solar_longitude=("time", np.full(ds.sizes["time"], 90.0)),
+                          latitude=("site", [80.0, 0.0]))
+    idx = np.arange(ds.sizes["time"])
+    assert plots.sun_up(ds, 0, idx).all()
+    up = plots.sun_up(ds, 1, idx)
+    lt = ds.local_solar_time.isel(site=1).values
+    assert not up[(lt < 5.5) | (lt > 18.5)].any() and up[(lt > 6.5) & (lt < 17.5)].all()

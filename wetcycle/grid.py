@@ -416,7 +416,7 @@ def assemble(sc, store, hashes=None):
         title=f"wetcycle gridded result: {sc.name}", scenario_name=sc.name,
         scenario=sc.text or json.dumps(sc.tables, default=str), wetcycle_version=__version__,
         created=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"), caution=CAUTION,
-        Conventions="CF-1.8", forcing=sc["forcing"]["kind"], law=sc["phase"]["law"],
+        Conventions="CF-1.8", planet=planet, forcing=sc["forcing"]["kind"], law=sc["phase"]["law"],
         years=years, steps_per_sol=int(sc["clock"]["steps_per_sol"]),
         spinup_years=int(sc["clock"]["spinup_max_years"]) if sc["forcing"]["kind"] == "energy_balance" else 0,
         chunk_cells=int(sc["grid"]["chunk_cells"]),

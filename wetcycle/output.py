@@ -89,6 +89,7 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
         created=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"),
         caution=CAUTION + (" " + WATER_CAUTION if sc["forcing"]["kind"] == "energy_balance" else ""),
         Conventions="CF-1.8",
+        planet=planet,
         forcing=sc["forcing"]["kind"],
         law=sc["phase"]["law"],
         years=float(src.years),

@@ -203,16 +203,48 @@ def _choose_steps(ds, x, sols, site_i, salts):
     return np.flatnonzero((sol >= a) & (sol <= b)), (a, b)
 
 
-def _night_shading(axes, ds, site_i, idx, x):
-    if "local_solar_time" not in ds or "site" not in ds["local_solar_time"].dims:
-        return False
+def _planet_of(ds):
+    """The result's planet: its ``planet`` attribute, else its grid mapping's name, else Mars."""
+    name = str(ds.attrs.get("planet", "")).lower()
+    if not name and "crs" in ds:
+        name = "earth" if "WGS" in str(ds["crs"].attrs.get("geographic_crs_name", "")) else "mars"
+    return name if name in ("mars", "earth") else "mars"
+
+
+def sun_up(ds, site_i, idx):
+    """Whether the sun is above the horizon at the site at each step (None when unknown).
+
+    Solar elevation from sin(e) = sin(phi) sin(delta) + cos(phi) cos(delta) cos(h): declination
+    sin(delta) = sin(obliquity) sin(Ls) and hour angle h = 15 deg (LTST - 12 h) (common practice;
+    Allison & McEwen 2000 eq. 7 for Mars).  Refraction and the disc's size are neglected.
+    """
+    need = ("local_solar_time", "solar_longitude", "latitude")
+    if any(k not in ds.variables for k in need) or "site" not in ds["local_solar_time"].dims:
+        return None
+    from .orbit import get_planet
+    eps = np.deg2rad(get_planet(_planet_of(ds)).obliquity_deg)
     lt = np.asarray(ds["local_solar_time"].isel(site=site_i).values, dtype=float)[idx]
+    ls = np.deg2rad(np.asarray(ds["solar_longitude"].values, dtype=float)[idx])
+    phi = np.deg2rad(float(ds["latitude"].values[site_i]))
+    dec = np.arcsin(np.sin(eps) * np.sin(ls))
+    h = np.deg2rad(15.0 * (lt - 12.0))
+    return np.sin(phi) * np.sin(dec) + np.cos(phi) * np.cos(dec) * np.cos(h) > 0.0
+
+
+def _night_shading(axes, ds, site_i, idx, x):
+    up = sun_up(ds, site_i, idx)
+    if up is None:
+        return False
     dx = np.median(np.diff(x)) if x.size > 1 else 0.0
-    for a, b, night in _runs((lt < 6.0) | (lt >= 18.0)):
-        if night:
+    for a, b, day in _runs(up):
+        if not day:
             for ax in axes:
                 ax.axvspan(x[a], x[b - 1] + dx, color="0.5", alpha=0.13, lw=0, zorder=0)
     return True
+
+
+def _day_word(ds):
+    return "day" if _planet_of(ds) == "earth" else "sol"
 
 
 def _legend_right(ax, **kw):
@@ -230,6 +262,55 @@ def _drh_series(name, T):
     if ok.any():
         out[ok] = s.deliquescence_rh(np.clip(T[ok], s.T_min, s.T_max))
     return out
+
+
+#: Windows longer than this many sols are drawn as daily summaries (a year of steps would alias).
+DAILY_AFTER_SOLS = 10
+
+
+def _daily_panels(fig, gs, ds, site_i, salts, idx, x):
+    """Daily summaries of a long window: temperature and RH ranges, liquid hours per sol per salt."""
+    day = np.floor(x + 1e-9).astype(int)
+    starts = np.flatnonzero(np.r_[True, day[1:] != day[:-1]])
+    days = day[starts]
+    sub = ds.isel(time=idx, site=site_i)
+    t = np.asarray(sub["time"].values)
+    t = ((t - t[0]) / np.timedelta64(1, "s")).astype(float) if t.dtype.kind == "M" else t.astype(float)
+    dt = np.median(np.diff(t)) if t.size > 1 else 0.0
+    ax_t = fig.add_subplot(gs[0])
+    axes = [ax_t] + [fig.add_subplot(gs[i], sharex=ax_t) for i in range(1, 2 + len(salts))]
+    for name, colour, label in (("salt_temperature", "black", "salt"), ("surface_temperature", "#D55E00", "surface")):
+        if name in sub:
+            v = np.asarray(sub[name].values, dtype=float)
+            lo, hi = np.minimum.reduceat(v, starts), np.maximum.reduceat(v, starts)
+            ax_t.fill_between(days + 0.5, lo, hi, step="mid", color=colour, alpha=0.25 if label == "salt" else 0.15,
+                              lw=0, label=f"{label}: daily range")
+    ax_t.set_ylabel("temperature [K]")
+    _legend_right(ax_t, title="temperature", title_fontsize=8)
+    rh = np.asarray(sub["relative_humidity"].values, dtype=float)
+    axes[1].fill_between(days + 0.5, np.minimum.reduceat(rh, starts), np.maximum.reduceat(rh, starts), step="mid",
+                         color="#0072B2", alpha=0.35, lw=0, label="RH (liquid water): daily range")
+    axes[1].set_ylim(0.0, 1.02)
+    axes[1].set_ylabel("relative humidity [–]")
+    _legend_right(axes[1], title="humidity", title_fontsize=8)
+    for k, name in enumerate(salts):
+        ax = axes[2 + k]
+        lf = np.asarray(sub["liquid_fraction"].sel(salt=name).values, dtype=float)
+        hours = np.add.reduceat(np.nan_to_num(lf), starts) * dt / 3600.0
+        ax.bar(days + 0.5, hours, width=0.9, color=SALT_COLOURS[k % len(SALT_COLOURS)])
+        ax.set_ylabel(f"{name}\nliquid h/{_day_word(ds)}", fontsize=9)
+        if not hours.any():
+            ax.text(0.5, 0.5, "no liquid in these sols", transform=ax.transAxes, ha="center", va="center",
+                    fontsize=8, color="0.35")
+    for ax in axes[:-1]:
+        ax.tick_params(labelbottom=False)
+    axes[-1].set_xlim(days[0], days[-1] + 1)
+    axes[-1].set_xlabel(f"{_day_word(ds)} since run start (daily summaries: the window is longer than "
+                        f"{DAILY_AFTER_SOLS} {_day_word(ds)}s)")
+    for ax in axes:
+        ax.grid(axis="x", color="0.85", lw=0.6)
+        ax.set_axisbelow(True)
+    return axes
 
 
 def result_figure(ds, *, sols=None, salts=None, site=0):
@@ -255,6 +336,10 @@ def result_figure(ds, *, sols=None, salts=None, site=0):
     if series:
         x_all, _ = _sol_position(ds)
         idx, chosen = _choose_steps(ds, x_all, sols, site_i, salts)
+        if chosen[1] - chosen[0] + 1 > DAILY_AFTER_SOLS:
+            axes = _daily_panels(fig, gs, ds, site_i, salts, idx, x_all[idx])
+            series = False  # drawn: skip the step-by-step panels
+    if series:
         x = x_all[idx]
         dx = float(np.median(np.diff(x))) if x.size > 1 else 1.0 / 24
         sub = ds.isel(time=idx, site=site_i)
@@ -329,7 +414,8 @@ def result_figure(ds, *, sols=None, salts=None, site=0):
         night = _night_shading(axes, ds, site_i, idx, x)
         ax_last = axes[-1]
         ax_last.set_xlim(x[0], x[-1] + dx)
-        ax_last.set_xlabel("sol since run start" + (" (grey: local night, 18–06 h local solar time)" if night else ""))
+        ax_last.set_xlabel(f"{_day_word(ds)} since run start" + (" (grey: the sun below the horizon at the site)"
+                                                                  if night else ""))
         for ax in axes:
             ax.grid(axis="x", color="0.85", lw=0.6)
             ax.set_axisbelow(True)
@@ -398,7 +484,10 @@ def plot_result(ds, path, *, sols=None, salts=None, site=0):
     salt temperature (masked outside the salt's validity range); (3...) per salt,
     the phase state as a colour band and the liquid water [kg m-2] on the right
     axis; (last) liquid hours by Ls bin (per occurrence simulated), bars grouped by salt.  A result
-    with statistics only gets the last panel alone.  Local night (18-06 h local
+    with statistics only gets the last panel alone.  A window longer than
+    ``DAILY_AFTER_SOLS`` sols is drawn as daily summaries instead (daily temperature and RH
+    ranges, liquid hours per sol).  Local night (the sun below the horizon at the site, from
+    its latitude, Ls and local solar time; formerly 18-06 h local
     true solar time) is shaded where the result has ``local_solar_time``.
 
     Parameters
