@@ -1,4 +1,4 @@
-"""Maps of gridded results draw one panel per salt on a shared scale and refuse bad input clearly.
+"""Maps of gridded results draw one panel per salt (own or shared scale) and refuse bad input clearly.
 
 The gridded result here is synthetic: invented per-cell values (a smooth function of
 latitude and longitude, NaN over masked polar bands) arranged as (salt, lat, lon) with
@@ -71,7 +71,7 @@ def test_vector_formats(grid, tmp_path, suffix):
 
 
 def test_panels_and_colour_bar(grid):
-    fig = maps.map_figure(grid)
+    fig = maps.map_figure(grid, shared_scale=True)
     assert len(fig.axes) == len(SALTS) + 1                   # one panel per salt + one colour bar
     panels = _panels(fig)
     assert [ax.get_title(loc="left").splitlines()[0] for ax in panels] == list(SALTS)
@@ -87,8 +87,21 @@ def test_panels_and_colour_bar(grid):
     assert all(ax.get_aspect() == 1.0 for ax in panels)      # equal aspect in degrees
 
 
-def test_shared_colour_scale(grid):
+def test_own_colour_scale_per_salt_by_default(grid):
+    # Issue: on one scale a salt with 111 h looked like zero.  Each panel runs from 0 to its own max.
     fig = maps.map_figure(grid)
+    meshes = _meshes(fig)
+    bars = [ax for ax in fig.axes if ax.get_label() == "colour bar"]
+    assert len(meshes) == len(bars) == len(SALTS)
+    for m, salt in zip(meshes, SALTS):
+        own = np.nanmax(grid["liquid_hours_per_year"].sel(salt=salt).values)
+        assert m.get_clim() == (0.0, pytest.approx(own))     # exact: the salt's data maximum
+    texts = [t.get_text() for t in fig.texts]
+    assert any("hours per Mars year with liquid brine [h per Mars year]" in t for t in texts)
+
+
+def test_shared_colour_scale(grid):
+    fig = maps.map_figure(grid, shared_scale=True)
     meshes = _meshes(fig)
     assert len(meshes) == len(SALTS)
     limits = {m.get_clim() for m in meshes}
@@ -100,7 +113,7 @@ def test_shared_colour_scale(grid):
 
 
 def test_subset_keeps_scale_of_chosen_salts(grid):
-    fig = maps.map_figure(grid, salts=["nacl", "CaCl2"], stat="wet_events_per_year")
+    fig = maps.map_figure(grid, salts=["nacl", "CaCl2"], stat="wet_events_per_year", shared_scale=True)
     meshes = _meshes(fig)
     assert len(fig.axes) == 3
     vmax = np.nanmax(grid["wet_events_per_year"].sel(salt=["NaCl", "CaCl2"]).values)
@@ -114,7 +127,9 @@ def test_masked_cells_and_edges(grid):
     expected = ~np.isfinite(grid["liquid_hours_per_year"].isel(salt=0).values)
     assert expected.any() and not expected.all()
     np.testing.assert_array_equal(np.ma.getmaskarray(arr).reshape(expected.shape), expected)
-    assert tuple(mesh.cmap.get_bad()[:3]) == pytest.approx((0.84, 0.84, 0.84))
+    assert mesh.cmap.get_bad()[3] == 0.0                     # masked cells transparent over...
+    ground = [p for p in _panels(fig)[0].patches if p.get_hatch()]
+    assert ground and ground[0].get_facecolor()[:3] == (1.0, 1.0, 1.0)   # ...white hatching, outside cividis
     legend_text = [t.get_text() for leg in fig.legends for t in leg.get_texts()]
     assert any("masked" in t for t in legend_text)
     # cell edges midway between centres: common practice for pcolormesh; outer edges
@@ -216,7 +231,7 @@ def test_outer_latitude_edges_clipped_at_poles():
 def test_non_count_statistic_scales_to_data_range(grid):
     aw = 0.5 + 0.4 * grid["liquid_hours_per_year"] / 1000.0              # invented, NaN stays NaN
     ds = grid.assign(liquid_water_activity_min=aw.assign_attrs(attrs("liquid_water_activity_min")))
-    fig = maps.map_figure(ds, stat="liquid_water_activity_min")
+    fig = maps.map_figure(ds, stat="liquid_water_activity_min", shared_scale=True)
     lo, hi = np.nanmin(aw.values), np.nanmax(aw.values)
     assert all(m.get_clim() == pytest.approx((lo, hi)) for m in _meshes(fig))   # exact: data range
     assert "water activity" in [ax for ax in fig.axes if ax.get_label() == "colour bar"][0].get_ylabel()

@@ -179,7 +179,8 @@ def cmd_map(args):
     from .maps import plot_map
     from .output import open_result
 
-    path = plot_map(open_result(args.result), args.output, salts=args.salt or None, stat=args.stat)
+    path = plot_map(open_result(args.result), args.output, salts=args.salt or None, stat=args.stat,
+                    shared_scale=args.shared_scale)
     print(f"figure written to {path}")
     return 0
 
@@ -376,6 +377,8 @@ def build_parser():
     pmap.add_argument("-o", "--output", required=True, help="figure path (PNG, PDF, SVG)")
     pmap.add_argument("--salt", action="append", help="salt to map (repeatable; default all)")
     pmap.add_argument("--stat", default="liquid_hours_per_year", help="statistic (default liquid_hours_per_year)")
+    pmap.add_argument("--shared-scale", action="store_true",
+                      help="one colour scale for every salt (default: each salt its own)")
     pmap.set_defaults(func=cmd_map)
 
     pg = sub.add_parser("diagram", help="temperature-RH phase diagram of a salt system",

@@ -15,8 +15,9 @@ midway between neighbouring centres, the outer edges half a spacing beyond the
 outer centres (latitude edges clipped to ±90°); both by cf_xarray.  Axes are equal in degrees
 (plate carrée).  Colours: the sequential "cividis" map, designed to read the
 same with red-green colour-vision deficiency (Nuñez, Anderton & Renslow 2018,
-PLoS ONE 13, e0199239, doi:10.1371/journal.pone.0199239); one colour scale is
-shared by every panel so salts compare directly; masked cells are light grey.
+PLoS ONE 13, e0199239, doi:10.1371/journal.pone.0199239); each panel has its own
+colour scale by default (one shared scale on request); masked cells are white and
+hatched, outside the map's colours.
 """
 
 from __future__ import annotations
@@ -32,7 +33,8 @@ from .plots import CAVEAT, _check_path, _new_figure, _read_dataset, _salt_names,
 __all__ = ["plot_map", "map_figure", "MAP_COLORMAP", "MASKED_COLOUR"]
 
 MAP_COLORMAP = "cividis"
-MASKED_COLOUR = "0.84"        # light grey: no value, clearly apart from cividis' dark-blue low end
+MASKED_COLOUR = "white"       # masked cells: white with grey hatching, a colour cividis never takes
+MASKED_HATCH = "////"
 GRID_DIMS = ("salt", "lat", "lon")
 #: statistics that count something from zero: their colour scale starts at 0
 _COUNT_UNITS = ("hour", "h")
@@ -126,7 +128,7 @@ def _layout(n, aspect):
 
 
 # ---- figure ------------------------------------------------------------------------
-def map_figure(ds, *, salts=None, stat="liquid_hours_per_year"):
+def map_figure(ds, *, salts=None, stat="liquid_hours_per_year", shared_scale=False):
     """The figure of :func:`plot_map` (a ``matplotlib.figure.Figure``); same arguments."""
     from matplotlib import colormaps
     from matplotlib.patches import Patch
@@ -140,8 +142,9 @@ def map_figure(ds, *, salts=None, stat="liquid_hours_per_year"):
     values = np.asarray(var.values, dtype=float)
     units = str(var.attrs.get("units", ""))
     long_name = str(var.attrs.get("long_name", stat))
-    vmin, vmax = _scale(values, stat, units)
-    cmap = colormaps[MAP_COLORMAP].with_extremes(bad=MASKED_COLOUR)
+    scales = ([_scale(values, stat, units)] * len(salts) if shared_scale
+              else [_scale(values[k], stat, units) for k in range(len(salts))])
+    cmap = colormaps[MAP_COLORMAP].with_extremes(bad=(0.0, 0.0, 0.0, 0.0))  # masked: the hatched ground shows
 
     span_x, span_y = lon_e[-1] - lon_e[0], lat_e[-1] - lat_e[0]
     aspect = span_x / span_y
@@ -157,7 +160,8 @@ def map_figure(ds, *, salts=None, stat="liquid_hours_per_year"):
     width = max(5.5, panel_w * ncols + 0.4 * (ncols - 1) + 2.0)
     title = str(ds.attrs.get("scenario_name") or ds.attrs.get("title") or "wetcycle result")
     head = (textwrap.fill(f"{title} — {long_name} ({stat})", width=int(width * 11))
-            + "\none panel per salt, shared colour scale")
+            + ("\none panel per salt, one shared colour scale" if shared_scale
+               else "\none panel per salt, each with its own colour scale"))
     top = (head.count("\n") + 1) * 11 * 1.3 / 72 + 0.15
     foot = 0.5
     height = (panel_h + 0.75) * nrows + top + foot + 0.2
@@ -167,12 +171,17 @@ def map_figure(ds, *, salts=None, stat="liquid_hours_per_year"):
     fig.text(0.5, 1.0 - 0.08 / height, head, ha="center", va="top", fontsize=11,
              linespacing=1.3).set_in_layout(False)
     gs = fig.add_gridspec(nrows, ncols)
-    axes, mesh = [], None
+    axes, mesh, meshes = [], None, []
     for k, name in enumerate(salts):
         ax = fig.add_subplot(gs[k // ncols, k % ncols], label=f"map {name}")
         data = np.ma.masked_invalid(values[k])
+        from matplotlib.patches import Rectangle
+        ax.add_patch(Rectangle((lon_e[0], lat_e[0]), lon_e[-1] - lon_e[0], lat_e[-1] - lat_e[0],
+                               facecolor=MASKED_COLOUR, edgecolor="0.6", hatch=MASKED_HATCH, lw=0, zorder=0))
+        vmin, vmax = scales[k]
         mesh = ax.pcolormesh(lon_e, lat_e, data, cmap=cmap, vmin=vmin, vmax=vmax, shading="flat",
-                             rasterized=True)
+                             rasterized=True, zorder=1)
+        meshes.append(mesh)
         ax.set_xlim(lon_e[0], lon_e[-1])
         ax.set_ylim(lat_e[0], lat_e[-1])
         ax.set_aspect("equal")
@@ -194,13 +203,20 @@ def map_figure(ds, *, salts=None, stat="liquid_hours_per_year"):
         else:                                        # narrow panel: the note goes under the name
             ax.set_title(f"{name}\n{note}", fontsize=9, loc="left")
         axes.append(ax)
-    cbar = fig.colorbar(mesh, ax=axes, shrink=0.9 if nrows == 1 else 0.7, aspect=25, pad=0.02)
-    cbar.set_label(f"{long_name} [{_units_text(units)}]")
-    cbar.ax.set_label("colour bar")
-    cbar.ax.tick_params(labelsize=8)
+    bars = [(meshes[0], axes)] if shared_scale else list(zip(meshes, [[a] for a in axes]))
+    for m, owners in bars:
+        cbar = fig.colorbar(m, ax=owners, shrink=0.9 if (nrows == 1 or not shared_scale) else 0.7, aspect=25,
+                            pad=0.02)
+        cbar.set_label(f"{long_name} [{_units_text(units)}]" if shared_scale else _units_text(units),
+                       fontsize=9 if shared_scale else 8)
+        cbar.ax.set_label("colour bar")
+        cbar.ax.tick_params(labelsize=8)
+    if not shared_scale:
+        fig.text(0.5, 1.0 - (top + 0.02) / height, f"{long_name} [{_units_text(units)}]", ha="center", va="top",
+                 fontsize=9, color="0.25").set_in_layout(False)
     masked = int((~np.isfinite(values)).sum())
     if masked:
-        fig.legend(handles=[Patch(facecolor=MASKED_COLOUR, edgecolor="0.5", lw=0.5,
+        fig.legend(handles=[Patch(facecolor=MASKED_COLOUR, edgecolor="0.6", hatch=MASKED_HATCH, lw=0.5,
                                   label="no value: cell masked (not modelled)")],
                    loc="lower left", bbox_to_anchor=(0.0, 0.2 / height), borderaxespad=0.2,
                    frameon=False, fontsize=8).set_in_layout(False)
@@ -208,14 +224,16 @@ def map_figure(ds, *, salts=None, stat="liquid_hours_per_year"):
     return fig
 
 
-def plot_map(ds, path, *, salts=None, stat="liquid_hours_per_year"):
+def plot_map(ds, path, *, salts=None, stat="liquid_hours_per_year", shared_scale=False):
     """Map one per-cell statistic of a gridded result, one panel per salt; save to ``path``.
 
     Each panel shows the statistic over the latitude-longitude grid as
     cells (``pcolormesh`` between cell edges; see the module docstring), equal
-    aspect in degrees, in the colour-blind-safe sequential map "cividis" with
-    one colour scale for all panels (from 0 for hours and counts, else the data
-    range).  Masked cells (NaN) are light grey and named in a legend.  The
+    aspect in degrees, in the colour-blind-safe sequential map "cividis", each
+    panel on its own colour scale (a salt with 111 h is not drawn as zero beside
+    one with 3,000 h) or, with ``shared_scale``, one scale for all panels (from 0
+    for hours and counts, else the data range).  Masked cells (NaN) are white with
+    grey hatching, which cividis never takes, and named in a legend.  The
     colour bar carries the variable's ``long_name`` and ``units``; the title the
     scenario name and the statistic.
 
@@ -232,6 +250,8 @@ def plot_map(ds, path, *, salts=None, stat="liquid_hours_per_year"):
     stat : str
         A variable of the result with dimensions ``(salt, lat, lon)``;
         default ``"liquid_hours_per_year"`` [hour].
+    shared_scale : bool
+        One colour scale for every panel instead of one per salt.
 
     Returns
     -------
@@ -247,4 +267,4 @@ def plot_map(ds, path, *, salts=None, stat="liquid_hours_per_year"):
         result; bad suffix or missing directory.
     """
     _check_path(path)
-    return _save(map_figure(ds, salts=salts, stat=stat), path)
+    return _save(map_figure(ds, salts=salts, stat=stat, shared_scale=shared_scale), path)

@@ -487,8 +487,7 @@ def plot_result(ds, path, *, sols=None, salts=None, site=0):
     with statistics only gets the last panel alone.  A window longer than
     ``DAILY_AFTER_SOLS`` sols is drawn as daily summaries instead (daily temperature and RH
     ranges, liquid hours per sol).  Local night (the sun below the horizon at the site, from
-    its latitude, Ls and local solar time; formerly 18-06 h local
-    true solar time) is shaded where the result has ``local_solar_time``.
+    its latitude, Ls and local solar time) is shaded where the result has ``local_solar_time``.
 
     Parameters
     ----------
