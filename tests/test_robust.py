@@ -132,3 +132,25 @@ def test_run_series_reads_datetime64_and_refuses_negative_pressure_and_frost():
         with pytest.raises(ConfigError, match=f"^{field}: .* allowed") as ei:
             wetcycle.run_series("NaCl", t, T, rh, **kw)
         assert "\n" not in str(ei.value)
+
+
+def test_progress_bar_estimates_only_once_it_means_something(monkeypatch, capsys):
+    # Issue: the first estimate read 8 hours (it includes compiling).  No estimate before 5 % of
+    # the work and 10 s; then tqdm's usual "elapsed<remaining".
+    from wetcycle import progress
+    b = progress.bar(1000, "step", "t")
+    b.update(10)
+    assert "estimating" in str(b) and "<" not in str(b)
+    monkeypatch.setattr(progress, "ESTIMATE_AFTER_S", 0.0)
+    b.update(40)           # 5 %: now an estimate
+    assert "estimating" not in str(b) and "<" in str(b)
+    b.close()
+
+
+def test_a_run_says_what_it_does_before_the_first_step(tmp_path, capsys):
+    text = DEMO.read_text().replace("years = 1.0", "sols = 1").replace("spinup_max_years = 10", "spinup_max_years = 0")
+    p = tmp_path / "s.toml"
+    p.write_text(text)
+    assert cli.main(["run", str(p), "-o", str(tmp_path / "r.nc")]) == 0
+    err = capsys.readouterr().err
+    assert "wetcycle: preparing" in err and "numba" in err

@@ -369,8 +369,13 @@ def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=Non
         run = GridRun(sc, tables, str(store), cell_index(sc), layout)
         bar = None
         if progress:
-            from tqdm import tqdm
-            bar = tqdm(total=len(all_tiles), initial=len(all_tiles) - len(todo), unit="tile", desc=sc.name)
+            from .progress import bar as progress_bar
+            from .progress import stage
+            stage(f"{len(todo)} of {len(all_tiles)} tiles to compute"
+                  + (f" on {workers} local worker processes" if workers > 1 and scheduler is None else "")
+                  + "; each worker first compiles or loads the numba kernels and spins its cells up")
+            bar = progress_bar(len(all_tiles), "tile", sc.name)
+            bar.update(len(all_tiles) - len(todo))
         spent = timings if timings is not None else {}
 
         def finished(k, t):

@@ -377,6 +377,10 @@ def run(scenario, *, write=True, progress=False, output_path=None):
     sc = scenario if isinstance(scenario, Scenario) else load_scenario(scenario)
     if write:  # refuse an unwritable result path before computing anything
         output.check_output_path(output_path or sc.output_path, "output_path" if output_path else "output")
+    if progress:
+        from .progress import stage
+        stage("preparing the forcing and the salt tables (a first run also compiles numba kernels, "
+              "~1 minute, cached after)")
     src = forcing_source(sc, progress=progress)
     stats, series, phase_series = simulate(sc, src, phase_models(sc), keep_series=sc["output"]["series"],
                                            progress=progress)
@@ -484,8 +488,8 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
     states = [None] * len(models)
     bar = None
     if progress:
-        from tqdm import tqdm
-        bar = tqdm(total=src.n_steps, unit="step", desc=f"{sc.name}", leave=False)
+        from .progress import bar as progress_bar
+        bar = progress_bar(src.n_steps, "step", sc.name)
     clock = time.perf_counter
     t_forcing = t_phase = 0.0
     t_mark = clock()
