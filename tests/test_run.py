@@ -94,9 +94,16 @@ def test_statistics_agree_with_saved_series(demo_result):
 
 
 def test_water_conserved_in_the_run(demo_result):
+    # Conservation of mass (definition): the water the parcel holds changes by exactly the water it
+    # exchanged with vapour and frost, in every step, the first one included (from the initial
+    # hydrate).  Tolerance: the stored float32 water amounts (relative 6e-8 of ~0.05 kg m-2).
     ds, _ = demo_result
-    W = (ds.liquid_water + ds.hydrate_water + ds.ice_water)
+    W = (ds.liquid_water + ds.hydrate_water + ds.ice_water).astype(float).transpose("salt", "site", "time").values
     assert np.all(W >= 0)
+    before = np.concatenate([ds.initial_water.values[..., None], W[..., :-1]], axis=-1)
+    change = W - before
+    np.testing.assert_allclose(change, ds.water_exchanged.values, rtol=0, atol=2e-8)
+    assert np.abs(ds.water_exchanged).sum() > 1e-4  # the run exchanged water: the check is not empty
 
 
 def test_scenario_errors_are_one_line(tmp_path):

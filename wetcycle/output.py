@@ -71,6 +71,10 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
         for k, parts in series.items():
             data[k] = (("site", "time"), np.concatenate(parts, axis=0).T, att(k))
         for k in phase_series[0]:
+            if k == "_initial_water":
+                data["initial_water"] = (("salt", "site"), np.stack([ps[k] for ps in phase_series]),
+                                         att("initial_water"))
+                continue
             arr = np.stack([np.concatenate(ps[k], axis=0).T for ps in phase_series])
             data[k] = (("salt", "site", "time"), arr, att(k))
     ds = xr.Dataset(data, coords=coords)

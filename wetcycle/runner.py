@@ -33,7 +33,7 @@ WATER_CYCLE_KEYS = ("air_temperature", "air_vapor_pressure", "air_relative_humid
 #: Per-salt water-budget statistics of energy-balance runs (DESIGN decision 4).
 WATER_CYCLE_STATS = ("salt_water_uptake", "surface_water_delivered", "uptake_exceeds_supply_steps")
 PHASE_KEYS = ("phase_state", "brine_water_activity", "liquid_water", "hydrate_water", "ice_water",
-              "liquid_fraction", "validity_flag")
+              "liquid_fraction", "water_exchanged", "validity_flag")
 
 
 @dataclass
@@ -486,6 +486,7 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
     last_frost = np.zeros(n_sites)
     phase_series = [{k: [] for k in PHASE_KEYS} for _ in models] if keep else None
     states = [None] * len(models)
+    initial_water = [None] * len(models)
     bar = None
     if progress:
         from .progress import bar as progress_bar
@@ -507,6 +508,8 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
             if states[j] is None:
                 states[j] = m.initial_state(n_sites, np.array([sc.salts[j]["loading"]] * n_sites),
                                             d["salt_temperature"][0], d["relative_humidity"][0])
+                if keep:
+                    initial_water[j] = states[j].total_water.copy()
             r = m.step(states[j], d["salt_temperature"], d["relative_humidity"], d["surface_pressure"], frost,
                        blk.dt_s)
             acc.add(r.liquid_fraction, r.phase, r.water_activity, d["salt_temperature"], season[blk.i0:blk.i1],
@@ -523,6 +526,7 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
                 ps["hydrate_water"].append(r.hydrate_water.astype(np.float32))
                 ps["ice_water"].append(r.ice_water.astype(np.float32))
                 ps["liquid_fraction"].append(r.liquid_fraction.astype(np.float32))
+                ps["water_exchanged"].append(r.exchanged)  # float64: the water balance closes to rounding
                 ps["validity_flag"].append(r.clamped.astype(np.int8))
         if keep:
             for k in series_keys:
@@ -537,6 +541,9 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
         timings["forcing"] = timings.get("forcing", 0.0) + t_forcing
         timings["phase"] = timings.get("phase", 0.0) + t_phase
     per_year, durations, _ = frame
+    if keep:
+        for ps, w0 in zip(phase_series, initial_water):
+            ps["_initial_water"] = w0
     stats = [acc.finish(src.years, per_year=per_year, bin_duration_s=durations) for acc in accs]
     if water_cycle:
         for j, st in enumerate(stats):

@@ -58,6 +58,7 @@ VARIABLES = {
     "hydrate_water": ("kg m-2", "water held in salt hydrates per unit area", None),
     "ice_water": ("kg m-2", "water held as ice formed from the salt's brine per unit area", None),
     "liquid_fraction": ("1", "fraction of the step with liquid brine present", None),
+    "initial_water": ("kg m-2", "water held by the salt parcel before the first step (as hydrate)", None),
     "water_exchanged": ("kg m-2", "water taken up from vapour or frost during the step (negative: lost)", None),
     "validity_flag": ("1", "model validity flags of the step (sum of bits; 0: none)", None),
     # statistics
