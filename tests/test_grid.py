@@ -285,3 +285,19 @@ def test_cli_workers_must_be_positive(tmp_path, capsys):
     err = capsys.readouterr().err
     assert code == 2 and err.count("\n") == 1 and "workers" in err
     assert not (tmp_path / "g.nc").exists()
+
+
+def test_probe_cells_keep_series_equal_to_the_grid(tmp_path, reference):
+    # Named probe cells of a grid get their full series (a site result beside the grid's); their
+    # statistics are the grid's own at that cell (same path, same spin-up: exact).
+    doc = grid_doc(tmp_path, chunk_cells=9, probes={"equator east": [1.0, 119.0], "south": [-30.0, 0.0]})
+    run_grid(scenario_from_dict(doc))
+    p = open_result(tmp_path / "grid.probes.nc")
+    assert list(p.site.values) == ["equator east", "south"] and "phase_state" in p
+    for site, (la, lo) in (("equator east", (0.0, 120.0)), ("south", (-30.0, 0.0))):
+        for k in ("liquid_hours", "longest_liquid_spell_hours", "clamped_steps"):
+            np.testing.assert_array_equal(p[k].sel(site=site).values,
+                                          reference[k].sel(lat=la, lon=lo).values, err_msg=k)
+    bad = grid_doc(tmp_path, probes={"pole": [89.0, 0.0]})
+    with pytest.raises(ConfigError, match="grid.probes.pole"):
+        run_grid(scenario_from_dict(bad))

@@ -120,6 +120,7 @@ SCHEMA = {
         "chunk_cells": (int, 64, 1, 1000000, "cells per chunk"),
         "properties": (str, None, None, None, "NetCDF file of surface properties on (lat, lon)"),
         "property_variables": (dict, None, None, None, "our name = the file's variable name"),
+        "probes": (dict, None, None, None, "cells whose full series are saved: name = [latitude, longitude]"),
         "elevation": (NUM, 0.0, -9000.0, 25000.0, "m"),
         "albedo": (NUM, 0.25, 0.0, 1.0, ""),
         "thermal_inertia": (NUM, 250.0, 10.0, 5000.0, "J m-2 K-1 s-1/2"),

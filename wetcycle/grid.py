@@ -392,10 +392,56 @@ def run_grid(scenario, *, workers=1, write=True, progress=False, output_path=Non
         import time
         t0 = time.perf_counter()
         ds = assemble(sc, store, hashes)
+        probes = run_probes(sc, tables)
         if write:
+            if probes is not None:
+                write_result(probes, probes_path_for(out_path))
             write_grid_result(ds, out_path)
             shutil.rmtree(store)  # the result holds everything; a rerun starts afresh
         spent["assemble"] = time.perf_counter() - t0
+    return ds
+
+
+def probes_path_for(output_path):
+    """Where the series of a grid's probe cells go: ``<output stem>.probes.nc``."""
+    p = Path(output_path)
+    return p.with_name(p.stem + ".probes.nc")
+
+
+def run_probes(sc, tables):
+    """Full series of the grid's named probe cells (``grid.probes``), as a site result; None if none.
+
+    Each probe is the grid cell nearest its [latitude, longitude], with that cell's properties, run
+    through the same path as the grid's tiles (same fixed spin-up), so its statistics equal the
+    grid's at that cell.
+    """
+    from .runner import run
+    probes = sc["grid"]["probes"]
+    if not probes:
+        return None
+    g = sc["grid"]
+    lats, lons = grid_axes(g)
+    idx = cell_index(sc)
+    cells = []
+    for name, where in probes.items():
+        ok = (isinstance(where, list) and len(where) == 2
+              and all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in where))
+        if not ok:
+            raise ConfigError(f"{sc.source}: grid.probes.{name}: {where!r} is not allowed; allowed: "
+                              "[latitude, longitude] in degrees")
+        i = int(np.argmin(np.abs(lats - where[0])))
+        j = int(np.argmin(np.abs((lons - where[1] + 180.0) % 360.0 - 180.0)))
+        if abs(lats[i] - where[0]) > 0.5 * g["lat_step"] + 1e-9 or \
+                abs((lons[j] - where[1] + 180.0) % 360.0 - 180.0) > 0.5 * g["lon_step"] + 1e-9:
+            raise ConfigError(f"{sc.source}: grid.probes.{name}: {where!r} is outside the grid")
+        if idx[i, j] < 0:
+            raise ConfigError(f"{sc.source}: grid.probes.{name}: the cell at {lats[i]:g} N, {lons[j]:g} E is masked")
+        cells.append(dict(sc.sites[idx[i, j]], name=str(name)))
+    sub = _sub_scenario(sc, [])
+    sub.tables["output"]["series"] = True
+    sub = dataclasses.replace(sub, sites=tuple(cells))
+    ds = run(sub, write=False, tables=tables)
+    ds.attrs["title"] = f"wetcycle probe cells of the gridded run {sc.name}"
     return ds
 
 

@@ -360,7 +360,7 @@ def _site_or(sc, key, default):
     return np.array([s.get(key, default) for s in sc.sites], dtype=float)
 
 
-def run(scenario, *, write=True, progress=False, output_path=None):
+def run(scenario, *, write=True, progress=False, output_path=None, tables=None):
     """Run a scenario and return its result as an ``xarray.Dataset``.
 
     Parameters
@@ -373,6 +373,8 @@ def run(scenario, *, write=True, progress=False, output_path=None):
         Show a progress bar (tqdm) over sols.
     output_path : path, optional
         Overrides the scenario's ``scenario.output``.
+    tables : dict, optional
+        Salt name -> PhaseTables to use instead of looking the salts up.
     """
     sc = scenario if isinstance(scenario, Scenario) else load_scenario(scenario)
     if write:  # refuse an unwritable result path before computing anything
@@ -382,7 +384,7 @@ def run(scenario, *, write=True, progress=False, output_path=None):
         stage("preparing the forcing and the salt tables (a first run also compiles numba kernels, "
               "~1 minute, cached after)")
     src = forcing_source(sc, progress=progress)
-    stats, series, phase_series = simulate(sc, src, phase_models(sc), keep_series=sc["output"]["series"],
+    stats, series, phase_series = simulate(sc, src, phase_models(sc, tables), keep_series=sc["output"]["series"],
                                            progress=progress)
     ds = output.build_dataset(sc, src, stats, series, phase_series)
     if write:
