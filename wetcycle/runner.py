@@ -463,6 +463,15 @@ def statistics(sc, tables=None, timings=None):
     return stats, src
 
 
+def _sum_steps(a):
+    """Sum of a [step, cell] block over its steps, each cell's steps added in order.
+
+    ``a.sum(axis=0)`` is not: NumPy sums pairwise along a contiguous axis, so a block of one cell
+    and a block of many would round differently, and a cell's result would depend on its tile.
+    """
+    return np.cumsum(a, axis=0)[-1] if a.shape[0] else np.zeros(a.shape[1:])
+
+
 def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
     """Stream the forcing blocks of ``src`` through the phase models and the accumulators.
 
@@ -503,7 +512,7 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
         frost = d["water_frost"] if ph["frost_contact"] else np.zeros_like(d["water_frost"])
         if water_cycle:
             supply = np.maximum(d["surface_water_flux"], 0.0)
-            delivered += supply.sum(axis=0)
+            delivered += _sum_steps(supply)
             available = supply + np.concatenate([last_frost[None, :], frost[:-1]])
             last_frost = frost[-1].copy()
         for j, (m, acc) in enumerate(zip(models, accs)):
@@ -518,7 +527,7 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
                     blk.ltst_h, r.clamped, blk.dt_s)
             if water_cycle:
                 gain = np.maximum(r.exchanged, 0.0)
-                uptake[j] += gain.sum(axis=0)
+                uptake[j] += _sum_steps(gain)
                 exceed[j] += np.sum(gain > available * (1.0 + 1e-9) + 1e-15, axis=0)
             if keep:
                 ps = phase_series[j]
