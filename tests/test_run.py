@@ -383,3 +383,20 @@ def test_earth_runs_speak_of_days_and_months(tmp_path):
     assert "Earth year" in ds.liquid_hours_per_year.attrs["long_name"]
     assert ds.liquid_hours_per_year.attrs["units"] == "h (365.2422 d)-1"
     assert "day" in ds.sol.attrs["long_name"]
+
+
+def test_site_result_names_its_inputs_by_hash(tmp_path):
+    # Every file the scenario names and each salt's tables, by SHA-256 (FIPS 180-4; hashlib).
+    import hashlib
+    import json
+    doc = {"scenario": {"name": "analog", "planet": "earth", "output": str(tmp_path / "a.nc")},
+           "clock": {"start_utc": "2024-12-10T00:00:00Z", "sols": 1, "steps_per_sol": 24},
+           "site": [{"name": "Site Kestrel", "latitude": -24.0, "longitude": 10.0}],
+           "forcing": {"kind": "file", "path": str(ROOT / "forcing" / "analog_site_demo.csv"),
+                       "gap_policy": "interpolate", "max_gap_s": 7200.0},
+           "salt": [{"name": "NaCl"}]}
+    ds = run(scenario_from_dict(doc))
+    h = json.loads(ds.attrs["input_sha256"])
+    csv = ROOT / "forcing" / "analog_site_demo.csv"
+    assert h["forcing.path"]["sha256"] == hashlib.sha256(csv.read_bytes()).hexdigest()
+    assert len(h["salt:NaCl"]["sha256"]) == 64

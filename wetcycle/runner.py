@@ -8,6 +8,7 @@ are kept only when the scenario asks for them.
 
 from __future__ import annotations
 
+import json
 import time
 from dataclasses import dataclass
 
@@ -384,9 +385,11 @@ def run(scenario, *, write=True, progress=False, output_path=None, tables=None):
         stage("preparing the forcing and the salt tables (a first run also compiles numba kernels, "
               "~1 minute, cached after)")
     src = forcing_source(sc, progress=progress)
-    stats, series, phase_series = simulate(sc, src, phase_models(sc, tables), keep_series=sc["output"]["series"],
-                                           progress=progress)
+    models = phase_models(sc, tables)
+    stats, series, phase_series = simulate(sc, src, models, keep_series=sc["output"]["series"], progress=progress)
     ds = output.build_dataset(sc, src, stats, series, phase_series)
+    from .inputs import input_hashes
+    ds.attrs["input_sha256"] = json.dumps(input_hashes(sc, {m.tables.name: m.tables for m in models}), sort_keys=True)
     if write:
         output.write_result(ds, output_path or sc.output_path)
     return ds
