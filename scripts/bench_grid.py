@@ -145,7 +145,7 @@ def main():
             print(f"  worker time: forcing {100 * spent['forcing'] / work:.0f} %, phase model "
                   f"{100 * spent['phase'] / work:.0f} %, store writes {100 * spent['io'] / work:.1f} %; "
                   f"assembling the result {spent['assemble']:.1f} s")
-            per_worker = n * steps / (work / 1.0) if work else float("nan")  # cell-steps/s per busy worker
+            per_worker = n * steps / cpu if cpu else float("nan")  # cell-steps per CPU-second: one busy core
             cells_1deg = 180 * 360
             nodes, per_node = 10, 2
             compute = cells_1deg * steps / (per_worker * nodes * per_node)
@@ -153,7 +153,10 @@ def main():
             total = t_cluster + t_first + compute + assemble
             print(f"  projection, 1 x 1 degree ({cells_1deg} cells) on {nodes} nodes x {per_node} workers: "
                   f"start-up {t_cluster + t_first:.0f} s + compute {compute:.0f} s + assembly {assemble:.0f} s "
-                  f"= {total / 60:.1f} min (per-worker rate {per_worker:.3e} cell-steps/s, from this run)")
+                  f"= {total / 60:.1f} min (per-core rate {per_worker:.3e} cell-steps per CPU-second, from this run)")
+            full = 90 * 180 * steps / per_worker / 2
+            print(f"  the 2 x 2 degree global grid (16,200 cells) on 2 idle cores at this rate: about "
+                  f"{full / 60:.1f} min")
 
 
 if __name__ == "__main__":
