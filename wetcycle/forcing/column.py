@@ -198,14 +198,25 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
     mc = np.empty((nvx, cb))
     md = np.empty((nvx, cb))
     gcond = np.zeros((nvx, cb))
-    xkeep = np.zeros((nvx + 1, cb))
     wkeep = np.empty((nv, cb))
-    fskeep = np.empty(cb)
+    fskeep = np.zeros(cb)
+    xakeep = np.zeros(cb)
+    takev = np.empty(cb)
+    rsv = np.empty((nv, cb))
+    kv = np.empty((nv, cb))
     cdone = np.empty(cb)
     bad = np.empty(cb)
     for b in range(nb):
         o = b * cb
         cmax = min(cb, nc - o)
+        # the block's vapour nodes: below every one of its cells' own last node nothing moves
+        # (no flux, see prepare_column), so the solve stops there -- exact, cell by cell
+        nvb = 1
+        for j in range(nv - 1):
+            for c in range(cb):
+                if dzn[b, j, c] < np.inf:
+                    nvb = max(nvb, j + 2)
+        nvxb = nvb + 1
         for s in range(ns):
             sd, cd, fl, sh0, ch0 = sin_dec[s], cos_dec[s], toa_flux[s], sin_h0[s], cos_h0[s]
             if (step0 + s) % spd == 0:       # a new sol: renew the free-atmosphere mixing ratio
@@ -373,13 +384,22 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 arhs[c] = hnew * idt * ra + wt * rf_
                 gcond[0, c] = ga
                 ra0[c] = ra
-            for j in range(nv - 1):                      # pore diffusion conductances
+            for j in range(nvb - 1):                     # pore diffusion conductances
                 for c in range(cb):
                     tm = 0.5 * (temp[b, j, c] + temp[b, j + 1, c])
                     gcond[j + 1, c] = effective_diffusivity(tm, stepin[IN_PRESSURE, s, o + c],
                                                             vapp[b, V_PHI_TAU, c],
                                                             vapp[b, V_PORE, c]) / dzn[b, j, c]
-            for j in range(nv):
+            for c in range(cb):                          # below the block's last node: no flux
+                gcond[nvb, c] = 0.0
+            # saturation and Langmuir constant at each node's new temperature: table look-ups
+            # (gathers, scalar code) once per step, outside the SIMD loops of the solve
+            for j in range(nvb):
+                for c in range(cb):
+                    rs, kj = table_lookup(temp[b, j, c], tab)
+                    rsv[j, c] = rs
+                    kv[j, c] = kj
+            for j in range(nvb):
                 for c in range(cb):
                     wold[j, c] = water[b, j, c]
                     wlin[j, c] = water[b, j, c]
@@ -390,10 +410,10 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
             # where a node changed branch (pore ice appeared or was used up) -- rare, so one
             # solve is the rule.
             for it in range(VAPOUR_MAXIT):
-                for j in range(nv):
+                for j in range(nvb):
                     for c in range(cb):
-                        rs, kj = table_lookup(temp[b, j, c], tab)
-                        x, ic, cap, wsat = _partition(wlin[j, c], vapp[b, V_PHI, c], vapp[b, V_CAPA, c], kj, rs)
+                        x, ic, cap, wsat = _partition(wlin[j, c], vapp[b, V_PHI, c], vapp[b, V_CAPA, c],
+                                                      kv[j, c], rsv[j, c])
                         cvdt = cv[b, j, c] * idt
                         mb[j + 1, c] = cap * cvdt
                         md[j + 1, c] = cap * cvdt * x - (wlin[j, c] - wold[j, c]) * cvdt
@@ -406,7 +426,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                     mb[1, c] += g0v[c] + gcond[1, c]
                     ma[1, c] = -gcond[0, c]
                     mc[1, c] = -gcond[1, c]
-                for j in range(1, nv):
+                for j in range(1, nvb):
                     for c in range(cb):
                         mb[j + 1, c] += gcond[j, c] + gcond[j + 1, c]
                         ma[j + 1, c] = -gcond[j, c]
@@ -415,14 +435,14 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                     m = 1.0 / mb[0, c]
                     mc[0, c] = mc[0, c] * m
                     md[0, c] = md[0, c] * m
-                for i in range(1, nvx):
+                for i in range(1, nvxb):
                     for c in range(cb):
                         m = 1.0 / (mb[i, c] - ma[i, c] * mc[i - 1, c])
                         mc[i, c] = mc[i, c] * m
                         md[i, c] = (md[i, c] - ma[i, c] * md[i - 1, c]) * m
                 for c in range(cb):
-                    xsol[nvx - 1, c] = md[nvx - 1, c]
-                for i in range(nvx - 2, -1, -1):
+                    xsol[nvxb - 1, c] = md[nvxb - 1, c]
+                for i in range(nvxb - 2, -1, -1):
                     for c in range(cb):
                         xsol[i, c] = md[i, c] - mc[i, c] * xsol[i + 1, c]
                 # each node's water from the fluxes of the solved field (exactly conservative)
@@ -430,7 +450,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                     fs = gcond[0, c] * xsol[0, c] - g0v[c] * xsol[1, c]
                     fsv[c] = fs
                     west[0, c] = wold[0, c] + dt * (fs - gcond[1, c] * (xsol[1, c] - xsol[2, c])) / cv[b, 0, c]
-                for j in range(1, nv):
+                for j in range(1, nvb):
                     for c in range(cb):
                         fin = gcond[j, c] * (xsol[j, c] - xsol[j + 1, c])
                         fout = gcond[j + 1, c] * (xsol[j + 1, c] - xsol[j + 2, c])
@@ -439,7 +459,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 # attempt); a cell's result never depends on its block-mates
                 for c in range(cb):
                     bad[c] = 0.0
-                for j in range(nv):
+                for j in range(nvb):
                     for c in range(cb):
                         now_ice = 1.0 if west[j, c] > wsatv[j, c] else 0.0
                         bad[c] += 1.0 if (now_ice != iced[j, c]) | (west[j, c] < 0.0) else 0.0
@@ -448,19 +468,20 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 again = 0.0
                 for c in range(cb):
                     take = (cdone[c] == 0.0) & ((bad[c] == 0.0) | last)
+                    tk = 1.0 if take else 0.0
+                    takev[c] = tk
                     cdone[c] = 1.0 if take else cdone[c]
                     again += 1.0 - cdone[c]
-                    if take:
-                        fskeep[c] = fsv[c]
-                        for i in range(nvx + 1):
-                            xkeep[i, c] = xsol[i, c]
-                        for j in range(nv):
-                            wkeep[j, c] = west[j, c]
+                    fskeep[c] = fsv[c] if take else fskeep[c]
+                    xakeep[c] = xsol[0, c] if take else xakeep[c]
+                for j in range(nvb):                     # branch-free copy (SIMD)
+                    for c in range(cb):
+                        wkeep[j, c] = west[j, c] if takev[c] > 0.0 else wkeep[j, c]
                 if again == 0.0:
                     break
             # conservative updates: air and nodes from the last solve's fluxes; fog
             for c in range(cb):
-                xa = xkeep[0, c]
+                xa = xakeep[c]
                 fsv[c] = fskeep[c]
                 ftop = wtop[c] * (rfree[c] - xa)         # free atmosphere -> air
                 hb = atm[b, A_DEPTH, c]
@@ -472,21 +493,21 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 atm[b, A_RHO_AIR, c] = ra - fog / hb
                 water[b, 0, c] = wkeep[0, c] + fog / cv[b, 0, c]
                 xch[c] = xch[c] + dt * ftop
-            for j in range(1, nv):
+            for j in range(1, nvb):
                 for c in range(cb):
                     water[b, j, c] = wkeep[j, c]
             # outputs: air, surface node, salt depth
             for c in range(cb):
                 ts_ = temp[b, 0, c]
-                rs0, k0 = table_lookup(ts_, tab)
-                x0, i0, c0, ws0 = _partition(water[b, 0, c], vapp[b, V_PHI, c], vapp[b, V_CAPA, c], k0, rs0)
+                x0, i0, c0, ws0 = _partition(water[b, 0, c], vapp[b, V_PHI, c], vapp[b, V_CAPA, c],
+                                             kv[0, c], rsv[0, c])
                 i = probe_idx[b, c]
                 w = probe_w[b, c]
                 ti = temp[b, i, c]
                 tj = temp[b, i + 1, c]
                 tp = (1.0 - w) * ti + w * tj
-                rsi, ki = table_lookup(ti, tab)
-                rsj, kj = table_lookup(tj, tab)
+                rsi, ki = rsv[i, c], kv[i, c]            # this step's look-ups at the salt's nodes
+                rsj, kj = rsv[i + 1, c], kv[i + 1, c]
                 xi, ii, ci, wi = _partition(water[b, i, c], vapp[b, V_PHI, c], vapp[b, V_CAPA, c], ki, rsi)
                 xj, ij, cj, wj = _partition(water[b, i + 1, c], vapp[b, V_PHI, c], vapp[b, V_CAPA, c], kj, rsj)
                 tprobe[c] = tp
