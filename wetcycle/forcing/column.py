@@ -50,8 +50,7 @@ from .atmosphere import CP_AIR_MARS, DUST_SINGLE_SCATTERING_ALBEDO
 from .energy import (CO2_PRESSURE_RANGE, LATENT_HEAT_CO2, NEWTON_MAXIT, NEWTON_TOL,
                      STEFAN_BOLTZMANN, _cellarray, exp_neg)
 from .insolation import top_of_atmosphere_flux
-from .regolith import (CELL_BLOCK, factorize, from_blocks, probe_weights, sweep_down, sweep_up,
-                       to_blocks)
+from .regolith import CELL_BLOCK, factorize, from_blocks, probe_weights, to_blocks
 from .regolith_vapour import (ICE_CAPACITY, R_GAS, R_VAPOUR, RHO_SAT_TABLE, TABLE_T,
                               effective_diffusivity, table_lookup, water_tables)
 from .supply import PROFILE_LEVELS, free_mixing_ratio_kernel
@@ -85,19 +84,66 @@ OUTPUT_UNITS = dict(zip(OUTPUTS, ("K", "K", "kg m-2", "kg m-2", "Pa", "Pa", "K",
                                   "W m-2", "kg m-2", "kg m-2", "W m-2", "Pa")))
 
 
+# ---- the kernel's block workspace -----------------------------------------------------
+# The kernel copies one block's state and constants into three local arrays with
+# compile-time strides (rows of CELL_BLOCK cells): per-cell rows ``cw[row, c]``, thermal
+# nodes ``tw[node, row, c]`` and vapour nodes ``vw[node, row, c]``.  Every loop over the
+# cells of a block then reads and writes a few arrays at known distances, which the
+# compiler turns into SIMD code without run-time aliasing checks; the block's state goes
+# back to the caller's arrays after its last step.
+#: per-cell rows: block constants, state, step inputs, scratch, outputs
+_C_CELLP = 0                                     # 13 rows, as cellp
+_C_VAPP = 13                                     # N_VAP rows, as vapp
+_C_PW = 20                                       # weight of the salt depth
+_C_SURF = 21                                     # 1: a surface salt (node 0, weight 0)
+_C_CO2 = 22                                      # CO2 frost [kg m-2]
+_C_ATM = 23                                      # N_ATM rows, as atm
+_C_IN = 30                                       # N_IN rows, this step's inputs
+(_C_WST, _C_EPS, _C_SW, _C_ATMSW, _C_LDW, _C_SIN, _C_WTR, _C_CW, _C_TAUR, _C_ALPHA, _C_BETA0,
+ _C_QQ, _C_PP, _C_RF, _C_HOLD, _C_RHS, _C_TN, _C_ACT, _C_HFLUX, _C_GNET, _C_RFREE, _C_XCH,
+ _C_WTOP, _C_G0V, _C_ADIAG, _C_ARHS, _C_RA0, _C_FS, _C_FSKEEP, _C_XAKEEP, _C_TAKE, _C_DONE,
+ _C_BAD, _C_FOG, _C_PWI, _C_PWJ, _C_PSI, _C_PKI, _C_PSJ, _C_PKJ, _C_PTI, _C_PTJ) = range(35, 77)
+_C_OUT = 77                                      # len(OUTPUTS) rows, this step's outputs
+_N_CW = _C_OUT + len(OUTPUTS)
+#: thermal node rows: temperature, the elimination factors, the upward sweep's e
+_T_T, _T_FA, _T_FD, _T_FF, _T_FG, _T_E = range(6)
+_N_TW = 6
+#: vapour node rows (node j): total water at the step's start (the state), the iterate, the
+#: estimate from the fluxes, the kept estimate, rho_sat, Langmuir k, W at saturation, ice
+#: flag, control volume, distance to the next node; solver rows (row i = node i - 1, row 0
+#: the air): the tridiagonal system a, b, c, d, the solution, the conductances
+(_W_W, _W_LIN, _W_EST, _W_KEEP, _W_RS, _W_K, _W_SAT, _W_ICE, _W_CV, _W_DZN,
+ _R_A, _R_B, _R_C, _R_D, _R_X, _R_G) = range(16)
+_N_VW = 16
+
+
 @njit(cache=True, fastmath=True, inline="always")
-def _partition(w, phi, cap_a, k, rs):
-    """Branch-free form of :func:`~wetcycle.forcing.regolith_vapour.partition` for SIMD loops:
-    (rho_v, ice, capacity, w_sat); a transiently negative ``w`` gives ``rho_v = w / phi``."""
+def _saturated_water(phi, cap_a, k, rs):
+    """W at ice saturation [kg m-3]: the ``w_sat`` of :func:`_partition`."""
     ks = k * rs
-    wsat = phi * rs + cap_a * ks / (1.0 + ks)
+    return phi * rs + cap_a * ks / (1.0 + ks)
+
+
+@njit(cache=True, fastmath=True, inline="always")
+def _vapour_pressure(rho_v, t):
+    """Vapour pressure [Pa] of vapour density ``rho_v`` [kg m-3] at ``t`` [K]."""
+    return rho_v * R_VAPOUR * t
+
+
+@njit(cache=True, fastmath=True, inline="always")
+def _partition(w, phi, cap_a, k, wsat):
+    """Branch-free form of :func:`~wetcycle.forcing.regolith_vapour.partition` for SIMD loops,
+    given ``wsat`` (:func:`_saturated_water`): (rho_v, ice, capacity); a transiently negative
+    ``w`` gives ``rho_v = w / phi``.  One division serves both branches."""
     wl = min(max(w, 0.0), wsat)
     bq = phi + cap_a * k - wl * k
-    x = 2.0 * wl / (bq + math.sqrt(bq * bq + 4.0 * phi * k * wl))
-    x = x if w > 0.0 else w / phi
-    den = 1.0 + k * x
-    cap = ICE_CAPACITY if w > wsat else phi + cap_a * k / (den * den)
-    return x, max(w - wsat, 0.0), cap, wsat
+    pos = w > 0.0
+    num = 2.0 * wl if pos else w
+    den = bq + math.sqrt(bq * bq + 4.0 * phi * k * wl) if pos else phi
+    x = num / den
+    dn = 1.0 + k * x
+    cap = ICE_CAPACITY if w > wsat else phi + cap_a * k / (dn * dn)
+    return x, max(w - wsat, 0.0), cap
 
 
 @njit(cache=True, fastmath=True, boundscheck=False, error_model="numpy", nogil=True)
@@ -136,8 +182,13 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                                      do not depend on how the run is cut into blocks
     out : [len(OUTPUTS), step, cell] filled with the outputs (values at step ends; the
                                      two water fluxes are amounts over the step [kg m-2])
+
+    Blocks must hold :data:`~wetcycle.forcing.regolith.CELL_BLOCK` cells.
     """
-    nb, nn, cb = temp.shape
+    nb, nn, cb_ = temp.shape
+    cb = CELL_BLOCK                  # a compile-time constant: fixed strides, SIMD loops
+    if cb_ != cb:
+        raise ValueError("column_kernel: blocks must hold CELL_BLOCK cells")
     nv = water.shape[1]
     ns = sin_dec.size
     nc = out.shape[2]
@@ -168,47 +219,44 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
     lapse = par[P_LAPSE]
     eps_w = par[P_EPSW]
     spd = int(par[P_SPD])
+    n_out = len(OUTPUTS)
     qs_ = np.empty(PROFILE_LEVELS)
     pz_ = np.empty(PROFILE_LEVELS)
     wk_ = np.empty(PROFILE_LEVELS)
-    e = np.empty((nn, cb))
-    wk = np.empty((24, cb))
-    (sw, s_in, qq, rhs, r_f, hold, tn, t1o, tprobe, act, pp, cw, alpha, beta0, atmsw, ldw,
-     epsv, wst, hflux, wtr, ra0, xch, adiag, arhs) = (
-        wk[0], wk[1], wk[2], wk[3], wk[4], wk[5], wk[6], wk[7], wk[8], wk[9], wk[10], wk[11],
-        wk[12], wk[13], wk[14], wk[15], wk[16], wk[17], wk[18], wk[19], wk[20], wk[21], wk[22],
-        wk[23])
-    conv = np.empty(cb)
-    taur = np.empty(cb)
-    gnet = np.empty(cb)
-    wtop = np.empty(cb)
-    rfree = np.empty(cb)
-    g0v = np.empty(cb)
-    fsv = np.empty(cb)
-    fogv = np.empty(cb)
-    nvx = nv + 1
-    xsol = np.zeros((nvx + 1, cb))
-    wold = np.empty((nv, cb))
-    wlin = np.empty((nv, cb))
-    west = np.empty((nv, cb))
-    wsatv = np.empty((nv, cb))
-    iced = np.empty((nv, cb))
-    ma = np.zeros((nvx, cb))
-    mb = np.empty((nvx, cb))
-    mc = np.empty((nvx, cb))
-    md = np.empty((nvx, cb))
-    gcond = np.zeros((nvx, cb))
-    wkeep = np.empty((nv, cb))
-    fskeep = np.zeros(cb)
-    xakeep = np.zeros(cb)
-    takev = np.empty(cb)
-    rsv = np.empty((nv, cb))
-    kv = np.empty((nv, cb))
-    cdone = np.empty(cb)
-    bad = np.empty(cb)
+    cw = np.zeros((_N_CW, cb))
+    tw = np.zeros((nn, _N_TW, cb))
+    vw = np.zeros((nv + 2, _N_VW, cb))
+    pidx = np.zeros(cb, dtype=np.int64)
     for b in range(nb):
         o = b * cb
         cmax = min(cb, nc - o)
+        # ---- the block in: state and constants ---------------------------------------
+        for k in range(13):
+            for c in range(cb):
+                cw[_C_CELLP + k, c] = cellp[b, k, c]
+        for k in range(N_VAP):
+            for c in range(cb):
+                cw[_C_VAPP + k, c] = vapp[b, k, c]
+        for k in range(N_ATM):
+            for c in range(cb):
+                cw[_C_ATM + k, c] = atm[b, k, c]
+        for c in range(cb):
+            cw[_C_PW, c] = probe_w[b, c]
+            cw[_C_SURF, c] = 1.0 if (probe_idx[b, c] == 0) & (probe_w[b, c] == 0.0) else 0.0
+            cw[_C_CO2, c] = co2[b, c]
+            pidx[c] = probe_idx[b, c]
+        for j in range(nn):
+            for c in range(cb):
+                tw[j, _T_T, c] = temp[b, j, c]
+                tw[j, _T_FA, c] = fa[b, j, c]
+                tw[j, _T_FD, c] = fd[b, j, c]
+                tw[j, _T_FF, c] = ff[b, j, c]
+                tw[j, _T_FG, c] = fg[b, j, c]
+        for j in range(nv):
+            for c in range(cb):
+                vw[j, _W_W, c] = water[b, j, c]
+                vw[j, _W_CV, c] = cv[b, j, c]
+                vw[j, _W_DZN, c] = dzn[b, j, c]
         # the block's vapour nodes: below every one of its cells' own last node nothing moves
         # (no flux, see prepare_column), so the solve stops there -- exact, cell by cell
         nvb = 1
@@ -219,192 +267,214 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
         nvxb = nvb + 1
         for s in range(ns):
             sd, cd, fl, sh0, ch0 = sin_dec[s], cos_dec[s], toa_flux[s], sin_h0[s], cos_h0[s]
+            for k in range(N_IN):
+                for c in range(cb):
+                    cw[_C_IN + k, c] = stepin[k, s, o + c]
             if (step0 + s) % spd == 0:       # a new sol: renew the free-atmosphere mixing ratio
                 for c in range(cb):
                     if q_const >= 0.0:
-                        atm[b, A_QFREE, c] = q_const
+                        cw[_C_ATM + A_QFREE, c] = q_const
                     else:
-                        tb = min(max(atm[b, A_TMEAN, c], 120.0), 300.0)
-                        q0, zc = free_mixing_ratio_kernel(stepin[IN_COLUMN, s, o + c], stepin[IN_PRESSURE, s, o + c],
+                        tb = min(max(cw[_C_ATM + A_TMEAN, c], 120.0), 300.0)
+                        q0, zc = free_mixing_ratio_kernel(cw[_C_IN + IN_COLUMN, c], cw[_C_IN + IN_PRESSURE, c],
                                                           tb, lapse, g, r_air, eps_w, qs_, pz_, wk_)
-                        atm[b, A_QFREE, c] = q0
-            sweep_up(temp, e, fa, fd, ff, fg, r, b)
+                        cw[_C_ATM + A_QFREE, c] = q0
+            # ---- ground heat: upward elimination (regolith.sweep_up on the workspace) ----
+            j = nn - 1
+            for c in range(cb):
+                tw[j, _T_E, c] = (tw[j, _T_FA, c] * tw[j, _T_T, c] + r * tw[j, _T_FF, c] * tw[j - 1, _T_T, c]
+                                  + tw[j, _T_FG, c])
+            for j in range(nn - 2, 0, -1):
+                for c in range(cb):
+                    tw[j, _T_E, c] = (tw[j, _T_FA, c] * tw[j, _T_T, c] + r * tw[j, _T_FF, c] * tw[j - 1, _T_T, c]
+                                      + tw[j, _T_FD, c] * (r * tw[j + 1, _T_T, c] + tw[j + 1, _T_E, c]))
             for c in range(cb):        # convective velocity from the last step (scalar pow)
-                hfl = atm[b, A_HFLUX, c]
-                wst[c] = 0.0
+                hfl = cw[_C_ATM + A_HFLUX, c]
+                cw[_C_WST, c] = 0.0
                 if hfl > 0.0:
-                    ta = atm[b, A_TAIR, c]
-                    rho = stepin[IN_PRESSURE, s, o + c] / (r_air * ta)
-                    wst[c] = (g * atm[b, A_DEPTH, c] * hfl / (rho * cp * ta)) ** (1.0 / 3.0)
+                    ta = cw[_C_ATM + A_TAIR, c]
+                    rho = cw[_C_IN + IN_PRESSURE, c] / (r_air * ta)
+                    cw[_C_WST, c] = (g * cw[_C_ATM + A_DEPTH, c] * hfl / (rho * cp * ta)) ** (1.0 / 3.0)
             for c in range(cb):        # geometry, radiation, turbulence, surface equation
-                slat, clat = cellp[b, 0, c], cellp[b, 1, c]
-                slon, clon = cellp[b, 2, c], cellp[b, 3, c]
+                slat, clat = cw[_C_CELLP + 0, c], cw[_C_CELLP + 1, c]
+                slon, clon = cw[_C_CELLP + 2, c], cw[_C_CELLP + 3, c]
                 ch = ch0 * clon - sh0 * slon
                 sh = sh0 * clon + ch0 * slon
                 u = slat * sd + clat * cd * ch
-                cosi = (-cd * sh * cellp[b, 4, c] + (clat * sd - slat * cd * ch) * cellp[b, 5, c]
-                        + u * cellp[b, 6, c])
-                tau = stepin[IN_TAU, s, o + c]
+                cosi = (-cd * sh * cw[_C_CELLP + 4, c] + (clat * sd - slat * cd * ch) * cw[_C_CELLP + 5, c]
+                        + u * cw[_C_CELLP + 6, c])
+                tau = cw[_C_IN + IN_TAU, c]
                 tr = exp_neg(-tau / max(u, 1e-6))
                 uu = max(u, 0.0)
                 beam = fl * tr
                 ext = fl * uu * (1.0 - tr)
                 diff_h = diffuse_fraction * ext
-                fr = co2[b, c] > 0.0
-                alb = cellp[b, 11, c] if fr else cellp[b, 9, c]
-                eps = cellp[b, 12, c] if fr else cellp[b, 10, c]
-                epsv[c] = eps
-                cs = cellp[b, 7, c]
+                fr = cw[_C_CO2, c] > 0.0
+                # (both values loaded first: a select of two loads would become a gather)
+                a_bare, a_frost = cw[_C_CELLP + 9, c], cw[_C_CELLP + 11, c]
+                e_bare, e_frost = cw[_C_CELLP + 10, c], cw[_C_CELLP + 12, c]
+                alb = a_frost if fr else a_bare
+                eps = e_frost if fr else e_bare
+                cw[_C_EPS, c] = eps
+                cs = cw[_C_CELLP + 7, c]
                 sww = (beam * max(cosi, 0.0)
                        + 0.5 * (diff_h * (1.0 + cs) + alb * (beam * uu + diff_h) * (1.0 - cs)))
                 sww = sww if u > 0.0 else 0.0
-                sw[c] = sww
-                atmsw[c] = (1.0 - omega) * ext if u > 0.0 else 0.0
-                tatm = atm[b, A_TATM, c]
+                cw[_C_SW, c] = sww
+                cw[_C_ATMSW, c] = (1.0 - omega) * ext if u > 0.0 else 0.0
+                tatm = cw[_C_ATM + A_TATM, c]
                 t4 = tatm * tatm
-                ld = stepin[IN_EPS_ATM, s, o + c] * sigma * t4 * t4
-                ldw[c] = ld
-                s_abs = (1.0 - alb) * sww + eps * ld * cellp[b, 8, c]
-                s_in[c] = s_abs
+                ld = cw[_C_IN + IN_EPS_ATM, c] * sigma * t4 * t4
+                cw[_C_LDW, c] = ld
+                s_abs = (1.0 - alb) * sww + eps * ld * cw[_C_CELLP + 8, c]
+                cw[_C_SIN, c] = s_abs
                 # turbulent exchange with the air at the sensor height (surface_layer: Louis
                 # stability, gustiness), implicit together with the air temperature
-                t0 = temp[b, 0, c]
-                ta = atm[b, A_TAIR, c]
-                rho = stepin[IN_PRESSURE, s, o + c] / (r_air * ta)
-                uw = vapp[b, V_WIND, c]
-                ueff = math.sqrt(uw * uw + wst[c] * wst[c])
+                t0 = tw[0, _T_T, c]
+                ta = cw[_C_ATM + A_TAIR, c]
+                rho = cw[_C_IN + IN_PRESSURE, c] / (r_air * ta)
+                uw = cw[_C_VAPP + V_WIND, c]
+                wsc = cw[_C_WST, c]
+                ueff = math.sqrt(uw * uw + wsc * wsc)
                 ri = ri_coef * (ta - t0) / (0.5 * (ta + t0) * ueff * ueff)
                 fst = 1.0 / (1.0 + 3.0 * LOUIS_B * ri * math.sqrt(1.0 + LOUIS_D * max(ri, 0.0)))
-                fun = 1.0 - 3.0 * LOUIS_B * ri / (1.0 + vapp[b, V_LOUIS, c] * math.sqrt(max(-ri, 0.0)))
-                w = vapp[b, V_CN, c] * (fst if ri >= 0.0 else fun) * ueff
-                wtr[c] = w
+                fun = 1.0 - 3.0 * LOUIS_B * ri / (1.0 + cw[_C_VAPP + V_LOUIS, c] * math.sqrt(max(-ri, 0.0)))
+                w = cw[_C_VAPP + V_CN, c] * (fst if ri >= 0.0 else fun) * ueff
+                cw[_C_WTR, c] = w
                 cwc = rho * cp * w
-                cw[c] = cwc
+                cw[_C_CW, c] = cwc
                 tau_a = tau_air if t0 > ta else tau_night
                 dd = 1.0 + dt * w / h_air + dt / tau_a
                 al = (dt * w / h_air) / dd
-                b0 = (ta + dt * atm[b, A_TMEAN, c] / tau_a) / dd
-                taur[c] = tau_a
-                alpha[c] = al
-                beta0[c] = b0
+                b0 = (ta + dt * cw[_C_ATM + A_TMEAN, c] / tau_a) / dd
+                cw[_C_TAUR, c] = tau_a
+                cw[_C_ALPHA, c] = al
+                cw[_C_BETA0, c] = b0
                 q = theta * eps * sigma
-                qq[c] = q
-                t1 = temp[b, 1, c]
-                g0 = fd[b, 0, c]
-                pc = ff[b, 0, c] + cwc * theta * (1.0 - al)
-                pp[c] = pc
-                kk = (fa[b, 0, c] * t0 + s_abs - r * q * t0 * t0 * t0 * t0
-                      - om * g0 * (t0 - t1) + theta * g0 * e[1, c]
+                cw[_C_QQ, c] = q
+                t1 = tw[1, _T_T, c]
+                g0 = tw[0, _T_FD, c]
+                pc = tw[0, _T_FF, c] + cwc * theta * (1.0 - al)
+                cw[_C_PP, c] = pc
+                kk = (tw[0, _T_FA, c] * t0 + s_abs - r * q * t0 * t0 * t0 * t0
+                      - om * g0 * (t0 - t1) + theta * g0 * tw[1, _T_E, c]
                       - cwc * (om * t0 * (1.0 - al) - b0))
-                tf = stepin[IN_FROST_POINT, s, o + c]
-                ql = -lat_heat * co2[b, c] * idt             # all existing frost sublimes
+                tf = cw[_C_IN + IN_FROST_POINT, c]
+                ql = -lat_heat * cw[_C_CO2, c] * idt       # all existing frost sublimes
                 rf = pc * tf + q * tf * tf * tf * tf - kk    # residual held at T_f
-                hold[c] = 1.0 if (rf > ql) & (tf > 0.0) else 0.0
-                r_f[c] = rf
-                rhs[c] = kk + ql
-                tn[c] = max(t0, tf)
-                t1o[c] = t1
+                cw[_C_HOLD, c] = 1.0 if (rf > ql) & (tf > 0.0) else 0.0
+                cw[_C_RF, c] = rf
+                cw[_C_RHS, c] = kk + ql
+                cw[_C_TN, c] = max(t0, tf)
             for c in range(cb):
-                act[c] = 1.0
+                cw[_C_ACT, c] = 1.0
             for it in range(NEWTON_MAXIT):
                 nact = 0.0
                 for c in range(cb):
-                    t = tn[c]
-                    pc = pp[c]
+                    t = cw[_C_TN, c]
+                    pc = cw[_C_PP, c]
+                    qc = cw[_C_QQ, c]
                     t3 = t * t * t
-                    d = (pc * t + qq[c] * t3 * t - rhs[c]) / (pc + 4.0 * qq[c] * t3)
-                    a = act[c]
-                    tn[c] = t - a * d
+                    d = (pc * t + qc * t3 * t - cw[_C_RHS, c]) / (pc + 4.0 * qc * t3)
+                    a = cw[_C_ACT, c]
+                    cw[_C_TN, c] = t - a * d
                     a = a * (1.0 if d * d >= NEWTON_TOL * NEWTON_TOL else 0.0)
-                    act[c] = a
+                    cw[_C_ACT, c] = a
                     nact += a
                 if nact == 0.0:
                     break
             for c in range(cb):          # new surface state, air and atmosphere temperatures
-                hd = hold[c] > 0.0
-                t0 = temp[b, 0, c]
-                tf = stepin[IN_FROST_POINT, s, o + c]
-                tnew = tf if hd else tn[c]
-                m_old = co2[b, c]
-                m_new = m_old + r_f[c] * dt / lat_heat if hd else 0.0
-                co2[b, c] = m_new
-                temp[b, 0, c] = tnew
+                hd = cw[_C_HOLD, c] > 0.0
+                t0 = tw[0, _T_T, c]
+                tf = cw[_C_IN + IN_FROST_POINT, c]
+                tnn = cw[_C_TN, c]
+                tnew = tf if hd else tnn
+                m_old = cw[_C_CO2, c]
+                m_new = m_old + cw[_C_RF, c] * dt / lat_heat if hd else 0.0
+                cw[_C_CO2, c] = m_new
+                tw[0, _T_T, c] = tnew
                 th = theta * tnew + om * t0
-                hf = cw[c] * (th * (1.0 - alpha[c]) - beta0[c])
-                hflux[c] = hf
+                al = cw[_C_ALPHA, c]
+                b0 = cw[_C_BETA0, c]
+                hf = cw[_C_CW, c] * (th * (1.0 - al) - b0)
+                cw[_C_HFLUX, c] = hf
                 # net flux into the ground (theta-weighted emission, as the balance uses it)
-                gnet[c] = (s_in[c] - qq[c] / theta * (theta * tnew ** 4 + om * t0 ** 4) - hf
-                           + lat_heat * (m_new - m_old) * idt)
-                ta_new = beta0[c] + alpha[c] * th
-                p = stepin[IN_PRESSURE, s, o + c]
-                rho = p / (r_air * atm[b, A_TAIR, c])
-                tatm = atm[b, A_TATM, c]
-                ea = stepin[IN_EPS_ATM, s, o + c]
-                e_in = (ea * epsv[c] * sigma * tnew * tnew * tnew * tnew + atmsw[c]
-                        + rho * cp * h_air * (ta_new - atm[b, A_TMEAN, c]) / taur[c])
+                cw[_C_GNET, c] = (cw[_C_SIN, c] - cw[_C_QQ, c] / theta * (theta * tnew ** 4 + om * t0 ** 4) - hf
+                                  + lat_heat * (m_new - m_old) * idt)
+                ta_new = b0 + al * th
+                p = cw[_C_IN + IN_PRESSURE, c]
+                rho = p / (r_air * cw[_C_ATM + A_TAIR, c])
+                tatm = cw[_C_ATM + A_TATM, c]
+                ea = cw[_C_IN + IN_EPS_ATM, c]
+                e_in = (ea * cw[_C_EPS, c] * sigma * tnew * tnew * tnew * tnew + cw[_C_ATMSW, c]
+                        + rho * cp * h_air * (ta_new - cw[_C_ATM + A_TMEAN, c]) / cw[_C_TAUR, c])
                 t3 = tatm * tatm * tatm
                 tatm_new = tatm + dt * (e_in - 2.0 * ea * sigma * t3 * tatm) / (cp * p / g + dt * 8.0 * ea * sigma * t3)
-                atm[b, A_TATM, c] = max(tatm_new, tf if tf > 0.0 else 100.0)
-                atm[b, A_TAIR, c] = ta_new
-                atm[b, A_HFLUX, c] = hf
-                atm[b, A_TMEAN, c] += (ta_new - atm[b, A_TMEAN, c]) * fmean
-            sweep_down(temp, e, ff, b)
+                cw[_C_ATM + A_TATM, c] = max(tatm_new, tf if tf > 0.0 else 100.0)
+                cw[_C_ATM + A_TAIR, c] = ta_new
+                cw[_C_ATM + A_HFLUX, c] = hf
+                cw[_C_ATM + A_TMEAN, c] += (ta_new - cw[_C_ATM + A_TMEAN, c]) * fmean
+            # back substitution (regolith.sweep_down on the workspace)
+            for j in range(1, nn):
+                for c in range(cb):
+                    tw[j, _T_T, c] = tw[j, _T_E, c] + tw[j, _T_FF, c] * tw[j - 1, _T_T, c]
             # ---- water: air layer depth, then the implicit solve for air + pores ----------
             for c in range(cb):
-                p = stepin[IN_PRESSURE, s, o + c]
-                ta = atm[b, A_TAIR, c]
-                rf_ = atm[b, A_QFREE, c] * p / (r_air * ta)
-                rfree[c] = rf_
-                hb = atm[b, A_DEPTH, c]
-                ra = atm[b, A_RHO_AIR, c]
+                p = cw[_C_IN + IN_PRESSURE, c]
+                ta = cw[_C_ATM + A_TAIR, c]
+                rf_ = cw[_C_ATM + A_QFREE, c] * p / (r_air * ta)
+                cw[_C_RFREE, c] = rf_
+                hb = cw[_C_ATM + A_DEPTH, c]
+                ra = cw[_C_ATM + A_RHO_AIR, c]
+                hfc = cw[_C_HFLUX, c]
                 # a convective layer deepens once surface heating has eroded the night
                 # inversion (the air at the sensor no colder than its sol-mean), and
                 # collapses when the surface stops heating the air
-                cv_ = (hflux[c] > 0.0) & (ta >= atm[b, A_TMEAN, c])
-                conv[c] = 1.0 if cv_ else 0.0
-                target = h_day if cv_ else (hb if hflux[c] > 0.0 else h_night)
+                cv_ = (hfc > 0.0) & (ta >= cw[_C_ATM + A_TMEAN, c])
+                target = h_day if cv_ else (hb if hfc > 0.0 else h_night)
                 hn = min(target, hb + dt * h_day / t_grow)   # growth, limited in rate
                 grow = target > hb
                 hnew = hn if grow else target                  # or collapse at once
                 # collapse returns the air above to the free atmosphere; growth entrains it
                 x_ = (hnew - hb) * rf_ if grow else (hnew - hb) * ra
                 ra = (hb * ra + x_) / hnew if grow else ra
-                xch[c] = x_
-                atm[b, A_DEPTH, c] = hnew
+                cw[_C_XCH, c] = x_
+                cw[_C_ATM + A_DEPTH, c] = hnew
                 # mixing with the air above: fast while convective, slow (large-scale eddies) in
                 # a stable layer
                 wt = hnew / t_mix if cv_ else hnew / t_mix_stable
-                wtop[c] = wt
-                ts_ = temp[b, 0, c]
+                cw[_C_WTOP, c] = wt
+                ts_ = tw[0, _T_T, c]
                 itbar = 2.0 / (ta + ts_)
-                wv = wtr[c]
+                wv = cw[_C_WTR, c]
                 ga = wv * ta * itbar
-                g0v[c] = wv * ts_ * itbar
-                adiag[c] = hnew * idt + wt + ga
-                arhs[c] = hnew * idt * ra + wt * rf_
-                gcond[0, c] = ga
-                ra0[c] = ra
+                cw[_C_G0V, c] = wv * ts_ * itbar
+                cw[_C_ADIAG, c] = hnew * idt + wt + ga
+                cw[_C_ARHS, c] = hnew * idt * ra + wt * rf_
+                vw[0, _R_G, c] = ga
+                cw[_C_RA0, c] = ra
             for j in range(nvb - 1):                     # pore diffusion conductances
                 for c in range(cb):
-                    tm = 0.5 * (temp[b, j, c] + temp[b, j + 1, c])
-                    gcond[j + 1, c] = effective_diffusivity(tm, stepin[IN_PRESSURE, s, o + c],
-                                                            vapp[b, V_PHI_TAU, c],
-                                                            vapp[b, V_PORE, c]) / dzn[b, j, c]
+                    tm = 0.5 * (tw[j, _T_T, c] + tw[j + 1, _T_T, c])
+                    vw[j + 1, _R_G, c] = effective_diffusivity(tm, cw[_C_IN + IN_PRESSURE, c],
+                                                               cw[_C_VAPP + V_PHI_TAU, c],
+                                                               cw[_C_VAPP + V_PORE, c]) / vw[j, _W_DZN, c]
             for c in range(cb):                          # below the block's last node: no flux
-                gcond[nvb, c] = 0.0
+                vw[nvb, _R_G, c] = 0.0
             # saturation and Langmuir constant at each node's new temperature: table look-ups
             # (gathers, scalar code) once per step, outside the SIMD loops of the solve
             for j in range(nvb):
                 for c in range(cb):
-                    rs, kj = table_lookup(temp[b, j, c], tab)
-                    rsv[j, c] = rs
-                    kv[j, c] = kj
+                    rs, kj = table_lookup(tw[j, _T_T, c], tab)
+                    vw[j, _W_RS, c] = rs
+                    vw[j, _W_K, c] = kj
             for j in range(nvb):
                 for c in range(cb):
-                    wold[j, c] = water[b, j, c]
-                    wlin[j, c] = water[b, j, c]
+                    vw[j, _W_SAT, c] = _saturated_water(cw[_C_VAPP + V_PHI, c], cw[_C_VAPP + V_CAPA, c],
+                                                        vw[j, _W_K, c], vw[j, _W_RS, c])
+                    vw[j, _W_LIN, c] = vw[j, _W_W, c]
             for c in range(cb):
-                cdone[c] = 0.0
+                cw[_C_DONE, c] = 0.0
             # Implicit step, Newton on the storage: solve the linearised system, estimate each
             # node's water from the fluxes (conservative), and solve again from that estimate
             # where a node changed branch (pore ice appeared or was used up) -- rare, so one
@@ -412,124 +482,159 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
             for it in range(VAPOUR_MAXIT):
                 for j in range(nvb):
                     for c in range(cb):
-                        x, ic, cap, wsat = _partition(wlin[j, c], vapp[b, V_PHI, c], vapp[b, V_CAPA, c],
-                                                      kv[j, c], rsv[j, c])
-                        cvdt = cv[b, j, c] * idt
-                        mb[j + 1, c] = cap * cvdt
-                        md[j + 1, c] = cap * cvdt * x - (wlin[j, c] - wold[j, c]) * cvdt
-                        iced[j, c] = 1.0 if wlin[j, c] > wsat else 0.0
-                        wsatv[j, c] = wsat
+                        wl_ = vw[j, _W_LIN, c]
+                        ws_ = vw[j, _W_SAT, c]
+                        x, ic, cap = _partition(wl_, cw[_C_VAPP + V_PHI, c], cw[_C_VAPP + V_CAPA, c],
+                                                vw[j, _W_K, c], ws_)
+                        cvdt = vw[j, _W_CV, c] * idt
+                        vw[j + 1, _R_B, c] = cap * cvdt
+                        vw[j + 1, _R_D, c] = cap * cvdt * x - (wl_ - vw[j, _W_W, c]) * cvdt
+                        vw[j, _W_ICE, c] = 1.0 if wl_ > ws_ else 0.0
                 for c in range(cb):                      # row 0: air; row 1: surface node
-                    mb[0, c] = adiag[c]
-                    mc[0, c] = -g0v[c]
-                    md[0, c] = arhs[c]
-                    mb[1, c] += g0v[c] + gcond[1, c]
-                    ma[1, c] = -gcond[0, c]
-                    mc[1, c] = -gcond[1, c]
+                    g0_ = cw[_C_G0V, c]
+                    vw[0, _R_B, c] = cw[_C_ADIAG, c]
+                    vw[0, _R_C, c] = -g0_
+                    vw[0, _R_D, c] = cw[_C_ARHS, c]
+                    vw[1, _R_B, c] += g0_ + vw[1, _R_G, c]
+                    vw[1, _R_A, c] = -vw[0, _R_G, c]
+                    vw[1, _R_C, c] = -vw[1, _R_G, c]
                 for j in range(1, nvb):
                     for c in range(cb):
-                        mb[j + 1, c] += gcond[j, c] + gcond[j + 1, c]
-                        ma[j + 1, c] = -gcond[j, c]
-                        mc[j + 1, c] = -gcond[j + 1, c]
+                        vw[j + 1, _R_B, c] += vw[j, _R_G, c] + vw[j + 1, _R_G, c]
+                        vw[j + 1, _R_A, c] = -vw[j, _R_G, c]
+                        vw[j + 1, _R_C, c] = -vw[j + 1, _R_G, c]
                 for c in range(cb):                      # Thomas algorithm, SIMD over cells
-                    m = 1.0 / mb[0, c]
-                    mc[0, c] = mc[0, c] * m
-                    md[0, c] = md[0, c] * m
+                    m = 1.0 / vw[0, _R_B, c]
+                    vw[0, _R_C, c] = vw[0, _R_C, c] * m
+                    vw[0, _R_D, c] = vw[0, _R_D, c] * m
                 for i in range(1, nvxb):
                     for c in range(cb):
-                        m = 1.0 / (mb[i, c] - ma[i, c] * mc[i - 1, c])
-                        mc[i, c] = mc[i, c] * m
-                        md[i, c] = (md[i, c] - ma[i, c] * md[i - 1, c]) * m
+                        ai = vw[i, _R_A, c]
+                        m = 1.0 / (vw[i, _R_B, c] - ai * vw[i - 1, _R_C, c])
+                        vw[i, _R_C, c] = vw[i, _R_C, c] * m
+                        vw[i, _R_D, c] = (vw[i, _R_D, c] - ai * vw[i - 1, _R_D, c]) * m
                 for c in range(cb):
-                    xsol[nvxb - 1, c] = md[nvxb - 1, c]
+                    vw[nvxb - 1, _R_X, c] = vw[nvxb - 1, _R_D, c]
                 for i in range(nvxb - 2, -1, -1):
                     for c in range(cb):
-                        xsol[i, c] = md[i, c] - mc[i, c] * xsol[i + 1, c]
+                        vw[i, _R_X, c] = vw[i, _R_D, c] - vw[i, _R_C, c] * vw[i + 1, _R_X, c]
                 # each node's water from the fluxes of the solved field (exactly conservative)
                 for c in range(cb):
-                    fs = gcond[0, c] * xsol[0, c] - g0v[c] * xsol[1, c]
-                    fsv[c] = fs
-                    west[0, c] = wold[0, c] + dt * (fs - gcond[1, c] * (xsol[1, c] - xsol[2, c])) / cv[b, 0, c]
+                    x1 = vw[1, _R_X, c]
+                    fs = vw[0, _R_G, c] * vw[0, _R_X, c] - cw[_C_G0V, c] * x1
+                    cw[_C_FS, c] = fs
+                    vw[0, _W_EST, c] = vw[0, _W_W, c] + dt * (fs - vw[1, _R_G, c] * (x1 - vw[2, _R_X, c])) / vw[0, _W_CV, c]
                 for j in range(1, nvb):
                     for c in range(cb):
-                        fin = gcond[j, c] * (xsol[j, c] - xsol[j + 1, c])
-                        fout = gcond[j + 1, c] * (xsol[j + 1, c] - xsol[j + 2, c])
-                        west[j, c] = wold[j, c] + dt * (fin - fout) / cv[b, j, c]
+                        xj1 = vw[j + 1, _R_X, c]
+                        fin = vw[j, _R_G, c] * (vw[j, _R_X, c] - xj1)
+                        fout = vw[j + 1, _R_G, c] * (xj1 - vw[j + 2, _R_X, c])
+                        vw[j, _W_EST, c] = vw[j, _W_W, c] + dt * (fin - fout) / vw[j, _W_CV, c]
                 # per cell: keep this solve where no node changed branch (or at the last
                 # attempt); a cell's result never depends on its block-mates
                 for c in range(cb):
-                    bad[c] = 0.0
+                    cw[_C_BAD, c] = 0.0
                 for j in range(nvb):
                     for c in range(cb):
-                        now_ice = 1.0 if west[j, c] > wsatv[j, c] else 0.0
-                        bad[c] += 1.0 if (now_ice != iced[j, c]) | (west[j, c] < 0.0) else 0.0
-                        wlin[j, c] = max(west[j, c], 0.0)
+                        we = vw[j, _W_EST, c]
+                        now_ice = 1.0 if we > vw[j, _W_SAT, c] else 0.0
+                        cw[_C_BAD, c] += 1.0 if (now_ice != vw[j, _W_ICE, c]) | (we < 0.0) else 0.0
                 last = it == VAPOUR_MAXIT - 1
                 again = 0.0
                 for c in range(cb):
-                    take = (cdone[c] == 0.0) & ((bad[c] == 0.0) | last)
-                    tk = 1.0 if take else 0.0
-                    takev[c] = tk
-                    cdone[c] = 1.0 if take else cdone[c]
-                    again += 1.0 - cdone[c]
-                    fskeep[c] = fsv[c] if take else fskeep[c]
-                    xakeep[c] = xsol[0, c] if take else xakeep[c]
-                for j in range(nvb):                     # branch-free copy (SIMD)
+                    done = cw[_C_DONE, c]
+                    take = (done == 0.0) & ((cw[_C_BAD, c] == 0.0) | last)
+                    cw[_C_TAKE, c] = 1.0 if take else 0.0
+                    done = 1.0 if take else done
+                    cw[_C_DONE, c] = done
+                    again += 1.0 - done
+                    f_new, f_old = cw[_C_FS, c], cw[_C_FSKEEP, c]
+                    x_new, x_old = vw[0, _R_X, c], cw[_C_XAKEEP, c]
+                    cw[_C_FSKEEP, c] = f_new if take else f_old
+                    cw[_C_XAKEEP, c] = x_new if take else x_old
+                for j in range(nvb):                     # keep and iterate (SIMD selects)
                     for c in range(cb):
-                        wkeep[j, c] = west[j, c] if takev[c] > 0.0 else wkeep[j, c]
+                        w_new = vw[j, _W_EST, c]
+                        w_old = vw[j, _W_KEEP, c]
+                        vw[j, _W_LIN, c] = max(w_new, 0.0)
+                        vw[j, _W_KEEP, c] = w_new if cw[_C_TAKE, c] > 0.0 else w_old
                 if again == 0.0:
                     break
             # conservative updates: air and nodes from the last solve's fluxes; fog
             for c in range(cb):
-                xa = xakeep[c]
-                fsv[c] = fskeep[c]
-                ftop = wtop[c] * (rfree[c] - xa)         # free atmosphere -> air
-                hb = atm[b, A_DEPTH, c]
-                ra = ra0[c] + dt * (ftop - fsv[c]) / hb
-                rsa, _k = table_lookup(atm[b, A_TAIR, c], tab)
+                xa = cw[_C_XAKEEP, c]
+                fs = cw[_C_FSKEEP, c]
+                cw[_C_FS, c] = fs
+                ftop = cw[_C_WTOP, c] * (cw[_C_RFREE, c] - xa)     # free atmosphere -> air
+                hb = cw[_C_ATM + A_DEPTH, c]
+                ra = cw[_C_RA0, c] + dt * (ftop - fs) / hb
+                rsa, _k = table_lookup(cw[_C_ATM + A_TAIR, c], tab)
                 # air supersaturated (ice) at the sensor's temperature: the excess settles
                 fog = (ra - rsa) * hb if ra > rsa else 0.0
-                fogv[c] = fog
-                atm[b, A_RHO_AIR, c] = ra - fog / hb
-                water[b, 0, c] = wkeep[0, c] + fog / cv[b, 0, c]
-                xch[c] = xch[c] + dt * ftop
+                cw[_C_FOG, c] = fog
+                cw[_C_ATM + A_RHO_AIR, c] = ra - fog / hb
+                vw[0, _W_W, c] = vw[0, _W_KEEP, c] + fog / vw[0, _W_CV, c]
+                cw[_C_XCH, c] = cw[_C_XCH, c] + dt * ftop
             for j in range(1, nvb):
                 for c in range(cb):
-                    water[b, j, c] = wkeep[j, c]
-            # outputs: air, surface node, salt depth
+                    vw[j, _W_W, c] = vw[j, _W_KEEP, c]
+            # ---- outputs: air, surface node, salt depth ---------------------------------
+            for c in range(cb):          # the salt's nodes (gathers)
+                i = pidx[c]
+                cw[_C_PTI, c] = tw[i, _T_T, c]
+                cw[_C_PTJ, c] = tw[i + 1, _T_T, c]
+                cw[_C_PWI, c] = vw[i, _W_W, c]
+                cw[_C_PWJ, c] = vw[i + 1, _W_W, c]
+                cw[_C_PSI, c] = vw[i, _W_SAT, c]
+                cw[_C_PKI, c] = vw[i, _W_K, c]
+                cw[_C_PSJ, c] = vw[i + 1, _W_SAT, c]
+                cw[_C_PKJ, c] = vw[i + 1, _W_K, c]
             for c in range(cb):
-                ts_ = temp[b, 0, c]
-                x0, i0, c0, ws0 = _partition(water[b, 0, c], vapp[b, V_PHI, c], vapp[b, V_CAPA, c],
-                                             kv[0, c], rsv[0, c])
-                i = probe_idx[b, c]
-                w = probe_w[b, c]
-                ti = temp[b, i, c]
-                tj = temp[b, i + 1, c]
-                tp = (1.0 - w) * ti + w * tj
-                rsi, ki = rsv[i, c], kv[i, c]            # this step's look-ups at the salt's nodes
-                rsj, kj = rsv[i + 1, c], kv[i + 1, c]
-                xi, ii, ci, wi = _partition(water[b, i, c], vapp[b, V_PHI, c], vapp[b, V_CAPA, c], ki, rsi)
-                xj, ij, cj, wj = _partition(water[b, i + 1, c], vapp[b, V_PHI, c], vapp[b, V_CAPA, c], kj, rsj)
-                tprobe[c] = tp
-                s_in[c] = ((1.0 - w) * xi + w * xj) * R_VAPOUR * tp
-                sw[c] = i0 * cv[b, 0, c]
-                rhs[c] = x0 * R_VAPOUR * ts_
-            for c in range(cmax):
-                ta = atm[b, A_TAIR, c]
-                out[O_TS, s, o + c] = temp[b, 0, c]
-                out[O_TPROBE, s, o + c] = tprobe[c]
-                out[O_CO2, s, o + c] = co2[b, c]
-                out[O_FROST, s, o + c] = sw[c]
-                out[O_ESURF, s, o + c] = rhs[c]
-                out[O_ESALT, s, o + c] = s_in[c]
-                out[O_H, s, o + c] = hflux[c]
-                out[O_LDOWN, s, o + c] = ldw[c]
-                out[O_TAIR, s, o + c] = ta
-                out[O_EAIR, s, o + c] = atm[b, A_RHO_AIR, c] * R_VAPOUR * ta
-                out[O_FATM, s, o + c] = xch[c]
-                out[O_FSURF, s, o + c] = dt * fsv[c] + fogv[c]
-                out[O_G, s, o + c] = gnet[c]
-                out[O_EFREE, s, o + c] = atm[b, A_QFREE, c] * stepin[IN_PRESSURE, s, o + c] / eps_w
+                phi = cw[_C_VAPP + V_PHI, c]
+                capa = cw[_C_VAPP + V_CAPA, c]
+                ts_ = tw[0, _T_T, c]
+                x0, i0, c0 = _partition(vw[0, _W_W, c], phi, capa, vw[0, _W_K, c], vw[0, _W_SAT, c])
+                es = _vapour_pressure(x0, ts_)
+                w = cw[_C_PW, c]
+                xi, ii, ci = _partition(cw[_C_PWI, c], phi, capa, cw[_C_PKI, c], cw[_C_PSI, c])
+                xj, ij, cj = _partition(cw[_C_PWJ, c], phi, capa, cw[_C_PKJ, c], cw[_C_PSJ, c])
+                tp = (1.0 - w) * cw[_C_PTI, c] + w * cw[_C_PTJ, c]
+                ep = _vapour_pressure((1.0 - w) * xi + w * xj, tp)
+                # a surface salt (node 0, weight 0) sees the surface node's numbers bit for bit
+                # (the general form equals them up to the order of rounding)
+                surf = cw[_C_SURF, c] > 0.0
+                tp = ts_ if surf else tp
+                ep = es if surf else ep
+                ta = cw[_C_ATM + A_TAIR, c]
+                cw[_C_OUT + O_TS, c] = ts_
+                cw[_C_OUT + O_TPROBE, c] = tp
+                cw[_C_OUT + O_CO2, c] = cw[_C_CO2, c]
+                cw[_C_OUT + O_FROST, c] = i0 * vw[0, _W_CV, c]
+                cw[_C_OUT + O_ESURF, c] = es
+                cw[_C_OUT + O_ESALT, c] = ep
+                cw[_C_OUT + O_H, c] = cw[_C_HFLUX, c]
+                cw[_C_OUT + O_LDOWN, c] = cw[_C_LDW, c]
+                cw[_C_OUT + O_TAIR, c] = ta
+                cw[_C_OUT + O_EAIR, c] = cw[_C_ATM + A_RHO_AIR, c] * R_VAPOUR * ta
+                cw[_C_OUT + O_FATM, c] = cw[_C_XCH, c]
+                cw[_C_OUT + O_FSURF, c] = dt * cw[_C_FS, c] + cw[_C_FOG, c]
+                cw[_C_OUT + O_G, c] = cw[_C_GNET, c]
+                cw[_C_OUT + O_EFREE, c] = cw[_C_ATM + A_QFREE, c] * cw[_C_IN + IN_PRESSURE, c] / eps_w
+            for k in range(n_out):
+                for c in range(cmax):
+                    out[k, s, o + c] = cw[_C_OUT + k, c]
+        # ---- the block out: state ------------------------------------------------------
+        for j in range(nn):
+            for c in range(cb):
+                temp[b, j, c] = tw[j, _T_T, c]
+        for j in range(nv):
+            for c in range(cb):
+                water[b, j, c] = vw[j, _W_W, c]
+        for k in range(N_ATM):
+            for c in range(cb):
+                atm[b, k, c] = cw[_C_ATM + k, c]
+        for c in range(cb):
+            co2[b, c] = cw[_C_CO2, c]
 
 
 # --------------------------------------------------------------------------------------
