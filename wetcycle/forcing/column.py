@@ -110,10 +110,11 @@ _T_T, _T_FA, _T_FD, _T_FF, _T_FG, _T_E = range(6)
 _N_TW = 6
 #: vapour node rows (node j): total water at the step's start (the state), the iterate, the
 #: estimate from the fluxes, the kept estimate, rho_sat, Langmuir k, W at saturation, ice
-#: flag, control volume, distance to the next node; solver rows (row i = node i - 1, row 0
-#: the air): the tridiagonal system a, b, c, d, the solution, the conductances
-(_W_W, _W_LIN, _W_EST, _W_KEEP, _W_RS, _W_K, _W_SAT, _W_ICE, _W_CV, _W_DZN,
- _R_A, _R_B, _R_C, _R_D, _R_X, _R_G) = range(16)
+#: flag, control volume, cv / dt, dt / cv, 1 / (distance to the next node); solver rows
+#: (row i = node i - 1, row 0 the air): the eliminated upper diagonal and right-hand side,
+#: the solution, the conductance between rows i - 1 and i
+(_W_W, _W_LIN, _W_EST, _W_KEEP, _W_RS, _W_K, _W_SAT, _W_ICE, _W_CV, _W_CVDT, _W_DTCV, _W_IDZN,
+ _R_CP, _R_DP, _R_X, _R_G) = range(16)
 _N_VW = 16
 
 
@@ -170,9 +171,10 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                                      distance to the next node (inf: no flux below)
     par : [N_PAR]                    scalars, see the P_* indices
     sin_dec, cos_dec, toa_flux, sin_h0, cos_h0 : [step]
-    stepin : [N_IN, step, b * c]     optical depth, CO2 frost point [K] (< 0: no CO2
+    stepin : [b, step, N_IN, c]      optical depth, CO2 frost point [K] (< 0: no CO2
                                      frost), infrared emissivity of the atmosphere,
                                      atmospheric water column [kg m-2], pressure [Pa]
+                                     (a block's steps in one contiguous run)
     tab : [2, n]                     rho_sat and Langmuir k tables (regolith_vapour.water_tables)
     probe_idx, probe_w : [b, c]      node and weight of the salt depth
     step0 : int                      index in the run's clock of the block's first step: the
@@ -183,12 +185,14 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
     out : [len(OUTPUTS), step, cell] filled with the outputs (values at step ends; the
                                      two water fluxes are amounts over the step [kg m-2])
 
-    Blocks must hold :data:`~wetcycle.forcing.regolith.CELL_BLOCK` cells.
+    Blocks hold at most :data:`~wetcycle.forcing.regolith.CELL_BLOCK` cells.
     """
-    nb, nn, cb_ = temp.shape
-    cb = CELL_BLOCK                  # a compile-time constant: fixed strides, SIMD loops
-    if cb_ != cb:
-        raise ValueError("column_kernel: blocks must hold CELL_BLOCK cells")
+    nb, nn, cb = temp.shape
+    if cb > CELL_BLOCK:
+        raise ValueError("column_kernel: blocks hold at most CELL_BLOCK cells")
+    # (the workspace's rows are CELL_BLOCK long, a compile-time constant, so that the
+    # compiler knows every distance between them; the loops run to the block's own length,
+    # which keeps them SIMD loops rather than unrolled scalar code)
     nv = water.shape[1]
     ns = sin_dec.size
     nc = out.shape[2]
@@ -223,10 +227,10 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
     qs_ = np.empty(PROFILE_LEVELS)
     pz_ = np.empty(PROFILE_LEVELS)
     wk_ = np.empty(PROFILE_LEVELS)
-    cw = np.zeros((_N_CW, cb))
-    tw = np.zeros((nn, _N_TW, cb))
-    vw = np.zeros((nv + 2, _N_VW, cb))
-    pidx = np.zeros(cb, dtype=np.int64)
+    cw = np.zeros((_N_CW, CELL_BLOCK))
+    tw = np.zeros((nn, _N_TW, CELL_BLOCK))
+    vw = np.zeros((nv + 2, _N_VW, CELL_BLOCK))
+    pidx = np.zeros(CELL_BLOCK, dtype=np.int64)
     for b in range(nb):
         o = b * cb
         cmax = min(cb, nc - o)
@@ -255,8 +259,11 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
         for j in range(nv):
             for c in range(cb):
                 vw[j, _W_W, c] = water[b, j, c]
-                vw[j, _W_CV, c] = cv[b, j, c]
-                vw[j, _W_DZN, c] = dzn[b, j, c]
+                cvj = cv[b, j, c]
+                vw[j, _W_CV, c] = cvj
+                vw[j, _W_CVDT, c] = cvj * idt
+                vw[j, _W_DTCV, c] = dt / cvj
+                vw[j, _W_IDZN, c] = 1.0 / dzn[b, j, c]
         # the block's vapour nodes: below every one of its cells' own last node nothing moves
         # (no flux, see prepare_column), so the solve stops there -- exact, cell by cell
         nvb = 1
@@ -269,7 +276,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
             sd, cd, fl, sh0, ch0 = sin_dec[s], cos_dec[s], toa_flux[s], sin_h0[s], cos_h0[s]
             for k in range(N_IN):
                 for c in range(cb):
-                    cw[_C_IN + k, c] = stepin[k, s, o + c]
+                    cw[_C_IN + k, c] = stepin[b, s, k, c]
             if (step0 + s) % spd == 0:       # a new sol: renew the free-atmosphere mixing ratio
                 for c in range(cb):
                     if q_const >= 0.0:
@@ -449,16 +456,18 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 wv = cw[_C_WTR, c]
                 ga = wv * ta * itbar
                 cw[_C_G0V, c] = wv * ts_ * itbar
-                cw[_C_ADIAG, c] = hnew * idt + wt + ga
-                cw[_C_ARHS, c] = hnew * idt * ra + wt * rf_
                 vw[0, _R_G, c] = ga
                 cw[_C_RA0, c] = ra
+                # row 0 of the water system (the air) is the same in every solve: eliminated once
+                m = 1.0 / (hnew * idt + wt + ga)
+                vw[0, _R_CP, c] = -(wv * ts_ * itbar) * m
+                vw[0, _R_DP, c] = (hnew * idt * ra + wt * rf_) * m
             for j in range(nvb - 1):                     # pore diffusion conductances
                 for c in range(cb):
                     tm = 0.5 * (tw[j, _T_T, c] + tw[j + 1, _T_T, c])
                     vw[j + 1, _R_G, c] = effective_diffusivity(tm, cw[_C_IN + IN_PRESSURE, c],
                                                                cw[_C_VAPP + V_PHI_TAU, c],
-                                                               cw[_C_VAPP + V_PORE, c]) / vw[j, _W_DZN, c]
+                                                               cw[_C_VAPP + V_PORE, c]) * vw[j, _W_IDZN, c]
             for c in range(cb):                          # below the block's last node: no flux
                 vw[nvb, _R_G, c] = 0.0
             # saturation and Langmuir constant at each node's new temperature: table look-ups
@@ -480,65 +489,67 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
             # where a node changed branch (pore ice appeared or was used up) -- rare, so one
             # solve is the rule.
             for it in range(VAPOUR_MAXIT):
-                for j in range(nvb):
+                # forward: each node's storage at its iterate, its row (solver row j + 1) and
+                # the elimination of that row (Thomas algorithm, SIMD over cells); the row's
+                # lower diagonal is -G[j], its upper -G[j + 1] (row 1: diagonal with g0v)
+                for c in range(cb):
+                    wl_ = vw[0, _W_LIN, c]
+                    ws_ = vw[0, _W_SAT, c]
+                    x, ic, cap = _partition(wl_, cw[_C_VAPP + V_PHI, c], cw[_C_VAPP + V_CAPA, c],
+                                            vw[0, _W_K, c], ws_)
+                    cvdt = vw[0, _W_CVDT, c]
+                    g0 = vw[0, _R_G, c]
+                    g1 = vw[1, _R_G, c]
+                    bb = cap * cvdt + (cw[_C_G0V, c] + g1)
+                    dd = cap * cvdt * x - (wl_ - vw[0, _W_W, c]) * cvdt
+                    vw[0, _W_ICE, c] = 1.0 if wl_ > ws_ else 0.0
+                    m = 1.0 / (bb + g0 * vw[0, _R_CP, c])
+                    vw[1, _R_CP, c] = -g1 * m
+                    vw[1, _R_DP, c] = (dd + g0 * vw[0, _R_DP, c]) * m
+                for j in range(1, nvb):
                     for c in range(cb):
                         wl_ = vw[j, _W_LIN, c]
                         ws_ = vw[j, _W_SAT, c]
                         x, ic, cap = _partition(wl_, cw[_C_VAPP + V_PHI, c], cw[_C_VAPP + V_CAPA, c],
                                                 vw[j, _W_K, c], ws_)
-                        cvdt = vw[j, _W_CV, c] * idt
-                        vw[j + 1, _R_B, c] = cap * cvdt
-                        vw[j + 1, _R_D, c] = cap * cvdt * x - (wl_ - vw[j, _W_W, c]) * cvdt
+                        cvdt = vw[j, _W_CVDT, c]
+                        gj = vw[j, _R_G, c]
+                        gj1 = vw[j + 1, _R_G, c]
+                        bb = cap * cvdt + (gj + gj1)
+                        dd = cap * cvdt * x - (wl_ - vw[j, _W_W, c]) * cvdt
                         vw[j, _W_ICE, c] = 1.0 if wl_ > ws_ else 0.0
-                for c in range(cb):                      # row 0: air; row 1: surface node
-                    g0_ = cw[_C_G0V, c]
-                    vw[0, _R_B, c] = cw[_C_ADIAG, c]
-                    vw[0, _R_C, c] = -g0_
-                    vw[0, _R_D, c] = cw[_C_ARHS, c]
-                    vw[1, _R_B, c] += g0_ + vw[1, _R_G, c]
-                    vw[1, _R_A, c] = -vw[0, _R_G, c]
-                    vw[1, _R_C, c] = -vw[1, _R_G, c]
-                for j in range(1, nvb):
-                    for c in range(cb):
-                        vw[j + 1, _R_B, c] += vw[j, _R_G, c] + vw[j + 1, _R_G, c]
-                        vw[j + 1, _R_A, c] = -vw[j, _R_G, c]
-                        vw[j + 1, _R_C, c] = -vw[j + 1, _R_G, c]
-                for c in range(cb):                      # Thomas algorithm, SIMD over cells
-                    m = 1.0 / vw[0, _R_B, c]
-                    vw[0, _R_C, c] = vw[0, _R_C, c] * m
-                    vw[0, _R_D, c] = vw[0, _R_D, c] * m
-                for i in range(1, nvxb):
-                    for c in range(cb):
-                        ai = vw[i, _R_A, c]
-                        m = 1.0 / (vw[i, _R_B, c] - ai * vw[i - 1, _R_C, c])
-                        vw[i, _R_C, c] = vw[i, _R_C, c] * m
-                        vw[i, _R_D, c] = (vw[i, _R_D, c] - ai * vw[i - 1, _R_D, c]) * m
+                        m = 1.0 / (bb + gj * vw[j, _R_CP, c])
+                        vw[j + 1, _R_CP, c] = -gj1 * m
+                        vw[j + 1, _R_DP, c] = (dd + gj * vw[j, _R_DP, c]) * m
+                # back substitution; node i's water from the fluxes of the solved field as soon
+                # as rows i..i+2 are known (exactly conservative: each flux leaves one node and
+                # enters the next); flag nodes that changed branch
                 for c in range(cb):
-                    vw[nvxb - 1, _R_X, c] = vw[nvxb - 1, _R_D, c]
-                for i in range(nvxb - 2, -1, -1):
+                    vw[nvb, _R_X, c] = vw[nvb, _R_DP, c]
+                    cw[_C_BAD, c] = 0.0
+                for i in range(nvb - 1, 0, -1):
                     for c in range(cb):
-                        vw[i, _R_X, c] = vw[i, _R_D, c] - vw[i, _R_C, c] * vw[i + 1, _R_X, c]
-                # each node's water from the fluxes of the solved field (exactly conservative)
-                for c in range(cb):
+                        xi1 = vw[i + 1, _R_X, c]
+                        xi = vw[i, _R_DP, c] - vw[i, _R_CP, c] * xi1
+                        vw[i, _R_X, c] = xi
+                        fin = vw[i, _R_G, c] * (xi - xi1)
+                        fout = vw[i + 1, _R_G, c] * (xi1 - vw[i + 2, _R_X, c])
+                        we = vw[i, _W_W, c] + (fin - fout) * vw[i, _W_DTCV, c]
+                        vw[i, _W_EST, c] = we
+                        now_ice = 1.0 if we > vw[i, _W_SAT, c] else 0.0
+                        cw[_C_BAD, c] += 1.0 if (now_ice != vw[i, _W_ICE, c]) | (we < 0.0) else 0.0
+                for c in range(cb):                      # the air and node 0
                     x1 = vw[1, _R_X, c]
-                    fs = vw[0, _R_G, c] * vw[0, _R_X, c] - cw[_C_G0V, c] * x1
+                    xa = vw[0, _R_DP, c] - vw[0, _R_CP, c] * x1
+                    vw[0, _R_X, c] = xa
+                    fs = vw[0, _R_G, c] * xa - cw[_C_G0V, c] * x1
                     cw[_C_FS, c] = fs
-                    vw[0, _W_EST, c] = vw[0, _W_W, c] + dt * (fs - vw[1, _R_G, c] * (x1 - vw[2, _R_X, c])) / vw[0, _W_CV, c]
-                for j in range(1, nvb):
-                    for c in range(cb):
-                        xj1 = vw[j + 1, _R_X, c]
-                        fin = vw[j, _R_G, c] * (vw[j, _R_X, c] - xj1)
-                        fout = vw[j + 1, _R_G, c] * (xj1 - vw[j + 2, _R_X, c])
-                        vw[j, _W_EST, c] = vw[j, _W_W, c] + dt * (fin - fout) / vw[j, _W_CV, c]
+                    we = vw[0, _W_W, c] + (fs - vw[1, _R_G, c] * (x1 - vw[2, _R_X, c])) * vw[0, _W_DTCV, c]
+                    vw[0, _W_EST, c] = we
+                    now_ice = 1.0 if we > vw[0, _W_SAT, c] else 0.0
+                    cw[_C_BAD, c] += 1.0 if (now_ice != vw[0, _W_ICE, c]) | (we < 0.0) else 0.0
                 # per cell: keep this solve where no node changed branch (or at the last
                 # attempt); a cell's result never depends on its block-mates
-                for c in range(cb):
-                    cw[_C_BAD, c] = 0.0
-                for j in range(nvb):
-                    for c in range(cb):
-                        we = vw[j, _W_EST, c]
-                        now_ice = 1.0 if we > vw[j, _W_SAT, c] else 0.0
-                        cw[_C_BAD, c] += 1.0 if (now_ice != vw[j, _W_ICE, c]) | (we < 0.0) else 0.0
                 last = it == VAPOUR_MAXIT - 1
                 again = 0.0
                 for c in range(cb):
@@ -552,6 +563,11 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                     x_new, x_old = vw[0, _R_X, c], cw[_C_XAKEEP, c]
                     cw[_C_FSKEEP, c] = f_new if take else f_old
                     cw[_C_XAKEEP, c] = x_new if take else x_old
+                if (it == 0) & (again == 0.0):           # the rule: every cell took the first
+                    for j in range(nvb):
+                        for c in range(cb):
+                            vw[j, _W_W, c] = vw[j, _W_EST, c]
+                    break
                 for j in range(nvb):                     # keep and iterate (SIMD selects)
                     for c in range(cb):
                         w_new = vw[j, _W_EST, c]
@@ -559,8 +575,11 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                         vw[j, _W_LIN, c] = max(w_new, 0.0)
                         vw[j, _W_KEEP, c] = w_new if cw[_C_TAKE, c] > 0.0 else w_old
                 if again == 0.0:
+                    for j in range(nvb):
+                        for c in range(cb):
+                            vw[j, _W_W, c] = vw[j, _W_KEEP, c]
                     break
-            # conservative updates: air and nodes from the last solve's fluxes; fog
+            # conservative updates: the air from the kept solve's fluxes; fog
             for c in range(cb):
                 xa = cw[_C_XAKEEP, c]
                 fs = cw[_C_FSKEEP, c]
@@ -573,11 +592,8 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 fog = (ra - rsa) * hb if ra > rsa else 0.0
                 cw[_C_FOG, c] = fog
                 cw[_C_ATM + A_RHO_AIR, c] = ra - fog / hb
-                vw[0, _W_W, c] = vw[0, _W_KEEP, c] + fog / vw[0, _W_CV, c]
+                vw[0, _W_W, c] = vw[0, _W_W, c] + fog / vw[0, _W_CV, c]
                 cw[_C_XCH, c] = cw[_C_XCH, c] + dt * ftop
-            for j in range(1, nvb):
-                for c in range(cb):
-                    vw[j, _W_W, c] = vw[j, _W_KEEP, c]
             # ---- outputs: air, surface node, salt depth ---------------------------------
             for c in range(cb):          # the salt's nodes (gathers)
                 i = pidx[c]
@@ -946,11 +962,13 @@ def column_block(model, state, declination_rad, distance_au, hour_angle0_rad, ta
     flux = np.ascontiguousarray(top_of_atmosphere_flux(distance_au) * np.ones(ns))
     h0 = np.asarray(hour_angle0_rad, dtype=float) * np.ones(ns)
     ncp = -(-nc // CELL_BLOCK) * CELL_BLOCK
-    stepin = np.empty((N_IN, ns, ncp))
+    stepin = np.empty((ncp // CELL_BLOCK, ns, N_IN, CELL_BLOCK))
     for row, x in ((IN_TAU, tau), (IN_FROST_POINT, frost_point), (IN_EPS_ATM, emissivity_atm),
                    (IN_COLUMN, water_column), (IN_PRESSURE, pressure)):
-        stepin[row, :, :nc] = np.broadcast_to(np.asarray(x, dtype=float), (ns, nc))
-        stepin[row, :, nc:] = stepin[row, :, nc - 1:nc]
+        xp = np.empty((ns, ncp))
+        xp[:, :nc] = np.broadcast_to(np.asarray(x, dtype=float), (ns, nc))
+        xp[:, nc:] = xp[:, nc - 1:nc]
+        stepin[:, :, row, :] = xp.reshape(ns, -1, CELL_BLOCK).transpose(1, 0, 2)
     k = _blocked(model)
     temp = to_blocks(state.temperature)
     co2 = to_blocks(state.co2_frost)

@@ -149,12 +149,23 @@ def partition(w, t, phi, cap_a, k, rsat):
     return x, w - phi * x, 0.0, phi + cap_a * k / (den * den)
 
 
+#: ``D_m = _DM_COEF T**1.5 / p`` and ``D_K = _DK_COEF r_p sqrt(T)`` (SI units; the two
+#: diffusivities of the module notes with their constants gathered).
+_DM_COEF = D_H2O_CO2_REF * 1.0e5 / 273.15 ** 1.5
+_DK_COEF = (2.0 / 3.0) * math.sqrt(8.0 * R_GAS / (math.pi * MOLAR_MASS_WATER))
+
+
 @njit(cache=True, fastmath=True, inline="always")
 def effective_diffusivity(t, p, phi_over_tau, pore_radius):
-    """``D_eff`` [m2 s-1]: (phi/tau) times molecular and Knudsen diffusion in series."""
-    dm = D_H2O_CO2_REF * (t / 273.15) * math.sqrt(t / 273.15) * (1.0e5 / p)
-    dk = (2.0 / 3.0) * pore_radius * math.sqrt(8.0 * R_GAS * t / (math.pi * MOLAR_MASS_WATER))
-    return phi_over_tau * dm * dk / (dm + dk)
+    """``D_eff`` [m2 s-1]: (phi/tau) times molecular and Knudsen diffusion in series.
+
+    ``D_m D_K / (D_m + D_K)`` with ``D_m = a T sqrt(T) / p`` and ``D_K = b r_p sqrt(T)`` is
+    evaluated as ``sqrt(T) (a T)(b r_p) / (a T + b r_p p)``: the same expression with one
+    square root and one division (it runs per node and step in the column kernel)."""
+    st = math.sqrt(t)
+    at = _DM_COEF * t
+    br = _DK_COEF * pore_radius
+    return phi_over_tau * st * at * br / (at + br * p)
 
 
 def water_content(rho_v, t, phi, cap_a, k_ref, q_over_r, t_ref):
