@@ -51,8 +51,8 @@ from .energy import (CO2_PRESSURE_RANGE, LATENT_HEAT_CO2, NEWTON_MAXIT, NEWTON_T
                      STEFAN_BOLTZMANN, _cellarray, exp_neg)
 from .insolation import top_of_atmosphere_flux
 from .regolith import CELL_BLOCK, factorize, from_blocks, probe_weights, to_blocks
-from .regolith_vapour import (ICE_CAPACITY, R_GAS, R_VAPOUR, RHO_SAT_TABLE, TABLE_T,
-                              effective_diffusivity, table_lookup, water_tables)
+from .regolith_vapour import (ICE_CAPACITY, R_GAS, R_VAPOUR, RHO_SAT_DT, RHO_SAT_T0, RHO_SAT_TABLE,
+                              TABLE_T, effective_diffusivity, water_tables)
 from .supply import PROFILE_LEVELS, free_mixing_ratio_kernel
 from .surface_layer import LOUIS_B, LOUIS_C, LOUIS_D, neutral_coefficient
 
@@ -110,12 +110,46 @@ _T_T, _T_FA, _T_FD, _T_FF, _T_FG, _T_E = range(6)
 _N_TW = 6
 #: vapour node rows (node j): total water at the step's start (the state), the iterate, the
 #: estimate from the fluxes, the kept estimate, rho_sat, Langmuir k, W at saturation, ice
-#: flag, control volume, cv / dt, dt / cv, 1 / (distance to the next node); solver rows
-#: (row i = node i - 1, row 0 the air): the eliminated upper diagonal and right-hand side,
-#: the solution, the conductance between rows i - 1 and i
+#: flag, control volume, cv / dt, dt / cv, 1 / (distance to the next node); the table
+#: look-up (index, fraction, the two bracketing entries of each table); solver rows (row
+#: i = node i - 1, row 0 the air): the eliminated upper diagonal and right-hand side, the
+#: solution, the conductance between rows i - 1 and i
 (_W_W, _W_LIN, _W_EST, _W_KEEP, _W_RS, _W_K, _W_SAT, _W_ICE, _W_CV, _W_CVDT, _W_DTCV, _W_IDZN,
- _R_CP, _R_DP, _R_X, _R_G) = range(16)
-_N_VW = 16
+ _W_TI, _W_TF, _W_RS0, _W_RS1, _W_K0, _W_K1, _W_BAD,
+ _R_CP, _R_DP, _R_X, _R_G) = range(23)
+_N_VW = 23
+
+
+def _paired_tables(tab):
+    """The tables of :func:`~wetcycle.forcing.regolith_vapour.water_tables` ``[2, n]`` as rows
+    ``(rho_sat[i], rho_sat[i + 1], k[i], k[i + 1])`` ``[n - 1, 4]``: a kernel look-up reads 32
+    contiguous bytes (one cache line) instead of four scattered values."""
+    out = np.empty((tab.shape[1] - 1, 4))
+    out[:, 0] = tab[0, :-1]
+    out[:, 1] = tab[0, 1:]
+    out[:, 2] = tab[1, :-1]
+    out[:, 3] = tab[1, 1:]
+    return out
+
+
+@njit(cache=True, fastmath=True, inline="always")
+def _table_position(t, top):
+    """Index (as a float) and fraction of temperature ``t`` in the tables, as
+    :func:`~wetcycle.forcing.regolith_vapour.table_lookup` computes them."""
+    x = (t - RHO_SAT_T0) * (1.0 / RHO_SAT_DT)
+    x = min(max(x, 0.0), top)
+    xi = float(int(x))
+    return xi, x - xi
+
+
+@njit(cache=True, fastmath=True, inline="always")
+def _paired_lookup(t, tabp):
+    """(rho_sat, k) at ``t`` from :func:`_paired_tables`: the numbers of
+    :func:`~wetcycle.forcing.regolith_vapour.table_lookup`."""
+    xi, f = _table_position(t, tabp.shape[0] - 1.0)
+    i = int(xi)
+    a0, a1, k0, k1 = tabp[i, 0], tabp[i, 1], tabp[i, 2], tabp[i, 3]
+    return a0 + f * (a1 - a0), k0 + f * (k1 - k0)
 
 
 @njit(cache=True, fastmath=True, inline="always")
@@ -149,7 +183,7 @@ def _partition(w, phi, cap_a, k, wsat):
 
 @njit(cache=True, fastmath=True, boundscheck=False, error_model="numpy", nogil=True)
 def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, par,
-                  sin_dec, cos_dec, toa_flux, sin_h0, cos_h0, stepin, tab,
+                  sin_dec, cos_dec, toa_flux, sin_h0, cos_h0, stepin, tabp,
                   probe_idx, probe_w, step0, out):
     """Advance the coupled column over a block of steps (see the module notes).
 
@@ -175,7 +209,8 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                                      frost), infrared emissivity of the atmosphere,
                                      atmospheric water column [kg m-2], pressure [Pa]
                                      (a block's steps in one contiguous run)
-    tab : [2, n]                     rho_sat and Langmuir k tables (regolith_vapour.water_tables)
+    tabp : [n - 1, 4]                rho_sat and Langmuir k tables (regolith_vapour.water_tables)
+                                     as bracketing pairs (_paired_tables)
     probe_idx, probe_w : [b, c]      node and weight of the salt depth
     step0 : int                      index in the run's clock of the block's first step: the
                                      free-atmosphere mixing ratio is renewed at each sol's start
@@ -224,6 +259,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
     eps_w = par[P_EPSW]
     spd = int(par[P_SPD])
     n_out = len(OUTPUTS)
+    tab_top = tabp.shape[0] - 1.0
     qs_ = np.empty(PROFILE_LEVELS)
     pz_ = np.empty(PROFILE_LEVELS)
     wk_ = np.empty(PROFILE_LEVELS)
@@ -264,6 +300,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 vw[j, _W_CVDT, c] = cvj * idt
                 vw[j, _W_DTCV, c] = dt / cvj
                 vw[j, _W_IDZN, c] = 1.0 / dzn[b, j, c]
+                vw[j, _W_TI, c] = -1.0                   # no table interval yet
         # the block's vapour nodes: below every one of its cells' own last node nothing moves
         # (no flux, see prepare_column), so the solve stops there -- exact, cell by cell
         nvb = 1
@@ -471,12 +508,29 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
             for c in range(cb):                          # below the block's last node: no flux
                 vw[nvb, _R_G, c] = 0.0
             # saturation and Langmuir constant at each node's new temperature: table look-ups
-            # (gathers, scalar code) once per step, outside the SIMD loops of the solve
+            # once per step, outside the SIMD loops of the solve.  The gathers (scalar code) are
+            # needed only for the rows of nodes where some cell moved to another table interval
+            # (deep nodes often stay); position and interpolation are SIMD loops.
             for j in range(nvb):
+                moved = 0.0
                 for c in range(cb):
-                    rs, kj = table_lookup(tw[j, _T_T, c], tab)
-                    vw[j, _W_RS, c] = rs
-                    vw[j, _W_K, c] = kj
+                    xi, f = _table_position(tw[j, _T_T, c], tab_top)
+                    moved += 1.0 if xi != vw[j, _W_TI, c] else 0.0
+                    vw[j, _W_TI, c] = xi
+                    vw[j, _W_TF, c] = f
+                if moved > 0.0:
+                    for c in range(cb):
+                        i = int(vw[j, _W_TI, c])
+                        vw[j, _W_RS0, c] = tabp[i, 0]
+                        vw[j, _W_RS1, c] = tabp[i, 1]
+                        vw[j, _W_K0, c] = tabp[i, 2]
+                        vw[j, _W_K1, c] = tabp[i, 3]
+                for c in range(cb):
+                    f = vw[j, _W_TF, c]
+                    a0 = vw[j, _W_RS0, c]
+                    k0 = vw[j, _W_K0, c]
+                    vw[j, _W_RS, c] = a0 + f * (vw[j, _W_RS1, c] - a0)
+                    vw[j, _W_K, c] = k0 + f * (vw[j, _W_K1, c] - k0)
             for j in range(nvb):
                 for c in range(cb):
                     vw[j, _W_SAT, c] = _saturated_water(cw[_C_VAPP + V_PHI, c], cw[_C_VAPP + V_CAPA, c],
@@ -526,7 +580,6 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 # enters the next); flag nodes that changed branch
                 for c in range(cb):
                     vw[nvb, _R_X, c] = vw[nvb, _R_DP, c]
-                    cw[_C_BAD, c] = 0.0
                 for i in range(nvb - 1, 0, -1):
                     for c in range(cb):
                         xi1 = vw[i + 1, _R_X, c]
@@ -537,7 +590,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                         we = vw[i, _W_W, c] + (fin - fout) * vw[i, _W_DTCV, c]
                         vw[i, _W_EST, c] = we
                         now_ice = 1.0 if we > vw[i, _W_SAT, c] else 0.0
-                        cw[_C_BAD, c] += 1.0 if (now_ice != vw[i, _W_ICE, c]) | (we < 0.0) else 0.0
+                        vw[i, _W_BAD, c] = 1.0 if (now_ice != vw[i, _W_ICE, c]) | (we < 0.0) else 0.0
                 for c in range(cb):                      # the air and node 0
                     x1 = vw[1, _R_X, c]
                     xa = vw[0, _R_DP, c] - vw[0, _R_CP, c] * x1
@@ -547,7 +600,12 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                     we = vw[0, _W_W, c] + (fs - vw[1, _R_G, c] * (x1 - vw[2, _R_X, c])) * vw[0, _W_DTCV, c]
                     vw[0, _W_EST, c] = we
                     now_ice = 1.0 if we > vw[0, _W_SAT, c] else 0.0
-                    cw[_C_BAD, c] += 1.0 if (now_ice != vw[0, _W_ICE, c]) | (we < 0.0) else 0.0
+                    vw[0, _W_BAD, c] = 1.0 if (now_ice != vw[0, _W_ICE, c]) | (we < 0.0) else 0.0
+                for c in range(cb):
+                    cw[_C_BAD, c] = 0.0
+                for j in range(nvb):
+                    for c in range(cb):
+                        cw[_C_BAD, c] += vw[j, _W_BAD, c]
                 # per cell: keep this solve where no node changed branch (or at the last
                 # attempt); a cell's result never depends on its block-mates
                 last = it == VAPOUR_MAXIT - 1
@@ -587,7 +645,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 ftop = cw[_C_WTOP, c] * (cw[_C_RFREE, c] - xa)     # free atmosphere -> air
                 hb = cw[_C_ATM + A_DEPTH, c]
                 ra = cw[_C_RA0, c] + dt * (ftop - fs) / hb
-                rsa, _k = table_lookup(cw[_C_ATM + A_TAIR, c], tab)
+                rsa, _k = _paired_lookup(cw[_C_ATM + A_TAIR, c], tabp)
                 # air supersaturated (ice) at the sensor's temperature: the excess settles
                 fog = (ra - rsa) * hb if ra > rsa else 0.0
                 cw[_C_FOG, c] = fog
@@ -893,7 +951,8 @@ def _blocked(model):
     cached["cv"] = to_blocks(model.control_volume)
     cached["dzn"] = to_blocks(model.next_distance)
     cached["par"] = _par(model)
-    cached["tables"] = water_tables(s.langmuir_k_ref_pa, s.adsorption_heat_j_mol / R_GAS, s.langmuir_t_ref_k)
+    cached["tables"] = _paired_tables(water_tables(s.langmuir_k_ref_pa, s.adsorption_heat_j_mol / R_GAS,
+                                                   s.langmuir_t_ref_k))
     return cached
 
 
