@@ -269,6 +269,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
     pidx = np.zeros(CELL_BLOCK, dtype=np.int64)
     for b in range(nb):
         o = b * cb
+        ou = np.uint64(o)
         cmax = min(cb, nc - o)
         # ---- the block in: state and constants ---------------------------------------
         for k in range(13):
@@ -520,7 +521,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                     vw[j, _W_TF, c] = f
                 if moved > 0.0:
                     for c in range(cb):
-                        i = int(vw[j, _W_TI, c])
+                        i = np.uint64(vw[j, _W_TI, c])   # (unsigned: no negative-index wrap)
                         vw[j, _W_RS0, c] = tabp[i, 0]
                         vw[j, _W_RS1, c] = tabp[i, 1]
                         vw[j, _W_K0, c] = tabp[i, 2]
@@ -694,9 +695,9 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 cw[_C_OUT + O_FSURF, c] = dt * cw[_C_FS, c] + cw[_C_FOG, c]
                 cw[_C_OUT + O_G, c] = cw[_C_GNET, c]
                 cw[_C_OUT + O_EFREE, c] = cw[_C_ATM + A_QFREE, c] * cw[_C_IN + IN_PRESSURE, c] / eps_w
-            for k in range(n_out):
+            for k in range(n_out):       # (unsigned column: no negative-index wrap, plain stores)
                 for c in range(cmax):
-                    out[k, s, o + c] = cw[_C_OUT + k, c]
+                    out[k, s, ou + np.uint64(c)] = cw[_C_OUT + k, c]
         # ---- the block out: state ------------------------------------------------------
         for j in range(nn):
             for c in range(cb):
