@@ -64,8 +64,8 @@ N_IN = 5
 A_TATM, A_TAIR, A_RHO_AIR, A_DEPTH, A_HFLUX, A_TMEAN, A_QFREE = range(7)
 N_ATM = 7
 #: rows of the per-cell vapour and exchange parameters ``[block, row, cb]``
-V_PHI, V_PHI_TAU, V_PORE, V_CAPA, V_CN, V_LOUIS, V_WIND = range(7)
-N_VAP = 7
+V_PHI, V_PHI_TAU, V_PORE, V_CAPA, V_CN, V_LOUIS, V_WIND, V_NODES = range(8)
+N_VAP = 8
 #: scalar parameters ``par[...]``
 (P_DT, P_THETA, P_DIFFUSE, P_OMEGA, P_CP, P_RAIR, P_G, P_HAIR, P_TAUAIR, P_SOL, P_HDAY,
  P_HNIGHT, P_TGROW, P_TMIX, P_ZREF, P_TAUNIGHT, P_QCONST, P_LAPSE, P_EPSW, P_SPD, P_TMIXST) = range(21)
@@ -94,16 +94,16 @@ OUTPUT_UNITS = dict(zip(OUTPUTS, ("K", "K", "kg m-2", "kg m-2", "Pa", "Pa", "K",
 #: per-cell rows: block constants, state, step inputs, scratch, outputs
 _C_CELLP = 0                                     # 13 rows, as cellp
 _C_VAPP = 13                                     # N_VAP rows, as vapp
-_C_PW = 20                                       # weight of the salt depth
-_C_SURF = 21                                     # 1: a surface salt (node 0, weight 0)
-_C_CO2 = 22                                      # CO2 frost [kg m-2]
-_C_ATM = 23                                      # N_ATM rows, as atm
-_C_IN = 30                                       # N_IN rows, this step's inputs
+_C_PW = 21                                       # weight of the salt depth
+_C_SURF = 22                                     # 1: a surface salt (node 0, weight 0)
+_C_CO2 = 23                                      # CO2 frost [kg m-2]
+_C_ATM = 24                                      # N_ATM rows, as atm
+_C_IN = 31                                       # N_IN rows, this step's inputs
 (_C_WST, _C_EPS, _C_SW, _C_ATMSW, _C_LDW, _C_SIN, _C_WTR, _C_CW, _C_TAUR, _C_ALPHA, _C_BETA0,
  _C_QQ, _C_PP, _C_RF, _C_HOLD, _C_RHS, _C_TN, _C_ACT, _C_HFLUX, _C_GNET, _C_RFREE, _C_XCH,
- _C_WTOP, _C_G0V, _C_ADIAG, _C_ARHS, _C_RA0, _C_FS, _C_FSKEEP, _C_XAKEEP, _C_TAKE, _C_DONE,
- _C_BAD, _C_FOG, _C_PWI, _C_PWJ, _C_PSI, _C_PKI, _C_PSJ, _C_PKJ, _C_PTI, _C_PTJ) = range(35, 77)
-_C_OUT = 77                                      # len(OUTPUTS) rows, this step's outputs
+ _C_WTOP, _C_G0V, _C_RA0, _C_FS, _C_FSKEEP, _C_XAKEEP, _C_TAKE, _C_DONE, _C_BAD, _C_FOG,
+ _C_PWI, _C_PWJ, _C_PSI, _C_PKI, _C_PSJ, _C_PKJ, _C_PTI, _C_PTJ) = range(36, 76)
+_C_OUT = 76                                      # len(OUTPUTS) rows, this step's outputs
 _N_CW = _C_OUT + len(OUTPUTS)
 #: thermal node rows: temperature, the elimination factors, the upward sweep's e
 _T_T, _T_FA, _T_FD, _T_FF, _T_FG, _T_E = range(6)
@@ -200,7 +200,8 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                                      the sky-view fraction)
     vapp : [b, N_VAP, c]             porosity, porosity/tortuosity, pore radius [m], monolayer
                                      capacity [kg m-3], neutral transfer coefficient, Louis
-                                     unstable term, wind [m s-1]
+                                     unstable term, wind [m s-1], the cell's own number of
+                                     vapour nodes
     cv, dzn : [b, nv, c] [m]         control-volume thickness of each vapour node and the
                                      distance to the next node (inf: no flux below)
     par : [N_PAR]                    scalars, see the P_* indices
@@ -304,11 +305,10 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 vw[j, _W_TI, c] = -1.0                   # no table interval yet
         # the block's vapour nodes: below every one of its cells' own last node nothing moves
         # (no flux, see prepare_column), so the solve stops there -- exact, cell by cell
+        # (from the cells' own node counts: under fast-math a test for dzn == inf is folded)
         nvb = 1
-        for j in range(nv - 1):
-            for c in range(cb):
-                if dzn[b, j, c] < np.inf:
-                    nvb = max(nvb, j + 2)
+        for c in range(cb):
+            nvb = max(nvb, int(vapp[b, V_NODES, c]))
         nvxb = nvb + 1
         for s in range(ns):
             sd, cd, fl, sh0, ch0 = sin_dec[s], cos_dec[s], toa_flux[s], sin_h0[s], cos_h0[s]
@@ -947,6 +947,7 @@ def _blocked(model):
     vapp[V_CN] = cn
     vapp[V_LOUIS] = 3.0 * LOUIS_B * LOUIS_C * cn * np.sqrt(s.sensor_height_m / s.roughness_m)
     vapp[V_WIND] = s.wind_m_s
+    vapp[V_NODES] = np.sum(np.isfinite(model.next_distance), axis=0) + 1
     cached.update(k)
     cached["vapp"] = to_blocks(vapp)
     cached["cv"] = to_blocks(model.control_volume)
