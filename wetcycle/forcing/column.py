@@ -182,7 +182,7 @@ def _partition(w, phi, cap_a, k, wsat):
 
 
 @njit(cache=True, fastmath=True, boundscheck=False, error_model="numpy", nogil=True)
-def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, par,
+def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, par,
                   sin_dec, cos_dec, toa_flux, sin_h0, cos_h0, stepin, tabp,
                   probe_idx, probe_w, step0, out):
     """Advance the coupled column over a block of steps (see the module notes).
@@ -202,8 +202,8 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                                      capacity [kg m-3], neutral transfer coefficient, Louis
                                      unstable term, wind [m s-1], the cell's own number of
                                      vapour nodes
-    cv, dzn : [b, nv, c] [m]         control-volume thickness of each vapour node and the
-                                     distance to the next node (inf: no flux below)
+    cv : [b, nv, c] [m]              control-volume thickness of each vapour node
+    idzn : [b, nv, c] [m-1]          1 / distance to the next node (0: no flux below)
     par : [N_PAR]                    scalars, see the P_* indices
     sin_dec, cos_dec, toa_flux, sin_h0, cos_h0 : [step]
     stepin : [b, step, N_IN, c]      optical depth, CO2 frost point [K] (< 0: no CO2
@@ -301,11 +301,12 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, dzn, p
                 vw[j, _W_CV, c] = cvj
                 vw[j, _W_CVDT, c] = cvj * idt
                 vw[j, _W_DTCV, c] = dt / cvj
-                vw[j, _W_IDZN, c] = 1.0 / dzn[b, j, c]
+                vw[j, _W_IDZN, c] = idzn[b, j, c]
                 vw[j, _W_TI, c] = -1.0                   # no table interval yet
         # the block's vapour nodes: below every one of its cells' own last node nothing moves
         # (no flux, see prepare_column), so the solve stops there -- exact, cell by cell
-        # (from the cells' own node counts: under fast-math a test for dzn == inf is folded)
+        # (from the cells' own node counts: under fast-math a test for an infinite distance
+        # is folded away)
         nvb = 1
         for c in range(cb):
             nvb = max(nvb, int(vapp[b, V_NODES, c]))
@@ -951,7 +952,8 @@ def _blocked(model):
     cached.update(k)
     cached["vapp"] = to_blocks(vapp)
     cached["cv"] = to_blocks(model.control_volume)
-    cached["dzn"] = to_blocks(model.next_distance)
+    with np.errstate(divide="ignore"):
+        cached["idzn"] = to_blocks(1.0 / model.next_distance)     # 0 below a cell's last node
     cached["par"] = _par(model)
     cached["tables"] = _paired_tables(water_tables(s.langmuir_k_ref_pa, s.adsorption_heat_j_mol / R_GAS,
                                                    s.langmuir_t_ref_k))
@@ -1039,7 +1041,7 @@ def column_block(model, state, declination_rad, distance_au, hour_angle0_rad, ta
                               state.free_mixing_ratio]))
     water = to_blocks(state.regolith_water)
     out = np.zeros((len(OUTPUTS), ns, nc))
-    column_kernel(temp, co2, atm, water, *k["factors"], k["cellp"], k["vapp"], k["cv"], k["dzn"],
+    column_kernel(temp, co2, atm, water, *k["factors"], k["cellp"], k["vapp"], k["cv"], k["idzn"],
                   k["par"], np.sin(dec), np.cos(dec), flux, np.sin(h0), np.cos(h0), stepin,
                   k["tables"], k["probe_idx"], k["probe_w"], int(step0), out)
     a = from_blocks(atm, nc)
