@@ -77,6 +77,12 @@ OUTPUTS = ("surface_temperature", "salt_temperature", "co2_frost", "water_frost"
            "atmosphere_exchange", "ground_heat_flux", "free_vapor_pressure")
 (O_TS, O_TPROBE, O_CO2, O_FROST, O_ESALT, O_ESURF, O_TAIR, O_EAIR, O_H, O_LDOWN, O_FSURF,
  O_FATM, O_G, O_EFREE) = range(len(OUTPUTS))
+#: Cells per block of the column kernel (its workspace rows): wider than the dry kernel's
+#: :data:`~wetcycle.forcing.regolith.CELL_BLOCK` because its many short loops over a block's
+#: cells each pay a fixed start-up cost (measured: 64 beats 32 and 128).  Chunks of at most
+#: CELL_BLOCK cells use blocks of CELL_BLOCK (less padding for a single site).  Both widths
+#: are whole multiples of every SIMD loop's step, so a cell always takes the same code path.
+COLUMN_BLOCK = 64
 #: Most solves of the water column per step (a new solve only where pore ice appeared or ran out).
 VAPOUR_MAXIT = 4
 #: units of the outputs
@@ -86,7 +92,7 @@ OUTPUT_UNITS = dict(zip(OUTPUTS, ("K", "K", "kg m-2", "kg m-2", "Pa", "Pa", "K",
 
 # ---- the kernel's block workspace -----------------------------------------------------
 # The kernel copies one block's state and constants into three local arrays with
-# compile-time strides (rows of CELL_BLOCK cells): per-cell rows ``cw[row, c]``, thermal
+# compile-time strides (rows of COLUMN_BLOCK cells): per-cell rows ``cw[row, c]``, thermal
 # nodes ``tw[node, row, c]`` and vapour nodes ``vw[node, row, c]``.  Every loop over the
 # cells of a block then reads and writes a few arrays at known distances, which the
 # compiler turns into SIMD code without run-time aliasing checks; the block's state goes
@@ -221,12 +227,12 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
     out : [len(OUTPUTS), step, cell] filled with the outputs (values at step ends; the
                                      two water fluxes are amounts over the step [kg m-2])
 
-    Blocks hold at most :data:`~wetcycle.forcing.regolith.CELL_BLOCK` cells.
+    Blocks hold at most :data:`COLUMN_BLOCK` cells.
     """
     nb, nn, cb = temp.shape
-    if cb > CELL_BLOCK:
-        raise ValueError("column_kernel: blocks hold at most CELL_BLOCK cells")
-    # (the workspace's rows are CELL_BLOCK long, a compile-time constant, so that the
+    if cb > COLUMN_BLOCK:
+        raise ValueError("column_kernel: blocks hold at most COLUMN_BLOCK cells")
+    # (the workspace's rows are COLUMN_BLOCK long, a compile-time constant, so that the
     # compiler knows every distance between them; the loops run to the block's own length,
     # which keeps them SIMD loops rather than unrolled scalar code)
     nv = water.shape[1]
@@ -264,10 +270,10 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
     qs_ = np.empty(PROFILE_LEVELS)
     pz_ = np.empty(PROFILE_LEVELS)
     wk_ = np.empty(PROFILE_LEVELS)
-    cw = np.zeros((_N_CW, CELL_BLOCK))
-    tw = np.zeros((nn, _N_TW, CELL_BLOCK))
-    vw = np.zeros((nv + 2, _N_VW, CELL_BLOCK))
-    pidx = np.zeros(CELL_BLOCK, dtype=np.int64)
+    cw = np.zeros((_N_CW, COLUMN_BLOCK))
+    tw = np.zeros((nn, _N_TW, COLUMN_BLOCK))
+    vw = np.zeros((nv + 2, _N_VW, COLUMN_BLOCK))
+    pidx = np.zeros(COLUMN_BLOCK, dtype=np.int64)
     for b in range(nb):
         o = b * cb
         ou = np.uint64(o)
@@ -930,6 +936,11 @@ def _par(model):
     return par
 
 
+def _block_width(n_cells):
+    """Cells per kernel block for a chunk of ``n_cells`` (see :data:`COLUMN_BLOCK`)."""
+    return CELL_BLOCK if n_cells <= CELL_BLOCK else COLUMN_BLOCK
+
+
 def _blocked(model):
     cached = model._blocked
     if cached:
@@ -949,11 +960,19 @@ def _blocked(model):
     vapp[V_LOUIS] = 3.0 * LOUIS_B * LOUIS_C * cn * np.sqrt(s.sensor_height_m / s.roughness_m)
     vapp[V_WIND] = s.wind_m_s
     vapp[V_NODES] = np.sum(np.isfinite(model.next_distance), axis=0) + 1
-    cached.update(k)
-    cached["vapp"] = to_blocks(vapp)
-    cached["cv"] = to_blocks(model.control_volume)
+    cb = _block_width(n)             # the energy model's constants, re-blocked
+
+    def reblock(x):
+        return to_blocks(from_blocks(x, n), cb)
+
+    cached["cellp"] = reblock(k["cellp"])
+    cached["factors"] = tuple(reblock(x) for x in k["factors"])
+    cached["probe_idx"] = reblock(k["probe_idx"]).astype(np.int64)
+    cached["probe_w"] = reblock(k["probe_w"])
+    cached["vapp"] = to_blocks(vapp, cb)
+    cached["cv"] = to_blocks(model.control_volume, cb)
     with np.errstate(divide="ignore"):
-        cached["idzn"] = to_blocks(1.0 / model.next_distance)     # 0 below a cell's last node
+        cached["idzn"] = to_blocks(1.0 / model.next_distance, cb)     # 0 below a cell's last node
     cached["par"] = _par(model)
     cached["tables"] = _paired_tables(water_tables(s.langmuir_k_ref_pa, s.adsorption_heat_j_mol / R_GAS,
                                                    s.langmuir_t_ref_k))
@@ -1024,22 +1043,23 @@ def column_block(model, state, declination_rad, distance_au, hour_angle0_rad, ta
     ns, nc = dec.size, model.n_cells
     flux = np.ascontiguousarray(top_of_atmosphere_flux(distance_au) * np.ones(ns))
     h0 = np.asarray(hour_angle0_rad, dtype=float) * np.ones(ns)
-    ncp = -(-nc // CELL_BLOCK) * CELL_BLOCK
-    stepin = np.empty((ncp // CELL_BLOCK, ns, N_IN, CELL_BLOCK))
+    cb = _block_width(nc)
+    ncp = -(-nc // cb) * cb
+    stepin = np.empty((ncp // cb, ns, N_IN, cb))
     for row, x in ((IN_TAU, tau), (IN_FROST_POINT, frost_point), (IN_EPS_ATM, emissivity_atm),
                    (IN_COLUMN, water_column), (IN_PRESSURE, pressure)):
         xp = np.empty((ns, ncp))
         xp[:, :nc] = np.broadcast_to(np.asarray(x, dtype=float), (ns, nc))
         xp[:, nc:] = xp[:, nc - 1:nc]
-        stepin[:, :, row, :] = xp.reshape(ns, -1, CELL_BLOCK).transpose(1, 0, 2)
+        stepin[:, :, row, :] = xp.reshape(ns, -1, cb).transpose(1, 0, 2)
     k = _blocked(model)
-    temp = to_blocks(state.temperature)
-    co2 = to_blocks(state.co2_frost)
+    temp = to_blocks(state.temperature, cb)
+    co2 = to_blocks(state.co2_frost, cb)
     atm = to_blocks(np.stack([state.atmosphere_temperature, state.air_temperature,
                               state.air_vapour_density, state.air_layer_depth,
                               state.sensible_heat_flux, state.air_temperature_mean,
-                              state.free_mixing_ratio]))
-    water = to_blocks(state.regolith_water)
+                              state.free_mixing_ratio]), cb)
+    water = to_blocks(state.regolith_water, cb)
     out = np.zeros((len(OUTPUTS), ns, nc))
     column_kernel(temp, co2, atm, water, *k["factors"], k["cellp"], k["vapp"], k["cv"], k["idzn"],
                   k["par"], np.sin(dec), np.cos(dec), flux, np.sin(h0), np.cos(h0), stepin,
