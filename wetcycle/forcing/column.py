@@ -1046,12 +1046,15 @@ def column_block(model, state, declination_rad, distance_au, hour_angle0_rad, ta
     cb = _block_width(nc)
     ncp = -(-nc // cb) * cb
     stepin = np.empty((ncp // cb, ns, N_IN, cb))
+    full = nc // cb                  # whole blocks; the last one is padded with the last cell
     for row, x in ((IN_TAU, tau), (IN_FROST_POINT, frost_point), (IN_EPS_ATM, emissivity_atm),
                    (IN_COLUMN, water_column), (IN_PRESSURE, pressure)):
-        xp = np.empty((ns, ncp))
-        xp[:, :nc] = np.broadcast_to(np.asarray(x, dtype=float), (ns, nc))
-        xp[:, nc:] = xp[:, nc - 1:nc]
-        stepin[:, :, row, :] = xp.reshape(ns, -1, cb).transpose(1, 0, 2)
+        xs = np.broadcast_to(np.asarray(x, dtype=float), (ns, nc))
+        dst = stepin[:, :, row, :]
+        dst[:full] = xs[:, :full * cb].reshape(ns, full, cb).transpose(1, 0, 2)
+        if full * cb < nc:
+            dst[full, :, :nc - full * cb] = xs[:, full * cb:]
+            dst[full, :, nc - full * cb:] = xs[:, nc - 1:nc]
     k = _blocked(model)
     temp = to_blocks(state.temperature, cb)
     co2 = to_blocks(state.co2_frost, cb)
