@@ -34,7 +34,8 @@ over frost, the value the exchange gives otherwise.
 
 State, parameters and outputs are plain arrays (see :class:`ColumnState`,
 :func:`prepare_column`); the kernel works on the blocked layout of
-:mod:`wetcycle.forcing.regolith`.
+:mod:`wetcycle.forcing.regolith` (blocks of :data:`COLUMN_BLOCK` cells) and, within a
+block, on local workspaces laid out for SIMD loops over the block's cells.
 """
 
 from __future__ import annotations
@@ -115,15 +116,15 @@ _N_CW = _C_OUT + len(OUTPUTS)
 _T_T, _T_FA, _T_FD, _T_FF, _T_FG, _T_E = range(6)
 _N_TW = 6
 #: vapour node rows (node j): total water at the step's start (the state), the iterate, the
-#: estimate from the fluxes, the kept estimate, rho_sat, Langmuir k, W at saturation, ice
-#: flag, control volume, cv / dt, dt / cv, 1 / (distance to the next node); the table
-#: look-up (index, fraction, the two bracketing entries of each table); solver rows (row
-#: i = node i - 1, row 0 the air): the eliminated upper diagonal and right-hand side, the
-#: solution, the conductance between rows i - 1 and i
-(_W_W, _W_LIN, _W_EST, _W_KEEP, _W_RS, _W_K, _W_SAT, _W_ICE, _W_CV, _W_CVDT, _W_DTCV, _W_IDZN,
+#: estimate from the fluxes, the kept estimate, Langmuir k, W at saturation, ice flag,
+#: control volume, cv / dt, dt / cv, 1 / (distance to the next node); the table look-up
+#: (index, fraction, the two bracketing entries of each table); the branch-change flag;
+#: solver rows (row i = node i - 1, row 0 the air): the eliminated upper diagonal and
+#: right-hand side, the solution, the conductance between rows i - 1 and i
+(_W_W, _W_LIN, _W_EST, _W_KEEP, _W_K, _W_SAT, _W_ICE, _W_CV, _W_CVDT, _W_DTCV, _W_IDZN,
  _W_TI, _W_TF, _W_RS0, _W_RS1, _W_K0, _W_K1, _W_BAD,
- _R_CP, _R_DP, _R_X, _R_G) = range(23)
-_N_VW = 23
+ _R_CP, _R_DP, _R_X, _R_G) = range(22)
+_N_VW = 22
 
 
 def _paired_tables(tab):
@@ -507,25 +508,32 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 m = 1.0 / (hnew * idt + wt + ga)
                 vw[0, _R_CP, c] = -(wv * ts_ * itbar) * m
                 vw[0, _R_DP, c] = (hnew * idt * ra + wt * rf_) * m
-            for j in range(nvb - 1):                     # pore diffusion conductances
-                for c in range(cb):
-                    tm = 0.5 * (tw[j, _T_T, c] + tw[j + 1, _T_T, c])
-                    vw[j + 1, _R_G, c] = effective_diffusivity(tm, cw[_C_IN + IN_PRESSURE, c],
-                                                               cw[_C_VAPP + V_PHI_TAU, c],
-                                                               cw[_C_VAPP + V_PORE, c]) * vw[j, _W_IDZN, c]
+            # per node: the conductance to the node below (pore diffusion), and the saturation
+            # and Langmuir constant at the node's new temperature from the tables, once per
+            # step outside the SIMD loops of the solve.  The gathers (scalar code) are needed
+            # only for the rows of nodes where some cell moved to another table interval (deep
+            # nodes often stay); position and interpolation are SIMD loops.
             for c in range(cb):                          # below the block's last node: no flux
                 vw[nvb, _R_G, c] = 0.0
-            # saturation and Langmuir constant at each node's new temperature: table look-ups
-            # once per step, outside the SIMD loops of the solve.  The gathers (scalar code) are
-            # needed only for the rows of nodes where some cell moved to another table interval
-            # (deep nodes often stay); position and interpolation are SIMD loops.
             for j in range(nvb):
                 moved = 0.0
-                for c in range(cb):
-                    xi, f = _table_position(tw[j, _T_T, c], tab_top)
-                    moved += 1.0 if xi != vw[j, _W_TI, c] else 0.0
-                    vw[j, _W_TI, c] = xi
-                    vw[j, _W_TF, c] = f
+                if j < nvb - 1:
+                    for c in range(cb):
+                        t_j = tw[j, _T_T, c]
+                        tm = 0.5 * (t_j + tw[j + 1, _T_T, c])
+                        vw[j + 1, _R_G, c] = effective_diffusivity(tm, cw[_C_IN + IN_PRESSURE, c],
+                                                                   cw[_C_VAPP + V_PHI_TAU, c],
+                                                                   cw[_C_VAPP + V_PORE, c]) * vw[j, _W_IDZN, c]
+                        xi, f = _table_position(t_j, tab_top)
+                        moved += 1.0 if xi != vw[j, _W_TI, c] else 0.0
+                        vw[j, _W_TI, c] = xi
+                        vw[j, _W_TF, c] = f
+                else:
+                    for c in range(cb):
+                        xi, f = _table_position(tw[j, _T_T, c], tab_top)
+                        moved += 1.0 if xi != vw[j, _W_TI, c] else 0.0
+                        vw[j, _W_TI, c] = xi
+                        vw[j, _W_TF, c] = f
                 if moved > 0.0:
                     for c in range(cb):
                         i = np.uint64(vw[j, _W_TI, c])   # (unsigned: no negative-index wrap)
@@ -537,12 +545,10 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                     f = vw[j, _W_TF, c]
                     a0 = vw[j, _W_RS0, c]
                     k0 = vw[j, _W_K0, c]
-                    vw[j, _W_RS, c] = a0 + f * (vw[j, _W_RS1, c] - a0)
-                    vw[j, _W_K, c] = k0 + f * (vw[j, _W_K1, c] - k0)
-            for j in range(nvb):
-                for c in range(cb):
-                    vw[j, _W_SAT, c] = _saturated_water(cw[_C_VAPP + V_PHI, c], cw[_C_VAPP + V_CAPA, c],
-                                                        vw[j, _W_K, c], vw[j, _W_RS, c])
+                    rs = a0 + f * (vw[j, _W_RS1, c] - a0)
+                    kj = k0 + f * (vw[j, _W_K1, c] - k0)
+                    vw[j, _W_K, c] = kj
+                    vw[j, _W_SAT, c] = _saturated_water(cw[_C_VAPP + V_PHI, c], cw[_C_VAPP + V_CAPA, c], kj, rs)
                     vw[j, _W_LIN, c] = vw[j, _W_W, c]
             for c in range(cb):
                 cw[_C_DONE, c] = 0.0
