@@ -166,6 +166,51 @@ def _saturated_water(phi, cap_a, k, rs):
     return phi * rs + cap_a * ks / (1.0 + ks)
 
 
+# powers of two for _cube_root's range reduction: 2**n and 8**n = 2**(3n), n = 1, 2, 4, ... 256
+(_P2_1, _P2_2, _P2_3, _P2_4, _P2_6, _P2_8, _P2_12, _P2_16, _P2_24, _P2_32, _P2_48, _P2_64, _P2_96,
+ _P2_128, _P2_192, _P2_256, _P2_384, _P2_768) = (2.0 ** k for k in (1, 2, 3, 4, 6, 8, 12, 16, 24, 32, 48, 64,
+                                                                      96, 128, 192, 256, 384, 768))
+
+
+@njit(cache=True, fastmath=True, inline="always")
+def _cube_root_step(y, s, k8, k2):
+    """Scale ``y`` into range by ``k8`` = 8**n and ``s`` by ``k2`` = 2**n (exponents only: exact)."""
+    big = y >= k8
+    y = y * (1.0 / k8) if big else y
+    s = s * k2 if big else s
+    tiny = y * k8 < 8.0
+    y = y * k8 if tiny else y
+    s = s * (1.0 / k2) if tiny else s
+    return y, s
+
+
+@njit(cache=True, fastmath=True, inline="always")
+def _cube_root(x):
+    """``x**(1/3)`` for ``x > 0``, 0 for ``x <= 0``, in a form that stays in SIMD loops (a libm
+    call would not).  Method: exact range reduction to ``[1, 8)`` by powers of 8 (nine
+    branch-free steps cover every double), a cubic initial guess fitted to the cube root on
+    ``[1, 8)`` (1.4 % at worst), three Halley steps ``r (r^3 + 2y) / (2 r^3 + y)`` (cubic
+    convergence: 1e-2, 1e-6, 1e-18).  Within 3 ulp of the correctly rounded root over the
+    whole double range (checked against ``numpy.cbrt`` on 2e6 points, 1e-307 to 1e307), as
+    ``x ** (1/3)`` is."""
+    y = x if x > 0.0 else 1.0
+    s = 1.0
+    y, s = _cube_root_step(y, s, _P2_768, _P2_256)
+    y, s = _cube_root_step(y, s, _P2_384, _P2_128)
+    y, s = _cube_root_step(y, s, _P2_192, _P2_64)
+    y, s = _cube_root_step(y, s, _P2_96, _P2_32)
+    y, s = _cube_root_step(y, s, _P2_48, _P2_16)
+    y, s = _cube_root_step(y, s, _P2_24, _P2_8)
+    y, s = _cube_root_step(y, s, _P2_12, _P2_4)
+    y, s = _cube_root_step(y, s, _P2_6, _P2_2)
+    y, s = _cube_root_step(y, s, _P2_3, _P2_1)
+    r = 0.7091206995822162 + y * (0.3400291293011452 + y * (-0.03749812135376207 + y * 0.001916834543139507))
+    for _ in range(3):
+        r3 = r * r * r
+        r = r * (r3 + 2.0 * y) / (2.0 * r3 + y)
+    return s * r if x > 0.0 else 0.0
+
+
 @njit(cache=True, fastmath=True, inline="always")
 def _vapour_pressure(rho_v, t):
     """Vapour pressure [Pa] of vapour density ``rho_v`` [kg m-3] at ``t`` [K]."""
@@ -341,13 +386,11 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 for c in range(cb):
                     tw[j, _T_E, c] = (tw[j, _T_FA, c] * tw[j, _T_T, c] + r * tw[j, _T_FF, c] * tw[j - 1, _T_T, c]
                                       + tw[j, _T_FD, c] * (r * tw[j + 1, _T_T, c] + tw[j + 1, _T_E, c]))
-            for c in range(cb):        # convective velocity from the last step (scalar pow)
+            for c in range(cb):        # convective velocity from the last step (0 if H <= 0)
                 hfl = cw[_C_ATM + A_HFLUX, c]
-                cw[_C_WST, c] = 0.0
-                if hfl > 0.0:
-                    ta = cw[_C_ATM + A_TAIR, c]
-                    rho = cw[_C_IN + IN_PRESSURE, c] / (r_air * ta)
-                    cw[_C_WST, c] = (g * cw[_C_ATM + A_DEPTH, c] * hfl / (rho * cp * ta)) ** (1.0 / 3.0)
+                ta = cw[_C_ATM + A_TAIR, c]
+                rho = cw[_C_IN + IN_PRESSURE, c] / (r_air * ta)
+                cw[_C_WST, c] = _cube_root(g * cw[_C_ATM + A_DEPTH, c] * hfl / (rho * cp * ta))
             for c in range(cb):        # geometry, radiation, turbulence, surface equation
                 slat, clat = cw[_C_CELLP + 0, c], cw[_C_CELLP + 1, c]
                 slon, clon = cw[_C_CELLP + 2, c], cw[_C_CELLP + 3, c]
