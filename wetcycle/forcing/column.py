@@ -84,6 +84,10 @@ OUTPUTS = ("surface_temperature", "salt_temperature", "co2_frost", "water_frost"
 #: CELL_BLOCK cells use blocks of CELL_BLOCK (less padding for a single site).  Both widths
 #: are whole multiples of every SIMD loop's step, so a cell always takes the same code path.
 COLUMN_BLOCK = 64
+#: A second solve of the water column (rare) runs only over the groups of this many cells that
+#: need it; a multiple of every SIMD loop's step, so a cell takes the same code path wherever
+#: its group lies (its numbers never depend on its block-mates).
+_SOLVE_GROUP = CELL_BLOCK
 #: Most solves of the water column per step (a new solve only where pore ice appeared or ran out).
 VAPOUR_MAXIT = 4
 #: units of the outputs
@@ -599,11 +603,23 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
             # node's water from the fluxes (conservative), and solve again from that estimate
             # where a node changed branch (pore ice appeared or was used up) -- rare, so one
             # solve is the rule.
+            lo, hi = 0, cb
             for it in range(VAPOUR_MAXIT):
+                if it > 0:               # solve again only over the groups of _SOLVE_GROUP cells
+                    lo, hi = cb, 0       # that hold a cell still without a solve to keep
+                    for c in range(cb):
+                        if cw[_C_DONE, c] == 0.0:
+                            lo = min(lo, c)
+                            hi = max(hi, c + 1)
+                    lo = lo // _SOLVE_GROUP * _SOLVE_GROUP
+                    hi = min(cb, -(-hi // _SOLVE_GROUP) * _SOLVE_GROUP)
+                # (unsigned cell index: no negative-index wrap, which would turn the SIMD loops'
+                # loads and stores into gathers and scatters)
+                ulo, uhi = np.uint64(lo), np.uint64(hi)
                 # forward: each node's storage at its iterate, its row (solver row j + 1) and
                 # the elimination of that row (Thomas algorithm, SIMD over cells); the row's
                 # lower diagonal is -G[j], its upper -G[j + 1] (row 1: diagonal with g0v)
-                for c in range(cb):
+                for c in range(ulo, uhi):
                     wl_ = vw[0, _W_LIN, c]
                     ws_ = vw[0, _W_SAT, c]
                     x, ic, cap = _partition(wl_, cw[_C_VAPP + V_PHI, c], cw[_C_VAPP + V_CAPA, c],
@@ -618,7 +634,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                     vw[1, _R_CP, c] = -g1 * m
                     vw[1, _R_DP, c] = (dd + g0 * vw[0, _R_DP, c]) * m
                 for j in range(1, nvb):
-                    for c in range(cb):
+                    for c in range(ulo, uhi):
                         wl_ = vw[j, _W_LIN, c]
                         ws_ = vw[j, _W_SAT, c]
                         x, ic, cap = _partition(wl_, cw[_C_VAPP + V_PHI, c], cw[_C_VAPP + V_CAPA, c],
@@ -635,10 +651,10 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 # back substitution; node i's water from the fluxes of the solved field as soon
                 # as rows i..i+2 are known (exactly conservative: each flux leaves one node and
                 # enters the next); flag nodes that changed branch
-                for c in range(cb):
+                for c in range(ulo, uhi):
                     vw[nvb, _R_X, c] = vw[nvb, _R_DP, c]
                 for i in range(nvb - 1, 0, -1):
-                    for c in range(cb):
+                    for c in range(ulo, uhi):
                         xi1 = vw[i + 1, _R_X, c]
                         xi = vw[i, _R_DP, c] - vw[i, _R_CP, c] * xi1
                         vw[i, _R_X, c] = xi
@@ -648,7 +664,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                         vw[i, _W_EST, c] = we
                         now_ice = 1.0 if we > vw[i, _W_SAT, c] else 0.0
                         vw[i, _W_BAD, c] = 1.0 if (now_ice != vw[i, _W_ICE, c]) | (we < 0.0) else 0.0
-                for c in range(cb):                      # the air and node 0
+                for c in range(ulo, uhi):                  # the air and node 0
                     x1 = vw[1, _R_X, c]
                     xa = vw[0, _R_DP, c] - vw[0, _R_CP, c] * x1
                     vw[0, _R_X, c] = xa
@@ -658,16 +674,16 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                     vw[0, _W_EST, c] = we
                     now_ice = 1.0 if we > vw[0, _W_SAT, c] else 0.0
                     vw[0, _W_BAD, c] = 1.0 if (now_ice != vw[0, _W_ICE, c]) | (we < 0.0) else 0.0
-                for c in range(cb):
+                for c in range(ulo, uhi):
                     cw[_C_BAD, c] = 0.0
                 for j in range(nvb):
-                    for c in range(cb):
+                    for c in range(ulo, uhi):
                         cw[_C_BAD, c] += vw[j, _W_BAD, c]
                 # per cell: keep this solve where no node changed branch (or at the last
                 # attempt); a cell's result never depends on its block-mates
                 last = it == VAPOUR_MAXIT - 1
                 again = 0.0
-                for c in range(cb):
+                for c in range(ulo, uhi):
                     done = cw[_C_DONE, c]
                     take = (done == 0.0) & ((cw[_C_BAD, c] == 0.0) | last)
                     cw[_C_TAKE, c] = 1.0 if take else 0.0
@@ -684,7 +700,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                             vw[j, _W_W, c] = vw[j, _W_EST, c]
                     break
                 for j in range(nvb):                     # keep and iterate (SIMD selects)
-                    for c in range(cb):
+                    for c in range(ulo, uhi):
                         w_new = vw[j, _W_EST, c]
                         w_old = vw[j, _W_KEEP, c]
                         vw[j, _W_LIN, c] = max(w_new, 0.0)
