@@ -76,6 +76,28 @@ def test_surface_layer_neutral_and_stability():
     assert up > cn * 3.0 > down > 0.0
 
 
+@settings(max_examples=200, deadline=None)
+@given(ts=st.floats(140.0, 300.0), ta=st.floats(140.0, 300.0), u=st.floats(0.2, 20.0), ws=st.floats(0.0, 5.0))
+def test_kernel_transfer_velocity_is_the_louis_form(ts, ta, u, ws):
+    # the branch-free form the column kernel runs equals C_HN F_h(Ri) U_eff written out with
+    # the textbook piecewise factor (Louis 1979 / Louis et al. 1982 form, from memory)
+    cn = sl.neutral_coefficient(1.6, 0.01, 0.01)
+    ueff = math.sqrt(u * u + ws * ws)
+    ri = 3.71 * 1.6 * (ta - ts) / (0.5 * (ta + ts) * ueff * ueff)
+    ref = cn * sl.stability_factor(ri, cn, 1.6, 0.01) * ueff
+    got = sl.transfer_velocity(3.71 * 1.6, ts, ta, u, ws, cn, sl.unstable_constant(1.6, 0.01, 0.01))
+    assert got == pytest.approx(ref, rel=1e-12)
+
+
+def test_kernel_cube_root_matches_numpy():
+    # the convective velocity's cube root inside the kernel (range reduction + Halley steps)
+    # against numpy.cbrt (IEEE-correct to an ulp): within 4 ulp over 1e-300..1e300
+    from wetcycle.forcing.column import _cube_root
+    x = np.logspace(-300, 300, 4001)
+    got = np.array([_cube_root(v) for v in x])
+    assert np.max(np.abs(got / np.cbrt(x) - 1.0)) < 4 * np.finfo(float).eps
+
+
 def test_column_emissivity():
     # effective-emissivity form 1 - (1 - eps_CO2) exp(-1.66 tau_IR) (common practice): clear
     # CO2 at 610 Pa gives the clear-sky value; opacity only adds
@@ -125,6 +147,17 @@ def test_frost_and_vapour_stay_physical(year_of_cells):
     # the salt at depth sees the pore vapour at its depth, not the surface's
     assert not np.array_equal(out["vapor_pressure"][:, 1], out["surface_vapor_pressure"][:, 1])
     np.testing.assert_array_equal(out["vapor_pressure"][:, 0], out["surface_vapor_pressure"][:, 0])
+
+
+def test_a_salt_between_nodes_never_sees_supersaturated_pores():
+    # Below an ice table the pores are at ice saturation: a salt between two nodes must see
+    # RH_ice = 1 at most (Murphy & Koop 2005; the interpolation is of the relative saturation).
+    clock = make_clock("mars", steps_per_sol=48, n_sols=4, start_ls=100.0, year=33)
+    cells = dr.make_cells([66.0, 66.0], [0.0, 0.0], layer2_depth_m=0.05, salt_depth_m=[0.028, 0.03])
+    model = dr.prepare_forcing(cells, clock)
+    st = dr.initial_state(model, clock)
+    rh = np.concatenate([out["relative_humidity_ice"] for _, st, out in dr.iter_forcing(model, st, clock)])
+    assert rh.max() <= 1.0 + 1e-4
 
 
 def test_polar_night_has_sky_infrared(year_of_cells):

@@ -55,7 +55,7 @@ from .regolith import CELL_BLOCK, factorize, from_blocks, probe_weights, to_bloc
 from .regolith_vapour import (ICE_CAPACITY, R_GAS, R_VAPOUR, RHO_SAT_DT, RHO_SAT_T0, RHO_SAT_TABLE,
                               TABLE_T, effective_diffusivity, water_tables)
 from .supply import PROFILE_LEVELS, free_mixing_ratio_kernel
-from .surface_layer import LOUIS_B, LOUIS_C, LOUIS_D, neutral_coefficient
+from .surface_layer import neutral_coefficient, transfer_velocity, unstable_constant
 
 # ---- indices ------------------------------------------------------------------------
 #: rows of the per-step input array ``[row, step, padded cell]``
@@ -433,13 +433,8 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 t0 = tw[0, _T_T, c]
                 ta = cw[_C_ATM + A_TAIR, c]
                 rho = cw[_C_IN + IN_PRESSURE, c] / (r_air * ta)
-                uw = cw[_C_VAPP + V_WIND, c]
-                wsc = cw[_C_WST, c]
-                ueff = math.sqrt(uw * uw + wsc * wsc)
-                ri = ri_coef * (ta - t0) / (0.5 * (ta + t0) * ueff * ueff)
-                fst = 1.0 / (1.0 + 3.0 * LOUIS_B * ri * math.sqrt(1.0 + LOUIS_D * max(ri, 0.0)))
-                fun = 1.0 - 3.0 * LOUIS_B * ri / (1.0 + cw[_C_VAPP + V_LOUIS, c] * math.sqrt(max(-ri, 0.0)))
-                w = cw[_C_VAPP + V_CN, c] * (fst if ri >= 0.0 else fun) * ueff
+                w = transfer_velocity(ri_coef, t0, ta, cw[_C_VAPP + V_WIND, c], cw[_C_WST, c],
+                                      cw[_C_VAPP + V_CN, c], cw[_C_VAPP + V_LOUIS, c])
                 cw[_C_WTR, c] = w
                 cwc = rho * cp * w
                 cw[_C_CW, c] = cwc
@@ -725,6 +720,24 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 cw[_C_ATM + A_RHO_AIR, c] = ra - fog / hb
                 vw[0, _W_W, c] = vw[0, _W_W, c] + fog / vw[0, _W_CV, c]
                 cw[_C_XCH, c] = cw[_C_XCH, c] + dt * ftop
+            # Positivity (never seen at an allowed step; kept as a guard): a node whose kept
+            # solve left it negative borrows the deficit from the node above it, node 0 from
+            # the air -- a local correction of the fluxes that keeps total water exact.
+            neg = 0.0
+            for j in range(nvb):
+                for c in range(cb):
+                    neg += 1.0 if vw[j, _W_W, c] < 0.0 else 0.0
+            if neg > 0.0:
+                for c in range(cb):
+                    for j in range(nvb - 1, 0, -1):
+                        wj = vw[j, _W_W, c]
+                        if wj < 0.0:
+                            vw[j - 1, _W_W, c] += wj * vw[j, _W_CV, c] / vw[j - 1, _W_CV, c]
+                            vw[j, _W_W, c] = 0.0
+                    w0 = vw[0, _W_W, c]
+                    if w0 < 0.0:
+                        cw[_C_ATM + A_RHO_AIR, c] += w0 * vw[0, _W_CV, c] / cw[_C_ATM + A_DEPTH, c]
+                        vw[0, _W_W, c] = 0.0
             # ---- outputs: air, surface node, salt depth ---------------------------------
             for c in range(cb):          # the salt's nodes (gathers)
                 i = pidx[c]
@@ -746,7 +759,13 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 xi, ii, ci = _partition(cw[_C_PWI, c], phi, capa, cw[_C_PKI, c], cw[_C_PSI, c])
                 xj, ij, cj = _partition(cw[_C_PWJ, c], phi, capa, cw[_C_PKJ, c], cw[_C_PSJ, c])
                 tp = (1.0 - w) * cw[_C_PTI, c] + w * cw[_C_PTJ, c]
-                ep = _vapour_pressure((1.0 - w) * xi + w * xj, tp)
+                # between nodes the relative saturation is interpolated (saturation is convex in
+                # T: interpolating the density itself would put air above saturation between two
+                # saturated nodes)
+                rsi, _ki = _paired_lookup(cw[_C_PTI, c], tabp)
+                rsj, _kj = _paired_lookup(cw[_C_PTJ, c], tabp)
+                rsp, _kp = _paired_lookup(tp, tabp)
+                ep = _vapour_pressure(((1.0 - w) * xi / rsi + w * xj / rsj) * rsp, tp)
                 # a surface salt (node 0, weight 0) sees the surface node's numbers bit for bit
                 # (the general form equals them up to the order of rounding)
                 surf = cw[_C_SURF, c] > 0.0
@@ -1022,7 +1041,7 @@ def _blocked(model):
     vapp[V_CAPA] = model.capacity
     cn = neutral_coefficient(s.sensor_height_m, s.roughness_m, s.thermal_roughness_m)
     vapp[V_CN] = cn
-    vapp[V_LOUIS] = 3.0 * LOUIS_B * LOUIS_C * cn * np.sqrt(s.sensor_height_m / s.roughness_m)
+    vapp[V_LOUIS] = unstable_constant(s.sensor_height_m, s.roughness_m, s.thermal_roughness_m)
     vapp[V_WIND] = s.wind_m_s
     vapp[V_NODES] = np.sum(np.isfinite(model.next_distance), axis=0) + 1
     cb = _block_width(n)             # the energy model's constants, re-blocked

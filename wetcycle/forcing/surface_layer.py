@@ -69,6 +69,34 @@ def stability_factor(ri, cn, z_ref, z0):
 
 
 @njit(cache=True, fastmath=True, inline="always")
+def transfer_velocity(ri_coef, t_s, t_a, u, w_star, cn, louis_u):
+    """``C_H U_eff`` [m s-1] in the branch-free form the column kernel runs.
+
+    Parameters
+    ----------
+    ri_coef : float [m2 s-2]  ``g z_ref``
+    t_s, t_a : float [K]      ground skin and air (reference height) temperature
+    u : float [m s-1]         wind at the reference height (> 0)
+    w_star : float [m s-1]    convective velocity scale (0 when stable)
+    cn : float [-]            :func:`neutral_coefficient`
+    louis_u : float [-]       ``3 b c C_HN sqrt(z_ref / z0)``, the unstable branch's constant
+
+    Both branches of :func:`stability_factor` are evaluated and one is selected, so the loop
+    over cells stays SIMD; the result equals ``cn * stability_factor(...) * U_eff``.
+    """
+    ueff = math.sqrt(u * u + (GUST_BETA * w_star) * (GUST_BETA * w_star))
+    ri = ri_coef * (t_a - t_s) / (0.5 * (t_a + t_s) * ueff * ueff)
+    fst = 1.0 / (1.0 + 3.0 * LOUIS_B * ri * math.sqrt(1.0 + LOUIS_D * max(ri, 0.0)))
+    fun = 1.0 - 3.0 * LOUIS_B * ri / (1.0 + louis_u * math.sqrt(max(-ri, 0.0)))
+    return cn * (fst if ri >= 0.0 else fun) * ueff
+
+
+def unstable_constant(z_ref, z0, z0h):
+    """``3 b c C_HN sqrt(z_ref / z0)`` of Louis's unstable branch [-] (see :func:`transfer_velocity`)."""
+    return 3.0 * LOUIS_B * LOUIS_C * neutral_coefficient(z_ref, z0, z0h) * math.sqrt(z_ref / z0)
+
+
+@njit(cache=True, fastmath=True, inline="always")
 def heat_transfer_velocity(t_s, t_a, u, z_ref, z0, z0h, g, w_star):
     """``C_H U_eff`` [m s-1] for the bulk fluxes (see the module notes).
 
@@ -81,9 +109,8 @@ def heat_transfer_velocity(t_s, t_a, u, z_ref, z0, z0h, g, w_star):
     w_star : float [m s-1]   convective velocity scale (0 when stable)
     """
     cn = neutral_coefficient(z_ref, z0, z0h)
-    ueff = math.sqrt(u * u + (GUST_BETA * w_star) * (GUST_BETA * w_star))
-    ri = g * z_ref * (t_a - t_s) / (0.5 * (t_a + t_s) * ueff * ueff)
-    return cn * stability_factor(ri, cn, z_ref, z0) * ueff
+    louis_u = 3.0 * LOUIS_B * LOUIS_C * cn * math.sqrt(z_ref / z0)
+    return transfer_velocity(g * z_ref, t_s, t_a, u, w_star, cn, louis_u)
 
 
 @njit(cache=True, fastmath=True, inline="always")
@@ -92,8 +119,3 @@ def convective_velocity(h_flux, rho, cp, t_a, g, depth):
     if h_flux <= 0.0:
         return 0.0
     return (g * depth * h_flux / (rho * cp * t_a)) ** (1.0 / 3.0)
-
-
-def wind_at_height(u_sensor, z_sensor, z_ref, z0):
-    """Neutral log-law wind at ``z_ref`` from the wind at ``z_sensor`` [m s-1] (common practice)."""
-    return u_sensor * math.log(z_ref / z0) / math.log(z_sensor / z0)
