@@ -68,6 +68,8 @@ def test_grid_layout_and_cf_coordinates(reference):
     lh = ds.liquid_hours_per_year.values
     assert np.all(np.isnan(lh[:, [0, 4], :])) and np.all(np.isfinite(lh[:, 1:4, :]))
     assert ds.attrs["spinup_years"] == 2 and "caution" in ds.attrs
+    # what the humidity rested on is recorded, as in site results (the humidity issue)
+    assert "climatology" in ds.attrs["water_supply"] and "dust" in ds.attrs["dust_model"]
 
 
 @pytest.mark.parametrize("chunk_cells", [1, 4])

@@ -475,6 +475,12 @@ def assemble(sc, store, hashes=None):
         habitability_min_temperature_K=float(hab["min_temperature"]),
     )
     note_short_run(ds, years, planet)
+    if sc["forcing"]["kind"] == "energy_balance":     # what the humidity rested on
+        from .output import WATER_CAUTION
+        from .runner import energy_balance_options
+        ds.attrs["caution"] = CAUTION + " " + WATER_CAUTION
+        for key, value in energy_balance_options(sc)[1].items():
+            ds.attrs[key] = str(value)
     if hashes is not None:
         ds.attrs["input_sha256"] = json.dumps(hashes, sort_keys=True)
     if info.get("start_utc"):
