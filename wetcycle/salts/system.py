@@ -536,6 +536,12 @@ class SaltSystem:
             peritectics=[{k: p[k] for k in ("temperature_K", "molality", "solids", "kind")} for p in self.peritectics()],
             congruent_melting=self.congruent_melting_points(),
             efflorescence_rh=self.efflorescence_rh,
+            supersaturated_molality_max=self.m_ext,
+            supersaturated_molality_validated=self.m_valid,
+            ice_nucleation_rh_ice=self.metastability.get("ice_nucleation_rh_ice"),
+            metastable_deliquescence_depth_K=self.metastability.get("metastable_deliquescence_depth", 0.0),
+            hydrate_time_constant_days=(self.kinetics or {}).get("hydrate_time_constant_days"),
+            hydrate_reference_temperature_K=(self.kinetics or {}).get("hydrate_reference_temperature"),
             supercooling_limit_K=self.supercooling_limit,
             # the time-stepping model follows a supercooled brine down to the warmer of the two
             model_supercooling_floor_K=(None if self.supercooling_limit is None
