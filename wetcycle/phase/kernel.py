@@ -116,7 +116,7 @@ FLAG_EXTRAPOLATED = 8    # the brine lies past m_valid: its water activity is ex
 # positions in the tables' scalar vector (wetcycle.salts.tables.SCALAR_NAMES)
 _T_EUT, _T_SUPER, _ERH, _T_MIN, _T_MAX = S.T_eut, S.T_super, S.erh, S.T_min, S.T_max
 _M_MAX, _M_EXT, _M_VALID, _S_NUC, _MD_DEPTH = S.m_max, S.m_ext, S.m_valid, S.ice_nucleation_rh_ice, S.md_depth
-_TAU, _EA, _T_REFH = S.tau_hydrate, S.ea_hydrate, S.T_ref_hydrate
+_TAU = S.tau_hydrate
 #: Range of Murphy & Koop (2005) for liquid water [K]; water properties are clamped to it.
 T_WATER_MIN, T_WATER_MAX = 123.0, 332.0
 
@@ -207,6 +207,14 @@ def _frac(ga, gb):
 
 
 @njit(cache=True, inline="always", error_model="numpy")
+def _exchange(Tw, P, dfactor, length):
+    """(p_sat,liquid [Pa], vapour conductance kx [kg m-2 s-1 Pa-1]) of the vapour-limited law."""
+    psat = psat_liquid_kernel(Tw)
+    D = dfactor * D_REF * (Tw / 273.15) * math.sqrt(Tw / 273.15) * (1e5 / max(P, 1.0))
+    return psat, D * MW / (R_GAS * Tw * length)
+
+
+@njit(cache=True, inline="always", error_model="numpy")
 def _partition(n, W, T, i, f, tab, k_prev, allow_supersat, ice_ok, erh, m_ext):
     """Lever rule for a closed parcel: returns (state, solid, w_hyd, w_brine, w_ice, n_diss, beyond).
 
@@ -284,29 +292,33 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
     T_eut, T_sup, erh_raw = sc[_T_EUT], sc[_T_SUPER], sc[_ERH]
     T_min, T_max, m_ext, m_valid = sc[_T_MIN], sc[_T_MAX], sc[_M_EXT], sc[_M_VALID]
     S_nuc, md_depth = sc[_S_NUC], sc[_MD_DEPTH]
-    tau_ref, ea, T_refh = sc[_TAU], sc[_EA], sc[_T_REFH]
+    tau_ref = sc[_TAU]
     m_max = sc[_M_MAX]
     has_erh = erh_raw == erh_raw
     erh = erh_raw if has_erh else 2.0
     T_floor = max(T_sup, T_min)
     instant = law.instant
     hyd = tab.hydration
+    st_phase, st_solid, st_wh, st_wb, st_wi, st_nd, st_prev, st_started = st
+    t_lnk, t_msat, t_drh, t_stable, t_mice, t_awice = tab.lnk, tab.msat, tab.drh, tab.stable, tab.mice, tab.awice
+    t_T0, t_dT = tab.T0, tab.dT
+    o_phase, o_liq, o_aw, o_wb, o_wh, o_wi, o_exch, o_flag = out
     for k in range(nstep):
         dtk = dt[k]
         for c in range(ncell):
             Tb_raw = T[k, c]
             RHb = min(max(RH[k, c], 1e-9), 1.0)
             Fb = frost[k, c]
-            if st.started[c] == 0:
-                st.prev[0, c], st.prev[1, c], st.prev[2, c] = Tb_raw, RHb, Fb
-                st.prev[3, c] = 0.0
-                st.started[c] = 1
+            if st_started[c] == 0:
+                st_prev[0, c], st_prev[1, c], st_prev[2, c] = Tb_raw, RHb, Fb
+                st_prev[3, c] = 0.0
+                st_started[c] = 1
             # The frost forcing knows nothing of the salt: what the parcel drew from the current
             # frost cover (prev[3]) is no longer available to it; a frost-free sample ends the episode.
-            used = st.prev[3, c] if Fb > 0.0 else 0.0
+            used = st_prev[3, c] if Fb > 0.0 else 0.0
             Fb = max(Fb - used, 0.0)
             drawn = 0.0
-            Ta_raw, RHa = st.prev[0, c], st.prev[1, c]
+            Ta_raw, RHa = st_prev[0, c], st_prev[1, c]
             flag = 0
             Tb = Tb_raw
             if Tb < T_min or Tb > T_max:
@@ -318,38 +330,36 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
                 flag = FLAG_CLAMPED
                 Tw = min(max(Tw, T_WATER_MIN), T_WATER_MAX)
             Ta = min(max(Ta_raw, T_min), T_max)
-            ib, fb = _loc(Tb, tab.T0, tab.dT, nT)
-            ia, fa = _loc(Ta, tab.T0, tab.dT, nT)
+            ib, fb = _loc(Tb, t_T0, t_dT, nT)
+            ia, fa = _loc(Ta, t_T0, t_dT, nT)
             n = n_salt[c]
-            s0 = st.phase[c]
-            kk = st.solid[c]
-            wh, wb, wi, nd = st.w_hyd[c], st.w_brine[c], st.w_ice[c], st.n_diss[c]
+            s0 = st_phase[c]
+            kk = st_solid[c]
+            wh, wb, wi, nd = st_wh[c], st_wb[c], st_wi[c], st_nd[c]
             W0 = wh + wb + wi
-            d_cur = _lin(tab.drh[kk], ib, fb) if s0 == CRYSTALLINE else 0.0
+            d_cur = _lin(t_drh[kk], ib, fb) if s0 == CRYSTALLINE else 0.0
             # Water's own properties (ice activity, vapour pressure, diffusion) use the true
             # temperature; only the salt's tables are read at the clamped one.  A dry salt below
             # its DRH never looks at ice, so the ice activity is evaluated only where it can be used.
             if Tb_raw > T_MELT:
                 aw_i = 2.0
             elif Tb == Tb_raw:
-                aw_i = _lin(tab.awice, ib, fb)
-            elif s0 != CRYSTALLINE or Fb > 0.0 or not (RHb < d_cur):
+                aw_i = _lin(t_awice, ib, fb)
+            elif s0 != CRYSTALLINE or Fb > 0.0:
                 aw_i = ice_activity_kernel(Tw)
             else:
-                aw_i = 2.0
+                aw_i = -1.0  # a dry salt without frost: evaluated only where it deliquesces
             # air at ice saturation (within ICE_SAT_TOL, or frost present) counts as saturated:
             # over frost the forcing holds vapour exactly at p_ice, so an exact test would be a knife edge
-            ice_sat = Tb_raw <= T_MELT and (Fb > 0.0 or RHb >= aw_i * (1.0 - ICE_SAT_TOL))
+            ice_sat = Tb_raw <= T_MELT and (Fb > 0.0 or (aw_i > 0.0 and RHb >= aw_i * (1.0 - ICE_SAT_TOL)))
             frost_touch = Fb > 0.0 and Tb_raw <= T_MELT
             psat = 0.0
             kx = 0.0
-            if not instant and (s0 != CRYSTALLINE or wb > 0.0 or not (RHb < d_cur)):
-                psat = psat_liquid_kernel(Tw)
-                D = law.dfactor * D_REF * (Tw / 273.15) * math.sqrt(Tw / 273.15) * (1e5 / max(P[k, c], 1.0))
-                kx = D * MW / (R_GAS * Tw * law.diffusion_length)  # kg m-2 s-1 Pa-1
+            if not instant and s0 != CRYSTALLINE:
+                psat, kx = _exchange(Tw, P[k, c], law.dfactor, law.diffusion_length)
             # brine water below which the parcel is not liquid: a fraction of the saturated solution's
-            ks_b = _stable(tab.stable, ib, fb)
-            ms_b = _lin(tab.msat[ks_b], ib, fb) if ks_b >= 0 else math.nan
+            ks_b = _stable(t_stable, ib, fb)
+            ms_b = _lin(t_msat[ks_b], ib, fb) if ks_b >= 0 else math.nan
             W_thr = law.liquid_threshold * n / (ms_b if ms_b == ms_b else m_max)
             liq = 0.0
             W_flux = -1.0  # vapour-limited drying: water the flux alone would leave (-1: unset)
@@ -363,14 +373,14 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
                     # it cannot coexist with brine, so the stable solid decides deliquescence (an
                     # incongruent melt keeps the hydrate's water in the parcel)
                     if ks_b >= 0 and ks_b != kk:
-                        d_s = _lin(tab.drh[ks_b], ib, fb)
+                        d_s = _lin(t_drh[ks_b], ib, fb)
                         if d_s == d_s and RHb >= d_s:
                             kk = ks_b
                             d_b = d_s
                 wet_T = Tb_raw >= T_eut or (not frost_touch and Tb_raw >= T_eut - md_depth)
                 if frost_touch and Tb >= T_eut:
                     # contact melting with water frost up to the liquidus (minutes: Fischer et al. 2014)
-                    mi = _lin(tab.mice, ib, fb)
+                    mi = _lin(t_mice, ib, fb)
                     need = n / mi - W0 if mi == mi else 0.0
                     take = min(max(need, 0.0), Fb)
                     drawn = take
@@ -378,7 +388,11 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
                                                                 erh, m_ext)
                     liq = 1.0 - _frac(Ta - T_eut, Tb - T_eut) if Ta < T_eut else 1.0
                 elif d_b == d_b and RHb >= d_b and wet_T:
-                    d_a = _lin(tab.drh[kk], ia, fa)
+                    if aw_i < 0.0:
+                        aw_i = ice_activity_kernel(Tw) if Tb_raw <= T_MELT else 2.0
+                    if not instant:
+                        psat, kx = _exchange(Tw, P[k, c], law.dfactor, law.diffusion_length)
+                    d_a = _lin(t_drh[kk], ia, fa)
                     tau = _frac(RHa - d_a, RHb - d_b) if RHa < d_a else 0.0
                     if instant:
                         m_eq = _meq(RHb, Tb, tab)
@@ -420,20 +434,22 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
                         if instant or d_b != d_b:
                             wb, nd = 0.0, 0.0
                         elif not (RHb >= d_b):
+                            psat, kx = _exchange(Tw, P[k, c], law.dfactor, law.diffusion_length)
                             wb = max(wb + kx * (RHb - d_b) * psat * dtk, 0.0)
                             nd = wb * ms_b if ms_b == ms_b else 0.0
                             if wb <= 0.0:
                                 wb, nd = 0.0, 0.0
                     # the solid relaxes toward the hydrate stable at (T, RH)
                     if nsolid > 1:
-                        k_eq = _hydrate_at(tab.lnk, hyd, ib, fb, math.log(RHb))
+                        k_eq = _hydrate_at(t_lnk, hyd, ib, fb, math.log(RHb))
                         w_eq = n * hyd[k_eq] * MW
                         if law.hydrate_instant or tau_ref <= 0.0:
                             kk, wh = k_eq, w_eq
                         elif wh != w_eq:
-                            tau_h = tau_ref * math.exp(ea * (1.0 / Tb - 1.0 / T_refh))
-                            wh = w_eq + (wh - w_eq) * math.exp(-dtk / tau_h)
-                            kk = _nearest_hydrate(hyd, wh / (n * MW), kk, k_eq)
+                            x = dtk * _lin(tab.khyd, ib, fb)  # dt / tau(T)
+                            if x > 1e-12:  # (at Mars temperatures tau is centuries: nothing to do)
+                                wh = w_eq + (wh - w_eq) * (math.exp(-x) if x > 1e-6 else 1.0 - x)
+                                kk = _nearest_hydrate(hyd, wh / (n * MW), kk, k_eq)
             elif s0 == FROZEN:
                 # ---------------------------------------------------------------- ice + hydrate
                 if Tb >= T_eut:
@@ -470,7 +486,7 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
                     liq = _frac(Ta - T_eut, Tb - T_eut) if Ta >= T_eut else 0.5
                 else:
                     W = W0
-                    mi_b = _lin(tab.mice, ib, fb) if Tb <= T_MELT else math.nan
+                    mi_b = _lin(t_mice, ib, fb) if Tb <= T_MELT else math.nan
                     if frost_touch and Tb >= T_eut and mi_b == mi_b:
                         # in contact with water frost: the brine stays on the ice liquidus, drawing
                         # water from the frost (contact melting), whatever the air does
@@ -497,7 +513,7 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
                                 # a_w >= ERH; below the ERH (never above the DRH; the DRH where no
                                 # ERH is published) it crystallises and, the air being below the
                                 # DRH, dries at once
-                                e_b = _lin(tab.drh[ks_b], ib, fb)
+                                e_b = _lin(t_drh[ks_b], ib, fb)
                                 if has_erh and erh < e_b:
                                     e_b = erh
                                 if RHb < e_b:
@@ -547,7 +563,7 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
                                                                         erh, m_ext)
                                 eq_brine = False
                             else:
-                                aw_a = _aw_of(st.n_diss[c], st.w_brine[c], Ta, tab)
+                                aw_a = _aw_of(st_nd[c], st_wb[c], Ta, tab)
                                 ai_a = ice_activity_kernel(min(max(Ta_raw, T_WATER_MIN), T_MELT))
                                 kk, wh, wi = _freeze(n, W, ib, fb, tab, kk)
                                 wb, nd = 0.0, 0.0
@@ -559,24 +575,24 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
                         if instant:
                             kk = ks_b if ks_b >= 0 else kk
                             if law.hydrate_instant or tau_ref <= 0.0:
-                                kk = _hydrate_at(tab.lnk, hyd, ib, fb, math.log(RHb)) if nsolid > 1 else kk
+                                kk = _hydrate_at(t_lnk, hyd, ib, fb, math.log(RHb)) if nsolid > 1 else kk
                             wh = n * hyd[kk] * MW
                             wb, wi, nd = 0.0, 0.0, 0.0
                             if had_crystals:
-                                d_a = _lin(tab.drh[kk], ia, fa)
-                                d_b = _lin(tab.drh[kk], ib, fb)
+                                d_a = _lin(t_drh[kk], ia, fa)
+                                d_b = _lin(t_drh[kk], ib, fb)
                                 liq = _frac(RHa - d_a, RHb - d_b)
                             elif beyond:
                                 # solidified at the end of the branch: crossing of a_w(m_ext, T)
                                 liq = _frac(RHa - _aw(m_ext, Ta, tab), RHb - _aw(m_ext, Tb, tab))
                             elif has_erh:
                                 # efflorescence can never lie above the deliquescence RH
-                                e_a = min(erh, _lin(tab.drh[kk], ia, fa))
-                                e_b = min(erh, _lin(tab.drh[kk], ib, fb))
+                                e_a = min(erh, _lin(t_drh[kk], ia, fa))
+                                e_b = min(erh, _lin(t_drh[kk], ib, fb))
                                 liq = _frac(RHa - e_a, RHb - e_b)
                             else:
-                                d_a = _lin(tab.drh[kk], ia, fa)
-                                d_b = _lin(tab.drh[kk], ib, fb)
+                                d_a = _lin(t_drh[kk], ia, fa)
+                                d_b = _lin(t_drh[kk], ib, fb)
                                 liq = _frac(RHa - d_a, RHb - d_b)
                         else:
                             # the brine lasted while the flux removed the water above the dry hydrate
@@ -592,7 +608,7 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
                 if _is_liquid(s0):
                     # the brine ended when its water crossed the threshold
                     if W_flux >= 0.0 and W0 - W_flux > 0.0:
-                        liq = min(max((st.w_brine[c] - W_thr) / (W0 - W_flux), 0.0), 1.0)
+                        liq = min(max((st_wb[c] - W_thr) / (W0 - W_flux), 0.0), 1.0)
                     else:
                         liq = min(liq, 0.5)
                 else:
@@ -605,31 +621,31 @@ def step_block(T, RH, P, frost, dt, n_salt, law, tab, st, out):
                 wb, nd = 0.0, 0.0
                 s1 = FROZEN
             W1 = wh + wb + wi
-            st.phase[c] = s1
-            st.solid[c] = kk
-            st.w_hyd[c], st.w_brine[c], st.w_ice[c], st.n_diss[c] = wh, wb, wi, nd
+            st_phase[c] = s1
+            st_solid[c] = kk
+            st_wh[c], st_wb[c], st_wi[c], st_nd[c] = wh, wb, wi, nd
             wet = _is_liquid(s1)
-            out.phase[k, c] = s1
-            out.liq[k, c] = liq if (wet or liq > 0.0) else 0.0
+            o_phase[k, c] = s1
+            o_liq[k, c] = liq if (wet or liq > 0.0) else 0.0
             if wet:
                 if instant and eq_brine and (s1 == BRINE or s1 == SUPERSATURATED or s1 == SUPERCOOLED) and wi <= 0.0:
-                    out.aw[k, c] = RHb  # equilibrium law: the single-phase brine has a_w = RH by construction
+                    o_aw[k, c] = RHb  # equilibrium law: the single-phase brine has a_w = RH by construction
                 else:
-                    out.aw[k, c] = _aw_of(nd, wb, Tb, tab)
+                    o_aw[k, c] = _aw_of(nd, wb, Tb, tab)
                 if wb > 0.0 and nd / wb > m_valid * (1.0 + 1e-9):
                     flag |= FLAG_EXTRAPOLATED
             else:
-                out.aw[k, c] = math.nan
-            out.wb[k, c] = wb
-            out.wh[k, c] = wh
-            out.wi[k, c] = wi
-            out.exch[k, c] = W1 - W0
-            out.flag[k, c] = flag
-            st.prev[0, c], st.prev[1, c], st.prev[2, c] = Tb_raw, RHb, frost[k, c]
+                o_aw[k, c] = math.nan
+            o_wb[k, c] = wb
+            o_wh[k, c] = wh
+            o_wi[k, c] = wi
+            o_exch[k, c] = W1 - W0
+            o_flag[k, c] = flag
+            st_prev[0, c], st_prev[1, c], st_prev[2, c] = Tb_raw, RHb, frost[k, c]
             if frost[k, c] > 0.0:
-                st.prev[3, c] = used + drawn
-            elif st.prev[3, c] != 0.0:
-                st.prev[3, c] = 0.0  # the frost cover is gone: the next one is a new budget
+                st_prev[3, c] = used + drawn
+            elif st_prev[3, c] != 0.0:
+                st_prev[3, c] = 0.0  # the frost cover is gone: the next one is a new budget
 
 
 @njit(cache=True, inline="always")

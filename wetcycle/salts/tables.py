@@ -218,7 +218,7 @@ S = namedtuple("S", SCALAR_NAMES)(*range(len(SCALAR_NAMES)))
 
 #: The arrays the kernel reads, as one named tuple (numba passes it as a single argument).
 KernelTables = namedtuple("KernelTables", (
-    "T0", "dT", "lnk", "msat", "drh", "stable", "mice", "awice", "hydration", "scal",
+    "T0", "dT", "lnk", "msat", "drh", "stable", "mice", "awice", "khyd", "hydration", "scal",
     "inv_T0", "inv_dT", "inv_ds", "inv_m", "fw_T0", "fw_dT", "fw_du", "fw_lnaw"))
 
 
@@ -230,6 +230,7 @@ class PhaseTables:
     validity range.  Per solid s (index order of ``system.solids``):
     ``lnk[s, i]`` (ln K), ``msat[s, i]`` (dilute-branch saturation molality,
     NaN where none below m_max) and ``drh[s, i]`` (its deliquescence RH).
+    ``khyd[i]`` the rate [s-1] of solid-hydrate changes, 1/tau(T) (0: instant, or no published rate).
     ``stable[i]`` is the index of the stable solid (least soluble), ``mice[i]``
     the ice-liquidus molality (NaN above 273.15 K or beyond m_max; continued
     metastably below the eutectic), ``awice[i]`` the water activity of ice
@@ -255,6 +256,7 @@ class PhaseTables:
     stable: np.ndarray
     mice: np.ndarray
     awice: np.ndarray
+    khyd: np.ndarray
     hydration: np.ndarray
     T_eut: float
     eut_solid: int
@@ -284,7 +286,7 @@ class PhaseTables:
         """The arrays the kernel reads, as a :data:`KernelTables` named tuple."""
         inv, fw = self.inverse, self.forward
         return KernelTables(float(self.T0), float(self.dT), self.lnk, self.msat, self.drh, self.stable, self.mice,
-                            self.awice, self.hydration, self.scalars, inv.T0, inv.dT, inv.ds, inv.m,
+                            self.awice, self.khyd, self.hydration, self.scalars, inv.T0, inv.dT, inv.ds, inv.m,
                             fw.T0, fw.dT, fw.du, fw.lnaw)
 
 
@@ -330,16 +332,18 @@ def build_phase_tables(system, dT=0.25):
     erh = float(erh) if erh is not None else np.nan
     kin = system.kinetics or {}
     tau = float(kin.get("hydrate_time_constant_days", 0.0)) * DAY
+    ea = float(kin.get("hydrate_activation_temperature", 0.0))
+    T_refh = float(kin.get("hydrate_reference_temperature", 298.15))
+    khyd = np.exp(-ea * (1.0 / T - 1.0 / T_refh)) / tau if tau > 0 else np.zeros_like(T)
     return PhaseTables(
         name=system.name, T0=float(T[0]), dT=float(dT), lnk=lnk, msat=msat, drh=drh,
-        stable=stable, mice=mice, awice=awice,
+        stable=stable, mice=mice, awice=awice, khyd=khyd,
         hydration=np.array([s.hydration for s in system.solids], dtype=float),
         T_eut=T_eut, eut_solid=eut_solid, T_super=T_super, erh=erh,
         molar_mass=system.molar_mass, T_min=system.T_min, T_max=system.T_max, m_max=system.m_max,
         m_ext=system.m_ext, m_valid=system.m_valid,
         ice_nucleation_rh_ice=_meta(system, "ice_nucleation_rh_ice", math.inf),
         md_depth=_meta(system, "metastable_deliquescence_depth", 0.0),
-        tau_hydrate=tau, ea_hydrate=float(kin.get("hydrate_activation_temperature", 0.0)),
-        T_ref_hydrate=float(kin.get("hydrate_reference_temperature", 298.15)),
+        tau_hydrate=tau, ea_hydrate=ea, T_ref_hydrate=T_refh,
         packed=system.packed, inverse=build_inverse_table(system), forward=build_forward_table(system),
     )
