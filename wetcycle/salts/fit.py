@@ -65,10 +65,20 @@ UNITS = {"freezing": "K", "solubility": "relative", "eutectic": "K|relative",
          "supersaturated": "aw", "hydration": "RH"}
 
 
-class Model:
-    """Maps a free-parameter vector onto packed Pitzer parameters and ln K coefficients."""
+#: Names accepted by ``free`` (besides the solids' names): the Pitzer parameters and the branch.
+FREE_GROUPS = ("beta0", "beta1", "beta2", "cphi", "supersaturated")
 
-    def __init__(self, info):
+
+class Model:
+    """Maps a free-parameter vector onto packed Pitzer parameters and ln K coefficients.
+
+    ``free``: None (every coefficient the data file's ``fit`` masks allow), or a collection of
+    group names -- Pitzer parameters (``beta0``...), solid names, ``"supersaturated"`` -- to which
+    the fit is restricted; the other coefficients stay at their current (fitted) values.  Used to
+    refit one part of a system to new data without moving what other code was built on.
+    """
+
+    def __init__(self, info, free=None):
         s = info["system"]
         self.info = info
         self.base_coef = np.array(info["coef"], dtype=float)
@@ -84,6 +94,21 @@ class Model:
         self.sup = info.get("supersaturated")
         self.br0 = np.array(self.sup["c"], dtype=float) if self.sup else np.zeros(2)
         self.br_mask = np.array(self.sup["fit"], dtype=bool) if self.sup else np.zeros(2, dtype=bool)
+        if free is not None:
+            free = set(free)
+            unknown = free - set(FREE_GROUPS) - set(self.solid_index)
+            if unknown:
+                from ..errors import ConfigError
+                raise ConfigError(f"free: {sorted(unknown)[0]!r} is not a parameter group of {s['name']}; allowed: "
+                                  f"{', '.join(list(FREE_GROUPS) + list(self.solid_index))}")
+            for r, name in enumerate(pz.PARAM_NAMES):
+                if name not in free:
+                    self.mask[r] = False
+            for name, j in self.solid_index.items():
+                if name not in free:
+                    self.lnk_mask[j] = False
+            if "supersaturated" not in free:
+                self.br_mask[:] = False
         self.n_free = int(self.mask.sum() + self.lnk_mask.sum() + self.br_mask.sum())
 
     def x0(self):
@@ -258,9 +283,12 @@ def _sigma_units(table):
     return np.full(table.temperature.size, table.sigma)
 
 
-def fit_info(info, use=("fit",), verbose=0):
-    """Fit the free coefficients of a parsed data file; returns (coef, lnk, result, model)."""
-    model = Model(info)
+def fit_info(info, use=("fit",), verbose=0, free=None):
+    """Fit the free coefficients of a parsed data file; returns (coef, lnk, result, model).
+
+    ``free`` restricts the fit to some parameter groups (see :class:`Model`).
+    """
+    model = Model(info, free)
     tables = [t for t in info["tables"] if t.use in use]
     sigmas = [_sigma_units(t) for t in tables]
 
@@ -284,6 +312,8 @@ def fit_info(info, use=("fit",), verbose=0):
     x0 = model.x0()
     if model.n_free == 0:
         coef, lnk = model.unpack(x0)
+        if model.sup is not None:
+            model.fitted_branch_c = model.br0.copy()
         return coef, lnk, None, model
     result = least_squares(fun, x0, method="trf", x_scale="jac", max_nfev=4000, verbose=verbose)
     coef, lnk = model.unpack(result.x)
@@ -361,9 +391,13 @@ def write_fitted(path, text):
     path.write_text(head + text, encoding="utf-8")
 
 
-def fit_file(path, from_scratch=False, verbose=0):
-    """Fit one data file; returns (text of the fitted section, residual report, result)."""
+def fit_file(path, from_scratch=False, verbose=0, free=None):
+    """Fit one data file; returns (text of the fitted section, residual report, result).
+
+    ``free``: restrict the fit to these parameter groups (see :class:`Model`); an empty collection
+    only recomputes the residuals of the stored coefficients.
+    """
     info = datafile.read(path, use_fitted=not from_scratch)
-    coef, lnk, result, model = fit_info(info, verbose=verbose)
+    coef, lnk, result, model = fit_info(info, verbose=verbose, free=free)
     bc = getattr(model, "fitted_branch_c", None)
     return fitted_section(info, coef, lnk, result, bc), residual_report(info, coef, lnk, bc), result
