@@ -195,8 +195,9 @@ def test_vapour_only_deliquescence_is_slow_ice_contact_is_minutes():
 
 def test_epsomite_dehydrates_at_the_chou_seal_humidity():
     # Chou & Seal (2003; read): epsomite = hexahydrite + H2O at RH 0.529 at 25 °C.  A dry-down of
-    # crystalline MgSO4 with instant hydrate changes leaves the heptahydrate within 0.01 of it (the
-    # fit's sigma).
+    # crystalline MgSO4 with instant hydrate changes leaves the heptahydrate within 0.02 of it (twice
+    # the fit table's sigma), and exactly where the system's own solubility products put it (to the
+    # ramp's step, 5e-4).
     rh = np.linspace(0.70, 0.40, 601)
     ds = wetcycle.run_series("MgSO4", np.arange(rh.size) * 60.0, np.full(rh.size, 298.15), rh,
                              law="equilibrium", hydrate_kinetics="instant")
@@ -205,7 +206,10 @@ def test_epsomite_dehydrates_at_the_chou_seal_humidity():
     assert waters[0] == pytest.approx(7.0)
     i = first(waters < 6.999)
     ref = RM.chou_seal_2003_fh2o_pa(298.15) / float(saturation_vapor_pressure_liquid(298.15))
-    assert rh[i] == pytest.approx(ref, abs=0.01)
+    assert rh[i] == pytest.approx(ref, abs=0.02)
+    model = [h["rh"] for h in salts.load("MgSO4").hydration_transitions(298.15)
+             if {h["lower"], h["higher"]} == {"MgSO4·6H2O", "MgSO4·7H2O"}][0]
+    assert rh[i] == pytest.approx(model, abs=5e-4)
 
 
 def test_mgso4_keeps_its_hydration_through_a_cold_night():
