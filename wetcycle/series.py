@@ -157,7 +157,7 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law=DEFAULTS["
     t_attrs = time_attrs({"start_utc": start} if start else {})
     ds = xr.Dataset({k: ("time", v, attrs(k)) for k, v in data.items()}, coords={"time": ("time", t, t_attrs)})
     ds = add_time_bounds(ds, t, 0.0, t_attrs)
-    ds.attrs.update(title=f"wetcycle series run: {model.tables.name}", salt=model.tables.name,
+    ds.attrs.update(title=f"wetcycle series run: {model.tables.name}", salt=model.tables.name, law=model.law,
                     loading_kg_m2=float(loading_kg_m2), wetcycle_version=__version__, Conventions="CF-1.8",
                     **phase_settings_attrs(model))
     return ds

@@ -267,7 +267,6 @@ def phase_settings_attrs(model):
     if isinstance(model, dict):
         model = PhaseModel.from_settings(None, model, tables=_NO_TABLES)
     out = {f"phase_{k}": v for k, v in model.settings.items()}
-    out["law"] = model.law
     out["phase_liquid_threshold_note"] = ("brine holding less than this fraction of the water of the salt's saturated "
                                           "solution is a damp salt, not counted as liquid")
     return out
