@@ -43,6 +43,8 @@ def scenario(out, *, cells=None, sols=669, steps=48, spinup=2, global_grid=False
     doc["grid"]["chunk_cells"] = chunk_cells
     doc["clock"].update(sols=sols, steps_per_sol=steps, spinup_max_years=spinup)
     doc["clock"].pop("years", None)
+    # named law (DESIGN decision 2 and 11): the README's grid figures were measured with the equilibrium law
+    doc.setdefault("phase", {})["law"] = "equilibrium"
     doc["scenario"]["output"] = str(out)
     return scenario_from_dict(doc)
 

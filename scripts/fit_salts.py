@@ -4,6 +4,8 @@
     python scripts/fit_salts.py --all             # every file in wetcycle/salts/data
     python scripts/fit_salts.py NaCl --dry-run    # print residuals, change nothing
     python scripts/fit_salts.py path/to/My.toml   # a file of one's own
+    python scripts/fit_salts.py MgSO4 --free "MgSO4·6H2O"   # refit one part, hold the rest
+    python scripts/fit_salts.py KCl --free                  # residuals of the stored coefficients only
 
 The part of each file above the marker line is never touched.  Residuals are
 printed per table in the table's own units (K, relative molality, RH, phi, a_w)
@@ -35,13 +37,16 @@ def main(argv=None):
     ap.add_argument("--dry-run", action="store_true", help="print residuals only")
     ap.add_argument("--from-scratch", action="store_true", help="start from the hand-written values, not the last fit")
     ap.add_argument("-v", "--verbose", type=int, default=0, help="least_squares verbosity (0-2)")
+    ap.add_argument("--free", nargs="*", default=None, metavar="GROUP",
+                    help="refit only these groups (Pitzer parameter names, solid names, supersaturated), holding "
+                         "the rest at their stored values; with no GROUP, only recompute residuals")
     a = ap.parse_args(argv)
     try:
         paths = sorted(DATA_DIR.glob("*.toml")) if a.all else [_path(s) for s in a.systems]
         if not paths:
             ap.error("name at least one system, or --all")
         for path in paths:
-            text, report, result = fit.fit_file(path, from_scratch=a.from_scratch, verbose=a.verbose)
+            text, report, result = fit.fit_file(path, from_scratch=a.from_scratch, verbose=a.verbose, free=a.free)
             status = "no free parameters" if result is None else f"cost {result.cost:.4g}, {result.nfev} evaluations"
             print(f"== {path.name}: {status}")
             for r in report:

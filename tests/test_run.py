@@ -89,8 +89,14 @@ def test_statistics_agree_with_saved_series(demo_result):
     assert np.allclose(ds.liquid_hours, liquid_h * years, rtol=1e-5)
     assert np.allclose(ds.liquid_hours_by_local_time.sum("hour_bin"), ds.liquid_hours_per_year, rtol=1e-5)
     assert np.all(ds.habitable_hours_per_year <= ds.liquid_hours_per_year + 1e-9)
-    # liquid_water > 0 exactly when the state is a liquid one
-    assert np.array_equal((ds.liquid_water > 0).values, np.isin(ds.phase_state.values, states.LIQUID))
+    # a liquid state holds brine water; a crystalline one may hold only a sub-threshold film (a damp salt)
+    liquid = np.isin(ds.phase_state.values, states.LIQUID)
+    assert np.all(ds.liquid_water.values[liquid] > 0)
+    assert np.all(ds.liquid_water.values[~liquid & (ds.phase_state.values != states.CRYSTALLINE)] == 0)
+    # the water-weighted statistic: brine water over the liquid time, at most (max water) x (hours)
+    lw_max = ds.liquid_water.where(liquid).max("time").fillna(0.0)
+    assert np.all(ds.liquid_water_hours_per_year <= lw_max * ds.liquid_hours_per_year * (1 + 1e-6) + 1e-12)
+    assert np.all((ds.liquid_water_hours_per_year > 0) == (ds.liquid_hours_per_year > 0))
 
 
 def _water_balance(ds):
@@ -239,12 +245,17 @@ def test_site_series_carry_validity_flag_and_limit_notes(demo_result):
     from wetcycle.output import summary_text
     demo_result = open_result(demo_result[1])  # as read back from the file
     vf = demo_result["validity_flag"]
-    assert vf.dims == ("salt", "site", "time") and list(vf.attrs["flag_masks"]) == [1, 2, 4]
-    assert len(vf.attrs["flag_meanings"].split()) == 3
+    assert vf.dims == ("salt", "site", "time") and list(vf.attrs["flag_masks"]) == [1, 2, 4, 8]
+    assert len(vf.attrs["flag_meanings"].split()) == 4
     # the statistics count the bits of the saved series
     for k, bit in (("clamped_steps", 1), ("molality_limit_steps", 2), ("lower_limit_freezes", 4)):
         np.testing.assert_array_equal(demo_result[k].values, ((vf.values & bit) != 0).sum(axis=-1))
     lf = demo_result["liquid_fraction"].values
+    np.testing.assert_array_equal(demo_result["extrapolated_liquid_steps"].values,
+                                  (((vf.values & 8) != 0) & (lf > 0)).sum(axis=-1))
+    # the phase settings, the liquid threshold among them, are recorded
+    assert demo_result.attrs["phase_liquid_threshold"] == pytest.approx(0.01)
+    assert demo_result.attrs["law"] == demo_result.attrs["phase_law"]
     np.testing.assert_array_equal(demo_result["clamped_liquid_steps"].values,
                                   (((vf.values & 1) != 0) & (lf > 0)).sum(axis=-1))
     text = summary_text(demo_result)

@@ -81,4 +81,6 @@ def test_validity_is_enforced():
     with pytest.raises(ValidityError, match="temperature"):
         s.deliquescence_rh(s.T_min - 5.0)
     with pytest.raises(ValidityError, match="molality"):
-        s.water_activity(s.m_max + 1.0, 280.0)
+        s.water_activity(s.m_ext + 1.0, 280.0)
+    with pytest.raises(ValidityError, match="molality"):
+        s.osmotic_coefficient(s.m_max + 1.0, 280.0)  # Pitzer quantities stop at m_max

@@ -95,8 +95,17 @@ def cmd_salt(args):
     floor = info["model_supercooling_floor_K"]
     note = (f" (the model follows brine down to {floor:.1f} K, its validity limit)"
             if floor is not None and floor != info["supercooling_limit_K"] else "")
-    print(f"efflorescence RH: {_fmt(info['efflorescence_rh'], '.2f')};  "
-          f"supercooling limit: {_fmt(info['supercooling_limit_K'], '.1f')} K{note}")
+    erh = info["efflorescence_rh"]
+    erh_text = "none observed" if erh == 0 else _fmt(erh, ".2f")
+    print(f"efflorescence RH: {erh_text};  supercooling limit: {_fmt(info['supercooling_limit_K'], '.1f')} K{note}")
+    if info["supersaturated_molality_max"] > s.m_max:
+        print(f"supersaturated brine followed to {info['supersaturated_molality_max']:g} mol/kg "
+              f"(published data to {info['supersaturated_molality_validated']:g}; beyond: extrapolated)")
+    print(f"ice nucleates in brine at RH over ice {_fmt(info['ice_nucleation_rh_ice'], '.2f')}"
+          + (f"; deliquescence seen down to {info['metastable_deliquescence_depth_K']:g} K below the eutectic"
+             if info["metastable_deliquescence_depth_K"] else "")
+          + (f"; solid hydrates change with a time constant of {info['hydrate_time_constant_days']:g} d "
+             f"at {info['hydrate_reference_temperature_K']:g} K" if info["hydrate_time_constant_days"] else ""))
     if info["at"]:
         head = ("T [K]", "stable solid", "m_sat [mol/kg]", "DRH", "a_w,ice", "m_ice [mol/kg]", "hydration RH")
         rows = []

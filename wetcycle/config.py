@@ -16,7 +16,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .errors import ConfigError, WetcycleError, shown
-from .phase.model import TIME_LAWS, time_law
+from .phase.model import DEFAULTS as PHASE_DEFAULTS
+from .phase.model import HYDRATE_KINETICS, TIME_LAWS, hydrate_kinetics, time_law
 from .stats import HABITABILITY_DEFAULTS
 
 FORCING_KINDS = ("energy_balance", "prescribed", "chamber", "file")
@@ -130,12 +131,18 @@ SCHEMA = {
     },
     "salt": {
         "name": (str, REQUIRED, None, None, "a salt system, e.g. NaCl, Mg(ClO4)2"),
-        "loading": (NUM, 0.05, 1e-6, 100.0, "kg m-2 of anhydrous salt"),
+        "loading": (NUM, PHASE_DEFAULTS["loading_kg_m2"], 1e-6, 100.0, "kg m-2 of anhydrous salt"),
     },
     "phase": {
-        "law": (str, "equilibrium", None, None, " | ".join(TIME_LAWS)),
-        "layer_thickness": (NUM, 0.01, 1e-5, 10.0, "m (vapour-limited law)"),
-        "diffusivity_factor": (NUM, 1.0, 1e-4, 1.0, "porosity/tortuosity factor (vapour-limited law)"),
+        "law": (str, PHASE_DEFAULTS["law"], None, None, " | ".join(TIME_LAWS)),
+        "diffusion_length": (NUM, PHASE_DEFAULTS["diffusion_length_m"], 1e-7, 1.0,
+                             "m: diffusion path through the salt's own crust or grains (vapour-limited law); "
+                             "not the overburden"),
+        "diffusivity_factor": (NUM, PHASE_DEFAULTS["diffusivity_factor"], 1e-4, 1.0,
+                               "porosity/tortuosity factor (vapour-limited law)"),
+        "liquid_threshold": (NUM, PHASE_DEFAULTS["liquid_threshold"], 0.0, 0.5,
+                             "fraction of the saturated solution's water below which brine is not liquid"),
+        "hydrate_kinetics": (str, PHASE_DEFAULTS["hydrate_kinetics"], None, None, " | ".join(HYDRATE_KINETICS)),
         "frost_contact": (bool, True, None, None, "salts touch surface water frost"),
     },
     "output": {
@@ -175,7 +182,8 @@ def json_schema():
     are left to ``wetcycle run``.
     """
     jtypes = {str: "string", bool: "boolean", int: "integer", dict: "object", NUM: "number", list: "array"}
-    enums = {("forcing", "kind"): list(FORCING_KINDS), ("phase", "law"): list(TIME_LAWS)}
+    enums = {("forcing", "kind"): list(FORCING_KINDS), ("phase", "law"): list(TIME_LAWS),
+             ("phase", "hydrate_kinetics"): list(HYDRATE_KINETICS)}
 
     def table(name, fields):
         props, required = {}, []
@@ -361,6 +369,7 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
                           "(periodicity needs two years to compare)")
     try:
         tables["phase"]["law"] = time_law(tables["phase"]["law"])
+        tables["phase"]["hydrate_kinetics"] = hydrate_kinetics(tables["phase"]["hydrate_kinetics"])
     except WetcycleError as exc:
         raise ConfigError(f"{source}: phase.{exc}") from None
     from .salts import load as load_salt

@@ -49,6 +49,7 @@ from .inputs import fingerprint, input_hashes
 from .output import (CAUTION, add_crs, add_time_bounds, check_output_path, frame_statistics, limit_notes,
                      note_short_run, set_new_file_mode, time_attrs, write_result)
 from .runner import run_period
+from .phase.model import phase_settings_attrs
 from .stats import Accumulator
 from .vocabulary import attrs
 
@@ -473,6 +474,7 @@ def assemble(sc, store, hashes=None):
         chunk_cells=int(sc["grid"]["chunk_cells"]),
         habitability_min_water_activity=float(hab["min_water_activity"]),
         habitability_min_temperature_K=float(hab["min_temperature"]),
+        **phase_settings_attrs(sc["phase"]),
     )
     note_short_run(ds, years, planet)
     if sc["forcing"]["kind"] == "energy_balance":     # what the humidity rested on

@@ -21,6 +21,7 @@ import xarray as xr
 
 from . import __version__
 from .errors import ConfigError, InputDataError, OutputError
+from .phase.model import phase_settings_attrs
 from .vocabulary import CRS, attrs
 
 CAUTION = ("Model estimates with stated uncertainties, not evidence of liquid water or of life. "
@@ -101,6 +102,7 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
         habitability_min_water_activity=float(hab["min_water_activity"]),
         habitability_min_temperature_K=float(hab["min_temperature"]),
         spinup_years=int(src.info.get("spinup_years", 0)),
+        **phase_settings_attrs(sc["phase"]),
     )
     for key in ("start_utc", "forcing_file", "forcing_file_sha256", "forcing_programme_text", "water_supply",
                 "water_supply_sha256", "dust_model", "pressure_model"):
@@ -132,7 +134,8 @@ def frame_statistics(ds, sc, coverage):
     return ds.assign_coords(ls_bin_coverage=("ls_bin", coverage, attrs("ls_bin_coverage")))
 
 
-PER_YEAR = ("liquid_hours_per_year", "habitable_hours_per_year", "wet_events_per_year", "liquid_hours_by_local_time")
+PER_YEAR = ("liquid_hours_per_year", "liquid_water_hours_per_year", "habitable_hours_per_year", "wet_events_per_year",
+            "liquid_hours_by_local_time")
 
 
 def note_short_run(ds, years, planet):
@@ -425,10 +428,12 @@ def limit_notes(ds):
                    "not statistics of a whole year.")
     names = (("clamped_liquid_steps", "step(s) with brine outside the salt's validity temperature range "
               "(salt properties taken at the nearest valid temperature)"),
-             ("molality_limit_steps", "step(s) in which a brine was crystallised at the model's molality limit "
-              "before its efflorescence RH"),
+             ("molality_limit_steps", "step(s) in which a crystal-free brine reached the end of the model's "
+              "supersaturated range before its efflorescence RH and was solidified there"),
              ("lower_limit_freezes", "freeze(s) of supercooled brine forced at the salt's lower validity "
-              "limit (liquid hours below it are not counted)"))
+              "limit (liquid hours below it are not counted)"),
+             ("extrapolated_liquid_steps", "step(s) with brine more concentrated than the published water-activity "
+              "data (its water content extrapolated)"))
     for salt in ds.salt.values:
         parts = []
         for k, text in names:

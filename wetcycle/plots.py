@@ -612,10 +612,21 @@ def diagram_figure(name, *, trajectory=None, site=0, T_range=None, n_points=400)
     if eut and lo <= Te <= hi:
         ax.axvline(Te, color="black", lw=1.2, zorder=4)
         handles.append(Line2D([], [], color="black", lw=1.2, label=f"eutectic {Te:.1f} K"))
-    if erh is not None:
+    if erh:
         ax.axhline(erh, color="#D55E00", lw=1.2, ls="--", zorder=4)
         handles.append(Line2D([], [], color="#D55E00", lw=1.2, ls="--",
                               label=f"efflorescence RH {erh:.2f}\n(brine persists above it)"))
+    elif erh is not None:
+        handles.append(Line2D([], [], ls="", label="no efflorescence observed: a drying brine\n"
+                                                   "persists to the end of its range"))
+    s_nuc = system.metastability.get("ice_nucleation_rh_ice")
+    if s_nuc and cold.any():
+        lim = np.where(cold, s_nuc * aw_ice, np.nan)
+        ax.plot(T, np.where(lim <= 1.0, lim, np.nan), color=STATE_COLOURS[BRINE_WITH_ICE], lw=1.0, ls=(0, (1, 1)),
+                zorder=3)
+        handles.append(Line2D([], [], color=STATE_COLOURS[BRINE_WITH_ICE], lw=1.0, ls=(0, (1, 1)),
+                              label=f"ice nucleates in brine (RH over ice {s_nuc:.2f});\n"
+                                    "below it, brine without ice stays liquid"))
     # trajectory
     if traj is not None:
         tT, trh, ph, where = traj

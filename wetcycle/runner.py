@@ -446,10 +446,8 @@ def bin_coverage(sc, src=None):
 def phase_models(sc, tables=None):
     """One :class:`PhaseModel` per ``[[salt]]`` of the scenario; ``tables`` (salt name -> PhaseTables)
     are used as given when passed (a worker process never looks a salt up by name)."""
-    ph = sc["phase"]
-    return [PhaseModel(s["name"], law=ph["law"], layer_thickness_m=ph["layer_thickness"],
-                       diffusivity_factor=ph["diffusivity_factor"],
-                       tables=None if tables is None else tables[s["name"]]) for s in sc.salts]
+    return [PhaseModel.from_settings(s["name"], sc["phase"], tables=None if tables is None else tables[s["name"]])
+            for s in sc.salts]
 
 
 def statistics(sc, tables=None, timings=None):
@@ -527,7 +525,7 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
             r = m.step(states[j], d["salt_temperature"], d["relative_humidity"], d["surface_pressure"], frost,
                        blk.dt_s)
             acc.add(r.liquid_fraction, r.phase, r.water_activity, d["salt_temperature"], season[blk.i0:blk.i1],
-                    blk.ltst_h, r.clamped, blk.dt_s)
+                    blk.ltst_h, r.validity_flag, blk.dt_s, r.liquid_water)
             if water_cycle:
                 gain = np.maximum(r.exchanged, 0.0)
                 uptake[j] += _sum_steps(gain)
@@ -541,7 +539,7 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
                 ps["ice_water"].append(r.ice_water.astype(np.float32))
                 ps["liquid_fraction"].append(r.liquid_fraction.astype(np.float32))
                 ps["water_exchanged"].append(r.exchanged)  # float64: the water balance closes to rounding
-                ps["validity_flag"].append(r.clamped.astype(np.int8))
+                ps["validity_flag"].append(r.validity_flag.astype(np.int8))
         if keep:
             for k in series_keys:
                 series[k].append(np.asarray(d[k], dtype=np.float32))

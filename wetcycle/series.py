@@ -2,7 +2,7 @@
 
 >>> import numpy as np, wetcycle
 >>> t = np.arange(0, 7200.0, 60.0)
->>> ds = wetcycle.run_series("NaCl", t, np.full(t.size, 280.0), np.linspace(0.6, 0.9, t.size))
+>>> ds = wetcycle.run_series("NaCl", t, np.full(t.size, 280.0), np.linspace(0.6, 0.9, t.size), law="equilibrium")
 >>> bool(ds.liquid_water[-1] > 0)
 True
 """
@@ -13,13 +13,15 @@ import numpy as np
 import xarray as xr
 
 from . import __version__
-from .errors import ConfigError, shown
+from .errors import ConfigError, InputDataError, shown
 from .forcing.prescribed import RANGES
-from .phase import PhaseModel
 from .output import add_time_bounds, time_attrs
+from .phase import DEFAULTS, PhaseModel
+from .phase.model import phase_settings_attrs
 from .vocabulary import attrs
 
-OPTIONS = ("loading_kg_m2", "surface_pressure_Pa", "frost_kg_m2", "layer_thickness_m", "diffusivity_factor")
+OPTIONS = ("law", "loading_kg_m2", "surface_pressure_Pa", "frost_kg_m2", "diffusion_length_m",
+           "diffusivity_factor", "liquid_threshold", "hydrate_kinetics")
 
 
 def elapsed_seconds(times, field="time"):
@@ -66,8 +68,16 @@ def _non_negative(field, value, shape, strict=False):
     return a
 
 
-def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibrium", **options):
+def run_series(salt, time_s, temperature_K, relative_humidity, *, law=DEFAULTS["law"],
+               loading_kg_m2=DEFAULTS["loading_kg_m2"], surface_pressure_Pa=600.0, frost_kg_m2=0.0,
+               diffusion_length_m=DEFAULTS["diffusion_length_m"], diffusivity_factor=DEFAULTS["diffusivity_factor"],
+               liquid_threshold=DEFAULTS["liquid_threshold"], hydrate_kinetics=DEFAULTS["hydrate_kinetics"]):
     """Step one salt through a series and return an ``xarray.Dataset`` over ``time``.
+
+    The defaults are the phase model's one set (:data:`wetcycle.phase.DEFAULTS`, the same as a
+    scenario's): the vapour-limited law over 2.5 mm with 0.05 kg m-2 of salt.  For an
+    equilibrium question or a replay of micrometre particles in a lab cell, pass
+    ``law="equilibrium"``.
 
     Parameters
     ----------
@@ -78,56 +88,57 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibri
         cftime dates): dates give the result a CF time coordinate from the first date.
     temperature_K : array [K], same length
     relative_humidity : array [-], w.r.t. liquid water, in [0, 1]
-    law : {"equilibrium", "vapour_limited"}
-    loading_kg_m2 : float [kg m-2], default 0.01
+    law : {"vapour_limited", "equilibrium"}
+    loading_kg_m2 : float [kg m-2]
         Anhydrous salt per unit area.
     surface_pressure_Pa : float or array [Pa], default 600
         Gas pressure (sets vapour diffusivity in the vapour-limited law).
     frost_kg_m2 : float or array [kg m-2], default 0
         Water frost in contact with the salt (contact melting at the eutectic).
-    layer_thickness_m, diffusivity_factor : vapour-limited law settings
-        (see :class:`wetcycle.phase.PhaseModel`).
+    diffusion_length_m, diffusivity_factor, liquid_threshold, hydrate_kinetics :
+        phase-model settings (see :class:`wetcycle.phase.PhaseModel`).
 
     Returns
     -------
     xarray.Dataset with ``phase_state``, ``brine_water_activity``, ``liquid_water``
-    (> 0 exactly when brine is present), ``liquid_fraction`` (of each step, crossings
-    placed inside the step), ``hydrate_water``, ``ice_water``, ``water_exchanged``,
-    ``validity_flag`` and the forcing, with CF attributes.
+    (brine water; a sub-threshold film on a damp crystalline salt is not liquid),
+    ``liquid_fraction`` (of each step, crossings placed inside the step), ``hydrate_water``,
+    ``ice_water``, ``water_exchanged``, ``validity_flag`` and the forcing, with CF attributes;
+    the phase-model settings and the liquid threshold are global attributes.
 
     Raises
     ------
+    InputDataError
+        For mismatched lengths, non-increasing time, temperature outside 50-400 K (the forcing
+        range), RH outside [0, 1] or non-finite values.
     ConfigError
-        For an unknown option, mismatched lengths, non-increasing time, temperature
-        outside 50-400 K (the forcing range), RH outside [0, 1] or non-finite values.
+        For a setting outside its range (the law, the loading, a negative pressure or frost...) or
+        times that are neither seconds nor real-calendar dates.
     """
-    unknown = set(options) - set(OPTIONS)
-    if unknown:
-        raise ConfigError(f"option: {sorted(unknown)[0]!r} is not known; allowed: {', '.join(OPTIONS)}")
     t, start = elapsed_seconds(time_s, "time_s")
     T = np.asarray(temperature_K, dtype=float)
     rh = np.asarray(relative_humidity, dtype=float)
     if t.ndim != 1 or t.size < 2:
-        raise ConfigError("time_s: needs a 1-D series of at least two samples")
+        raise InputDataError("time_s: needs a 1-D series of at least two samples")
     for name, a in (("temperature_K", T), ("relative_humidity", rh)):
         if a.shape != t.shape:
-            raise ConfigError(f"{name}: length {a.size} differs from time_s ({t.size})")
+            raise InputDataError(f"{name}: length {a.size} differs from time_s ({t.size})")
         if not np.all(np.isfinite(a)):
-            raise ConfigError(f"{name}: non-finite value at index {int(np.flatnonzero(~np.isfinite(a))[0])}")
+            raise InputDataError(f"{name}: non-finite value at index {int(np.flatnonzero(~np.isfinite(a))[0])}")
     if np.any(np.diff(t) <= 0):
-        raise ConfigError(f"time_s: must increase strictly (index {int(np.flatnonzero(np.diff(t) <= 0)[0]) + 1})")
+        raise InputDataError(f"time_s: must increase strictly (index {int(np.flatnonzero(np.diff(t) <= 0)[0]) + 1})")
     lo, hi = RANGES["temperature_K"]
     if np.any((T < lo) | (T > hi)):
-        raise ConfigError(f"temperature_K: {float(T[(T < lo) | (T > hi)][0])!r} is outside {lo:g}-{hi:g} K "
-                          "(kelvin, not degrees Celsius)")
+        raise InputDataError(f"temperature_K: {float(T[(T < lo) | (T > hi)][0])!r} is outside {lo:g}-{hi:g} K "
+                             "(kelvin, not degrees Celsius)")
     if np.any((rh < 0) | (rh > 1)):
-        raise ConfigError(f"relative_humidity: {float(rh[(rh < 0) | (rh > 1)][0])!r} is outside [0, 1] (a fraction, not %)")
-    loading = options.get("loading_kg_m2", 0.01)
-    P = _non_negative("surface_pressure_Pa", options.get("surface_pressure_Pa", 600.0), t.shape, strict=True)
-    frost = _non_negative("frost_kg_m2", options.get("frost_kg_m2", 0.0), t.shape)
-    model = PhaseModel(salt, law=law, layer_thickness_m=options.get("layer_thickness_m", 0.01),
-                       diffusivity_factor=options.get("diffusivity_factor", 1.0))
-    state = model.initial_state(1, loading, T[0], rh[0])
+        raise InputDataError(f"relative_humidity: {float(rh[(rh < 0) | (rh > 1)][0])!r} is outside [0, 1] "
+                             "(a fraction, not %)")
+    P = _non_negative("surface_pressure_Pa", surface_pressure_Pa, t.shape, strict=True)
+    frost = _non_negative("frost_kg_m2", frost_kg_m2, t.shape)
+    model = PhaseModel(salt, law=law, diffusion_length_m=diffusion_length_m, diffusivity_factor=diffusivity_factor,
+                       liquid_threshold=liquid_threshold, hydrate_kinetics=hydrate_kinetics)
+    state = model.initial_state(1, loading_kg_m2, T[0], rh[0])
     dt = np.concatenate([[0.0], np.diff(t)])
     r = model.step(state, T[:, None], rh[:, None], P[:, None], frost[:, None], dt)
     data = {
@@ -138,7 +149,7 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibri
         "ice_water": r.ice_water[:, 0],
         "liquid_fraction": r.liquid_fraction[:, 0],
         "water_exchanged": r.exchanged[:, 0],
-        "validity_flag": r.clamped[:, 0].astype(np.int8),
+        "validity_flag": r.validity_flag[:, 0].astype(np.int8),
         "salt_temperature": T,
         "relative_humidity": rh,
         "surface_pressure": np.array(P),
@@ -147,5 +158,6 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law="equilibri
     ds = xr.Dataset({k: ("time", v, attrs(k)) for k, v in data.items()}, coords={"time": ("time", t, t_attrs)})
     ds = add_time_bounds(ds, t, 0.0, t_attrs)
     ds.attrs.update(title=f"wetcycle series run: {model.tables.name}", salt=model.tables.name, law=model.law,
-                    loading_kg_m2=float(loading), wetcycle_version=__version__, Conventions="CF-1.8")
+                    loading_kg_m2=float(loading_kg_m2), wetcycle_version=__version__, Conventions="CF-1.8",
+                    **phase_settings_attrs(model))
     return ds

@@ -54,7 +54,8 @@ VARIABLES = {
     # phase state
     "phase_state": ("1", "phase state of the salt", None),
     "brine_water_activity": ("1", "water activity of the brine (NaN without brine)", None),
-    "liquid_water": ("kg m-2", "liquid water held as brine per unit area", None),
+    "liquid_water": ("kg m-2", "water held as brine per unit area (below the liquid threshold: a damp salt, "
+                     "not counted as liquid)", None),
     "hydrate_water": ("kg m-2", "water held in salt hydrates per unit area", None),
     "ice_water": ("kg m-2", "water held as ice formed from the salt's brine per unit area", None),
     "liquid_fraction": ("1", "fraction of the step with liquid brine present", None),
@@ -67,6 +68,7 @@ VARIABLES = {
     "month_coverage": ("1", "times each calendar month was simulated (simulated time in it / its length)", None),
     # totals over the simulated time (always present)
     "liquid_hours": ("hour", "hours with liquid brine over the simulated time", None),
+    "liquid_water_hours": ("kg m-2 h", "time integral of the liquid brine water over the simulated time", None),
     "habitable_hours": ("hour", "hours with brine meeting both habitability thresholds over the simulated time",
                         None),
     "wet_events": ("1", "number of transitions from no liquid to liquid over the simulated time", None),
@@ -74,6 +76,7 @@ VARIABLES = {
                               None),
     # per-year statistics: units name the year (see :func:`per_year_units`)
     "liquid_hours_per_year": ("h {year}-1", "hours per year with liquid brine", None),
+    "liquid_water_hours_per_year": ("kg m-2 h {year}-1", "time integral of the liquid brine water per year", None),
     "longest_liquid_spell_hours": ("hour", "longest continuous spell with liquid brine", None),
     "wet_events_per_year": ("{year}-1", "number of transitions from no liquid to liquid per year", None),
     "habitable_hours_per_year": ("h {year}-1", "hours per year with brine meeting both habitability thresholds",
@@ -87,7 +90,8 @@ VARIABLES = {
     "clamped_steps": ("1", "steps whose temperature lay outside the salt's validity range", None),
     "clamped_liquid_steps": ("1", "steps with liquid brine whose temperature lay outside the salt's validity range",
                              None),
-    "molality_limit_steps": ("1", "steps in which a brine was crystallised at the model's molality limit", None),
+    "molality_limit_steps": ("1", "steps in which a crystal-free brine reached the end of the model's supersaturated "
+                             "range before its efflorescence RH and was solidified there", None),
     "salt_water_uptake": ("kg m-2", "water taken up by the salt from vapour or frost over the run", None),
     "surface_water_delivered": ("kg m-2", "water delivered to the ground by the surface layer over the run "
                                 "(deposition and uptake, gross)", None),
@@ -95,15 +99,17 @@ VARIABLES = {
                                     "delivered plus the frost present", None),
     "lower_limit_freezes": ("1", "supercooled brine frozen at the salt's lower validity limit, above its "
                             "supercooling limit", None),
+    "extrapolated_liquid_steps": ("1", "steps with liquid brine more concentrated than the salt's published "
+                                  "water-activity data (extrapolated)", None),
 }
 
 #: Extra attributes for categorical variables (CF flags).
 FLAGS = {
     "phase_state": dict(flag_values=list(FLAG_VALUES), flag_meanings=FLAG_MEANINGS),
     # a bit field (CF-1.8 sec. 3.5, flag_masks): 0 is "ok", several bits can be set in one step
-    "validity_flag": dict(flag_masks=[1, 2, 4],
-                          flag_meanings="temperature_outside_validity molality_limit_crystallised "
-                                        "frozen_at_lower_validity_limit"),
+    "validity_flag": dict(flag_masks=[1, 2, 4, 8],
+                          flag_meanings="temperature_outside_validity supersaturated_range_end_solidified "
+                                        "frozen_at_lower_validity_limit water_activity_extrapolated"),
 }
 
 
@@ -115,12 +121,13 @@ AXES = {"lat": "Y", "lon": "X", "time": "T"}
 _SUM = "period: sum"
 CELL_METHODS = {
     "liquid_hours_per_year": _SUM + " (divided by the number of years simulated)",
+    "liquid_water_hours_per_year": _SUM + " (divided by the number of years simulated)",
     "habitable_hours_per_year": _SUM + " (divided by the number of years simulated)",
     "wet_events_per_year": _SUM + " (divided by the number of years simulated)",
     "liquid_hours_by_ls": _SUM + " (within each bin, divided by the times the bin was simulated when more than once)",
     "liquid_hours_by_month": _SUM + " (within each month, divided by the times the month was simulated when more "
                                     "than once)",
-    "liquid_hours": _SUM, "habitable_hours": _SUM, "wet_events": _SUM,
+    "liquid_hours": _SUM, "liquid_water_hours": _SUM, "habitable_hours": _SUM, "wet_events": _SUM,
     "liquid_hours_by_local_time": _SUM + " (divided by the number of years simulated)",
     "longest_liquid_spell_hours": "period: maximum",
     "liquid_temperature_min": "period: minimum (over steps with liquid brine)",
@@ -128,7 +135,7 @@ CELL_METHODS = {
     "liquid_water_activity_min": "period: minimum (over steps with liquid brine)",
     "liquid_water_activity_max": "period: maximum (over steps with liquid brine)",
     "clamped_steps": _SUM, "clamped_liquid_steps": _SUM, "molality_limit_steps": _SUM,
-    "lower_limit_freezes": _SUM,
+    "lower_limit_freezes": _SUM, "extrapolated_liquid_steps": _SUM,
 }
 
 
@@ -147,6 +154,8 @@ def readable_units(units):
         year = per_year_units(days)
         if units == f"h {year}-1":
             return f"h per {planet.capitalize()} year"
+        if units == f"kg m-2 h {year}-1":
+            return f"kg m-2 h per {planet.capitalize()} year"
         if units == f"{year}-1":
             return f"per {planet.capitalize()} year"
     return "–" if units in ("1", "") else units

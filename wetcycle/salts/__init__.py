@@ -62,6 +62,7 @@ def from_file(path, **overrides):
         notes=str(s.get("notes", "")),
         sources=dict(pitzer=info["pitzer_sources"], pitzer_25C=info["source_25C"]),
         tables=tuple(info["tables"]), fitted=info["fitted"],
+        supersaturated=info["supersaturated"], kinetics=info["kinetics"],
     )
     kwargs.update(overrides)
     return SaltSystem(**kwargs)

@@ -30,8 +30,12 @@ DATA_KINDS = {
     "deliquescence": ("temperature", "rh"),
     "osmotic": ("temperature", "molality", "phi"),
     "water_activity": ("temperature", "molality", "aw"),
+    # crystal-free brine past saturation (the supersaturated branch, wetcycle.salts.metastable)
+    "supersaturated": ("temperature", "composition", "aw"),
+    # solid-state hydration equilibrium between two salt solids (humidity buffers, vapour pressure)
+    "hydration": ("temperature", "rh"),
 }
-FLAGS = ("read", "from memory", "fitted", "common practice")
+FLAGS = ("read", "from memory", "fitted", "common practice", "extrapolated")
 
 
 @dataclass(frozen=True)
@@ -96,7 +100,7 @@ def _normalise_table(path, i, t, molar_mass):
         if np.any((w <= 0) | (w >= 1)):
             _fail(path, where, "mass fractions must lie in (0, 1)")
         molality = w / (molar_mass * (1.0 - w))
-    elif DATA_KINDS[kind][0] == "composition" or "molality" in DATA_KINDS[kind]:
+    elif "composition" in DATA_KINDS[kind] or "molality" in DATA_KINDS[kind]:
         _fail(path, where, f"needs a composition column ({', '.join(COMPOSITION_COLUMNS)}), got {cols}")
     value = np.full(rows.shape[0], np.nan)
     for vname in ("rh", "phi", "aw"):
@@ -108,7 +112,7 @@ def _normalise_table(path, i, t, molar_mass):
     solid = t.get("solid")
     if kind in ("solubility", "deliquescence") and not solid:
         _fail(path, where, f"kind {kind!r} needs 'solid'")
-    if kind in ("eutectic", "peritectic") and len(solids) != 2:
+    if kind in ("eutectic", "peritectic", "hydration") and len(solids) != 2:
         _fail(path, where, f"kind {kind!r} needs 'solids' with two names")
     use = t.get("use", "fit")
     if use not in ("fit", "test"):
@@ -120,6 +124,35 @@ def _normalise_table(path, i, t, molar_mass):
         solid=solid, solids=solids,
         temperature=temp, molality=molality, value=value,
     )
+
+
+def _supersaturated(path, doc, sysd):
+    """The [supersaturated] section: the crystal-free branch past m_max (wetcycle.salts.metastable)."""
+    sec = doc.get("supersaturated")
+    m_max = float(sysd["m_max"])
+    if sec is None:
+        return None
+    where = "[supersaturated]"
+    for key in ("m_ext", "source", "flag", "uncertainty"):
+        if key not in sec:
+            _fail(path, where, f"missing '{key}'")
+    if sec["flag"] not in FLAGS:
+        _fail(path, where, f"flag {sec['flag']!r} is not one of {FLAGS}")
+    m_ext = float(sec["m_ext"])
+    m_valid = float(sec.get("m_valid", m_max))
+    if not (m_ext > m_max):
+        _fail(path, where, f"m_ext {m_ext!r} must exceed m_max {m_max!r}")
+    if not (m_max <= m_valid <= m_ext):
+        _fail(path, where, f"m_valid {m_valid!r} must lie between m_max {m_max!r} and m_ext {m_ext!r}")
+    c = sec.get("c", [0.0, 0.0])
+    fit = sec.get("fit", [False, False])
+    if len(c) != 2 or len(fit) != 2:
+        _fail(path, where, f"'c' and 'fit' need 2 entries (c2, c3), got {c!r}, {fit!r}")
+    T_ref = float(sec.get("T_ref", 298.15))
+    if not (float(sysd["T_min"]) <= T_ref <= float(sysd["T_max"])):
+        _fail(path, where, f"T_ref {T_ref!r} K must lie in the system's validity range")
+    return dict(m_ext=m_ext, m_valid=m_valid, c=np.array(c, dtype=float), fit=np.array(fit, dtype=bool),
+                T_ref=T_ref, source=str(sec["source"]), flag=sec["flag"], uncertainty=str(sec["uncertainty"]))
 
 
 def read(path, use_fitted=True):
@@ -170,6 +203,13 @@ def read(path, use_fitted=True):
         for s in ((t.solid,) if t.solid else ()) + t.solids:
             if s not in known:
                 _fail(path, f"[[data]] #{t.index + 1}", f"solid {s!r} is not one of {sorted(known)}")
+    sup = _supersaturated(path, doc, sysd)
+    for t in tables:
+        if t.kind == "supersaturated":
+            if sup is None:
+                _fail(path, f"[[data]] #{t.index + 1}", "a 'supersaturated' table needs a [supersaturated] section")
+            if np.any(t.molality <= float(sysd["m_max"])) or np.any(t.molality > sup["m_ext"] * (1 + 1e-9)):
+                _fail(path, f"[[data]] #{t.index + 1}", "supersaturated points must lie between m_max and m_ext")
     fitted = doc.get("fitted")
     if fitted and use_fitted:
         fp = fitted.get("pitzer", {})
@@ -179,9 +219,12 @@ def read(path, use_fitted=True):
         for s in solids:
             if s["name"] in fitted.get("lnK", {}):
                 s["lnK"] = np.array(fitted["lnK"][s["name"]], dtype=float)
+        if sup is not None and "supersaturated" in fitted:
+            sup["c"] = np.array(fitted["supersaturated"]["c"], dtype=float)
     return dict(
         path=path, system=sysd, alpha1=float(pz.get("alpha1", 2.0)), alpha2=float(pz.get("alpha2", 0.0)),
         coef=coef, fitmask=fitmask, pitzer_sources=pitzer_sources, source_25C=pz.get("source_25C", ""),
         solids=solids, tables=tables, metastability=dict(doc.get("metastability", {})),
+        supersaturated=sup, kinetics=dict(doc.get("kinetics", {})),
         fitted=dict(fitted) if fitted else None,
     )

@@ -9,7 +9,11 @@ of beta0, beta1, beta2, C_phi and ln K(T) of each solid are fitted jointly to
 * solubilities: ln IAP(m_sat, T) = ln K(T) for the solid named;
 * eutectic and peritectic points: both of the above for the two solids;
 * deliquescence humidities: a_w(m_sat(T), T) = RH_d;
-* osmotic coefficients and water activities.
+* osmotic coefficients and water activities;
+* water activities of crystal-free supersaturated brines (the branch of
+  :mod:`wetcycle.salts.metastable`, whose curvature c2, c3 may be fitted);
+* solid-state hydration humidities between two salt solids:
+  RH = (K_high / K_low)^(1 / (n_high - n_low)) (humidity-buffer and vapour-pressure data).
 
 Each point is weighted by its table's stated uncertainty ``sigma`` (K for
 freezing points, relative for solubilities, absolute for RH / phi / a_w), so
@@ -34,6 +38,7 @@ from scipy.optimize import least_squares
 from .. import __version__
 from ..water import ice_activity_kernel
 from . import datafile
+from . import metastable as mt
 from . import pitzer as pz
 
 #: Prior scales of the temperature coefficients c1, c2, c3 (Pitzer beta's,
@@ -56,13 +61,24 @@ MONO_MARGIN = 1e-3
 MISSING_PENALTY = 30.0
 
 UNITS = {"freezing": "K", "solubility": "relative", "eutectic": "K|relative",
-         "peritectic": "relative", "deliquescence": "RH", "osmotic": "phi", "water_activity": "aw"}
+         "peritectic": "relative", "deliquescence": "RH", "osmotic": "phi", "water_activity": "aw",
+         "supersaturated": "aw", "hydration": "RH"}
+
+
+#: Names accepted by ``free`` (besides the solids' names): the Pitzer parameters and the branch.
+FREE_GROUPS = ("beta0", "beta1", "beta2", "cphi", "supersaturated")
 
 
 class Model:
-    """Maps a free-parameter vector onto packed Pitzer parameters and ln K coefficients."""
+    """Maps a free-parameter vector onto packed Pitzer parameters and ln K coefficients.
 
-    def __init__(self, info):
+    ``free``: None (every coefficient the data file's ``fit`` masks allow), or a collection of
+    group names -- Pitzer parameters (``beta0``...), solid names, ``"supersaturated"`` -- to which
+    the fit is restricted; the other coefficients stay at their current (fitted) values.  Used to
+    refit one part of a system to new data without moving what other code was built on.
+    """
+
+    def __init__(self, info, free=None):
         s = info["system"]
         self.info = info
         self.base_coef = np.array(info["coef"], dtype=float)
@@ -75,18 +91,49 @@ class Model:
         self.consts = (int(s["nu_cation"]), int(s["nu_anion"]), int(s["z_cation"]), int(s["z_anion"]),
                        info["alpha1"], info["alpha2"])
         self.m_hi = float(s["m_max"])
-        self.n_free = int(self.mask.sum() + self.lnk_mask.sum())
+        self.sup = info.get("supersaturated")
+        self.br0 = np.array(self.sup["c"], dtype=float) if self.sup else np.zeros(2)
+        self.br_mask = np.array(self.sup["fit"], dtype=bool) if self.sup else np.zeros(2, dtype=bool)
+        if free is not None:
+            free = set(free)
+            unknown = free - set(FREE_GROUPS) - set(self.solid_index)
+            if unknown:
+                from ..errors import ConfigError
+                raise ConfigError(f"free: {sorted(unknown)[0]!r} is not a parameter group of {s['name']}; allowed: "
+                                  f"{', '.join(list(FREE_GROUPS) + list(self.solid_index))}")
+            for r, name in enumerate(pz.PARAM_NAMES):
+                if name not in free:
+                    self.mask[r] = False
+            for name, j in self.solid_index.items():
+                if name not in free:
+                    self.lnk_mask[j] = False
+            if "supersaturated" not in free:
+                self.br_mask[:] = False
+        self.n_free = int(self.mask.sum() + self.lnk_mask.sum() + self.br_mask.sum())
 
     def x0(self):
-        return np.concatenate([self.base_coef[self.mask], self.lnk0[self.lnk_mask]])
+        return np.concatenate([self.base_coef[self.mask], self.lnk0[self.lnk_mask], self.br0[self.br_mask]])
 
     def unpack(self, x):
         coef = self.base_coef.copy()
         k = int(self.mask.sum())
         coef[self.mask] = x[:k]
         lnk = self.lnk0.copy()
-        lnk[self.lnk_mask] = x[k:]
+        j = k + int(self.lnk_mask.sum())
+        lnk[self.lnk_mask] = x[k:j]
         return coef, lnk
+
+    def branch_c(self, x):
+        """(c2, c3) of the supersaturated branch for the free-parameter vector x."""
+        c = self.br0.copy()
+        c[self.br_mask] = x[len(x) - int(self.br_mask.sum()):]
+        return c
+
+    def branch(self, p, c):
+        """Packed branch vector for Pitzer vector p and curvature c (join at m_max)."""
+        if self.sup is None:
+            return mt.pack_branch(p, self.m_hi, self.m_hi)
+        return mt.pack_branch(p, self.m_hi, self.sup["m_ext"], float(c[0]), float(c[1]), self.sup["T_ref"])
 
     def priors(self, x):
         coef, lnk = self.unpack(x)
@@ -151,8 +198,10 @@ def _transition_resid(p, lnk_a, n_a, lnk_b, n_b, m, T):
     return g(T) / d
 
 
-def table_residuals(table, p, lnk_all, solid_index, hyd, m_hi):
+def table_residuals(table, p, lnk_all, solid_index, hyd, m_hi, br=None):
     """Residuals of one data table in its natural units (K, relative, RH, phi, aw).
+
+    ``br`` is the packed supersaturated branch (needed by ``supersaturated`` tables).
 
     Returns a float array, one entry per row (two per row for eutectic and
     peritectic points: one per solid).  NaN where the model has no value.
@@ -186,6 +235,12 @@ def table_residuals(table, p, lnk_all, solid_index, hyd, m_hi):
             res.append(pz.osmotic_kernel(m, T, p) - v)
         elif kind == "water_activity":
             res.append(math.exp(pz.ln_aw_kernel(m, T, p)) - v)
+        elif kind == "supersaturated":
+            res.append(math.exp(mt.ln_aw_full_kernel(m, T, p, br)) - v)
+        elif kind == "hydration":
+            lo, hi = sorted((solid_index[s] for s in table.solids), key=lambda j: hyd[j])
+            dn = hyd[hi] - hyd[lo]
+            res.append(math.exp((_lnk_at(lnk_all[hi], T) - _lnk_at(lnk_all[lo], T)) / dn) - v)
     return np.array(res, dtype=float)
 
 
@@ -197,6 +252,19 @@ def _monotonic_penalty(p, Ts, ms):
         for m in ms:
             d = (pz.ln_aw_kernel(m + h, T, p) - pz.ln_aw_kernel(m - h, T, p)) / (2 * h)
             out[k] = max(0.0, d + MONO_MARGIN) / MONO_MARGIN
+            k += 1
+    return out
+
+
+def _branch_monotonic_penalty(p, br, Ts):
+    """The supersaturated branch must keep ln a_w decreasing up to m_ext (same margin as Pitzer)."""
+    xs = np.linspace(br[mt.B_JOIN], br[mt.B_EXT], 20)
+    out = np.zeros(Ts.size * xs.size)
+    k = 0
+    for T in Ts:
+        for m in xs:
+            d = mt.branch_slope_kernel(max(m, br[mt.B_JOIN] * (1 + 1e-9)), T, p, br)
+            out[k] = max(0.0, d + MONO_MARGIN) / MONO_MARGIN if d == d else 0.0
             k += 1
     return out
 
@@ -215,21 +283,27 @@ def _sigma_units(table):
     return np.full(table.temperature.size, table.sigma)
 
 
-def fit_info(info, use=("fit",), verbose=0):
-    """Fit the free coefficients of a parsed data file; returns (coef, lnk, result, model)."""
-    model = Model(info)
+def fit_info(info, use=("fit",), verbose=0, free=None):
+    """Fit the free coefficients of a parsed data file; returns (coef, lnk, result, model).
+
+    ``free`` restricts the fit to some parameter groups (see :class:`Model`).
+    """
+    model = Model(info, free)
     tables = [t for t in info["tables"] if t.use in use]
     sigmas = [_sigma_units(t) for t in tables]
 
     def fun(x):
         coef, lnk = model.unpack(x)
         p = pz.pack(*model.consts, coef)
+        br = model.branch(p, model.branch_c(x))
         parts = []
         for t, sg in zip(tables, sigmas):
-            r = table_residuals(t, p, lnk, model.solid_index, model.hyd, model.m_hi) / sg
+            r = table_residuals(t, p, lnk, model.solid_index, model.hyd, model.m_hi, br) / sg
             parts.append(np.where(np.isnan(r), MISSING_PENALTY, r))
         parts.append(model.priors(x))
         parts.append(_monotonic_penalty(p, mono_T, mono_m))
+        if model.br_mask.any():
+            parts.append(_branch_monotonic_penalty(p, br, mono_T))
         return np.concatenate(parts) if parts else np.zeros(1)
 
     s = info["system"]
@@ -238,19 +312,27 @@ def fit_info(info, use=("fit",), verbose=0):
     x0 = model.x0()
     if model.n_free == 0:
         coef, lnk = model.unpack(x0)
+        if model.sup is not None:
+            model.fitted_branch_c = model.br0.copy()
         return coef, lnk, None, model
     result = least_squares(fun, x0, method="trf", x_scale="jac", max_nfev=4000, verbose=verbose)
     coef, lnk = model.unpack(result.x)
+    if model.sup is not None:
+        model.fitted_branch_c = model.branch_c(result.x)
     return coef, lnk, result, model
 
 
-def residual_report(info, coef, lnk):
-    """Per-table residual statistics (all tables, fit and held-out test)."""
+def residual_report(info, coef, lnk, branch_c=None):
+    """Per-table residual statistics (all tables, fit and held-out test).
+
+    ``branch_c``: (c2, c3) of the supersaturated branch (default: the data file's values).
+    """
     model = Model(info)
     p = pz.pack(*model.consts, coef)
+    br = model.branch(p, model.br0 if branch_c is None else np.asarray(branch_c, dtype=float))
     rows = []
     for t in info["tables"]:
-        r = table_residuals(t, p, lnk, model.solid_index, model.hyd, model.m_hi)
+        r = table_residuals(t, p, lnk, model.solid_index, model.hyd, model.m_hi, br)
         good = ~np.isnan(r)
         ok = r[good]
         z = ok / _sigma_units(t)[good]
@@ -268,7 +350,7 @@ def _fmt(x):
     return repr(float(x))
 
 
-def fitted_section(info, coef, lnk, result):
+def fitted_section(info, coef, lnk, result, branch_c=None):
     """TOML text of the regenerated section (below the marker)."""
     lines = [datafile.FIT_MARKER, "[fitted]", 'by = "scripts/fit_salts.py"',
              f'wetcycle_version = "{__version__}"',
@@ -286,7 +368,12 @@ def fitted_section(info, coef, lnk, result):
     lines.append("[fitted.lnK]  # same temperature form")
     for d, row in zip(info["solids"], lnk):
         lines.append(f'"{d["name"]}" = [{", ".join(_fmt(v) for v in row)}]')
-    for r in residual_report(info, coef, lnk):
+    if info.get("supersaturated") is not None:
+        c = info["supersaturated"]["c"] if branch_c is None else branch_c
+        lines.append("")
+        lines.append("[fitted.supersaturated]  # c2, c3 of the supersaturated branch (wetcycle.salts.metastable)")
+        lines.append(f"c = [{', '.join(_fmt(v) for v in c)}]")
+    for r in residual_report(info, coef, lnk, branch_c):
         lines.append("")
         lines.append("[[fitted.residual]]")
         src = r["source"].replace("\\", "\\\\").replace('"', '\\"')
@@ -304,8 +391,13 @@ def write_fitted(path, text):
     path.write_text(head + text, encoding="utf-8")
 
 
-def fit_file(path, from_scratch=False, verbose=0):
-    """Fit one data file; returns (text of the fitted section, residual report, result)."""
+def fit_file(path, from_scratch=False, verbose=0, free=None):
+    """Fit one data file; returns (text of the fitted section, residual report, result).
+
+    ``free``: restrict the fit to these parameter groups (see :class:`Model`); an empty collection
+    only recomputes the residuals of the stored coefficients.
+    """
     info = datafile.read(path, use_fitted=not from_scratch)
-    coef, lnk, result, _ = fit_info(info, verbose=verbose)
-    return fitted_section(info, coef, lnk, result), residual_report(info, coef, lnk), result
+    coef, lnk, result, model = fit_info(info, verbose=verbose, free=free)
+    bc = getattr(model, "fitted_branch_c", None)
+    return fitted_section(info, coef, lnk, result, bc), residual_report(info, coef, lnk, bc), result

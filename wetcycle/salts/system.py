@@ -32,6 +32,7 @@ from scipy.optimize import brentq, minimize_scalar
 
 from ..errors import ValidityError, shown
 from ..water import ice_activity_kernel
+from . import metastable as mt
 from . import pitzer as pz
 
 ICE = "ice"
@@ -74,16 +75,23 @@ def _liquidus_curve(T, p, m_hi, out):
 
 
 @njit(cache=True)
-def _inverse_curve(ln_aw, T, p, m_hi, out):
-    for i in range(T.shape[0]):
-        out[i] = pz.molality_at_ln_aw_kernel(ln_aw[i], T[i], p, m_hi)
+def _lnaw_array(m, T, p, out):
+    for i in range(m.shape[0]):
+        out[i] = pz.ln_aw_kernel(m[i], T[i], p)
     return out
 
 
 @njit(cache=True)
-def _lnaw_array(m, T, p, out):
+def _lnaw_full_array(m, T, p, br, out):
     for i in range(m.shape[0]):
-        out[i] = pz.ln_aw_kernel(m[i], T[i], p)
+        out[i] = mt.ln_aw_full_kernel(m[i], T[i], p, br)
+    return out
+
+
+@njit(cache=True)
+def _inverse_full_curve(ln_aw, T, p, br, out):
+    for i in range(T.shape[0]):
+        out[i] = mt.molality_at_ln_aw_full_kernel(ln_aw[i], T[i], p, br)
     return out
 
 
@@ -142,6 +150,8 @@ class SaltSystem:
     sources: dict = field(repr=False, compare=False, default_factory=dict)
     tables: tuple = field(repr=False, compare=False, default=())
     fitted: dict | None = field(repr=False, compare=False, default=None)
+    supersaturated: dict | None = field(repr=False, compare=False, default=None)
+    kinetics: dict = field(repr=False, compare=False, default_factory=dict)
 
     # ---- basic quantities -------------------------------------------------
     @cached_property
@@ -153,6 +163,29 @@ class SaltSystem:
     @property
     def nu(self):
         return self.nu_cation + self.nu_anion
+
+    @property
+    def m_ext(self):
+        """Highest molality [mol kg-1] of a crystal-free (supersaturated) brine the model follows.
+
+        The end of the supersaturated branch (:mod:`wetcycle.salts.metastable`); ``m_max``
+        where the data file has no ``[supersaturated]`` section.
+        """
+        return self.supersaturated["m_ext"] if self.supersaturated else self.m_max
+
+    @property
+    def m_valid(self):
+        """Highest molality [mol kg-1] backed by published data (beyond it: extrapolation)."""
+        return self.supersaturated["m_valid"] if self.supersaturated else self.m_max
+
+    @cached_property
+    def branch(self):
+        """Packed supersaturated-branch vector for the kernels (:func:`metastable.pack_branch`)."""
+        sup = self.supersaturated
+        if sup is None:
+            return mt.pack_branch(self.packed, self.m_max, self.m_max)
+        c2, c3 = (float(x) for x in sup["c"])
+        return mt.pack_branch(self.packed, self.m_max, sup["m_ext"], c2, c3, sup["T_ref"])
 
     def solid(self, name):
         """The :class:`Solid` named ``name`` (formula, e.g. ``"NaCl·2H2O"``)."""
@@ -174,13 +207,14 @@ class SaltSystem:
             raise ValidityError(f"temperature: {v:g} K is outside the validity of {self.name} "
                                 f"({self.T_min:g}-{self.T_max:g} K)")
 
-    def _check_m(self, m):
+    def _check_m(self, m, limit=None, what=""):
+        limit = self.m_max if limit is None else limit
         arr = np.asarray(m, dtype=float)
-        bad = ~((arr >= 0) & (arr <= self.m_max))
+        bad = ~((arr >= 0) & (arr <= limit))
         if np.any(bad):
             v = arr[bad].flat[0] if arr.ndim else float(arr)
-            raise ValidityError(f"molality: {v:g} mol/kg is outside the validity of {self.name} "
-                                f"(0-{self.m_max:g} mol/kg)")
+            raise ValidityError(f"molality: {v:g} mol/kg is outside the validity of {self.name}{what} "
+                                f"(0-{limit:g} mol/kg)")
 
     def _eval(self, kernel, m, T):
         self._check_T(T)
@@ -189,17 +223,25 @@ class SaltSystem:
         return _out(kernel(mm, tt, self.packed, np.empty_like(mm)), shape)
 
     def water_activity(self, m, T):
-        """Water activity a_w [-] of the brine (Pitzer 1991, ln a_w = -phi nu m M_w).
+        """Water activity a_w [-] of the brine, crystal-free supersaturated brine included.
+
+        Pitzer (1991), ln a_w = -phi nu m M_w, up to ``m_max``; beyond it, up to ``m_ext``, the
+        supersaturated branch of :mod:`wetcycle.salts.metastable` (fitted to published
+        single-particle water activities where the data file has them, else the straight
+        continuation of ln a_w; see the data file's ``[supersaturated]`` uncertainty).
 
         Parameters
         ----------
-        m : array [mol kg-1], 0 <= m <= m_max
+        m : array [mol kg-1], 0 <= m <= m_ext
         T : array [K], T_min <= T <= T_max
         """
-        return np.exp(self._eval(_lnaw_array, m, T))
+        self._check_T(T)
+        self._check_m(m, self.m_ext, " (supersaturated branch included)" if self.m_ext > self.m_max else "")
+        shape, (mm, tt) = _bcast(m, T)
+        return np.exp(_out(_lnaw_full_array(mm, tt, self.packed, self.branch, np.empty_like(mm)), shape))
 
     def osmotic_coefficient(self, m, T):
-        """Osmotic coefficient phi [-] (Pitzer 1991, eq. 3.59 form for one salt)."""
+        """Osmotic coefficient phi [-] (Pitzer 1991, eq. 3.59 form for one salt), m <= m_max."""
         return self._eval(_osm_array, m, T)
 
     def activity_coefficient(self, m, T):
@@ -329,15 +371,15 @@ class SaltSystem:
         """Molality [mol kg-1] of the brine whose water activity is ``aw`` at T.
 
         The inverse of :meth:`water_activity`, for undersaturated and
-        supersaturated brines up to ``m_max``; NaN where ``aw`` is below
-        a_w(m_max, T).  aw must lie in (0, 1].
+        supersaturated brines up to ``m_ext``; NaN where ``aw`` is below
+        a_w(m_ext, T).  aw must lie in (0, 1].
         """
         self._check_T(T)
         a = np.asarray(aw, dtype=float)
         if np.any(~((a > 0) & (a <= 1))):
             raise ValidityError(f"water activity: values must lie in (0, 1], got {shown(a[~((a > 0) & (a <= 1))].flat[0])}")
         shape, (aa, tt) = _bcast(a, T)
-        return _out(_inverse_curve(np.log(aa), tt, self.packed, self.m_max, np.empty_like(aa)), shape)
+        return _out(_inverse_full_curve(np.log(aa), tt, self.packed, self.branch, np.empty_like(aa)), shape)
 
     def hydration_transitions(self, T):
         """Relative humidities of solid-state hydration between successive hydrates at T.
@@ -494,6 +536,12 @@ class SaltSystem:
             peritectics=[{k: p[k] for k in ("temperature_K", "molality", "solids", "kind")} for p in self.peritectics()],
             congruent_melting=self.congruent_melting_points(),
             efflorescence_rh=self.efflorescence_rh,
+            supersaturated_molality_max=self.m_ext,
+            supersaturated_molality_validated=self.m_valid,
+            ice_nucleation_rh_ice=self.metastability.get("ice_nucleation_rh_ice"),
+            metastable_deliquescence_depth_K=self.metastability.get("metastable_deliquescence_depth", 0.0),
+            hydrate_time_constant_days=(self.kinetics or {}).get("hydrate_time_constant_days"),
+            hydrate_reference_temperature_K=(self.kinetics or {}).get("hydrate_reference_temperature"),
             supercooling_limit_K=self.supercooling_limit,
             # the time-stepping model follows a supercooled brine down to the warmer of the two
             model_supercooling_floor_K=(None if self.supercooling_limit is None
