@@ -18,6 +18,7 @@ from . import output
 from .clock import make_clock
 from .config import Scenario, load_scenario
 from .errors import ConfigError, ValidityError, WetcycleError
+from .block import PHASE_KEYS, phase_block
 from .phase import PhaseModel
 from .stats import Accumulator
 from .timescales import jd_tt_to_utc
@@ -33,8 +34,6 @@ WATER_CYCLE_KEYS = ("air_temperature", "air_vapor_pressure", "air_relative_humid
                     "free_vapor_pressure")
 #: Per-salt water-budget statistics of energy-balance runs (DESIGN decision 4).
 WATER_CYCLE_STATS = ("salt_water_uptake", "surface_water_delivered", "uptake_exceeds_supply_steps")
-PHASE_KEYS = ("phase_state", "brine_water_activity", "liquid_water", "hydrate_water", "ice_water",
-              "liquid_fraction", "water_exchanged", "validity_flag")
 
 
 @dataclass
@@ -87,11 +86,11 @@ def _clock(sc):
 
 
 def _rh(e, T):
+    from .forcing.vapour import relative_humidity_for_salt
     Tc = np.clip(T, 123.0, 332.0)
-    rh = e / saturation_vapor_pressure_liquid(Tc)
     rhi = e / np.where(Tc <= 273.16, saturation_vapor_pressure_ice(np.minimum(Tc, 273.16)),
                        saturation_vapor_pressure_liquid(Tc))
-    return np.clip(rh, 0.0, 1.0), rhi
+    return relative_humidity_for_salt(e, T), rhi
 
 
 def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None, salt_T=None, frost=None):
@@ -522,10 +521,8 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
                                             d["salt_temperature"][0], d["relative_humidity"][0])
                 if keep:
                     initial_water[j] = states[j].total_water.copy()
-            r = m.step(states[j], d["salt_temperature"], d["relative_humidity"], d["surface_pressure"], frost,
-                       blk.dt_s)
-            acc.add(r.liquid_fraction, r.phase, r.water_activity, d["salt_temperature"], season[blk.i0:blk.i1],
-                    blk.ltst_h, r.validity_flag, blk.dt_s, r.liquid_water)
+            r = phase_block(m, states[j], acc, d["salt_temperature"], d["relative_humidity"], d["surface_pressure"],
+                            frost, blk.dt_s, season[blk.i0:blk.i1], blk.ltst_h)
             if water_cycle:
                 gain = np.maximum(r.exchanged, 0.0)
                 uptake[j] += _sum_steps(gain)
