@@ -81,7 +81,7 @@ def run_cells(model, time_s, temperature_K, relative_humidity, surface_pressure_
     model : wetcycle.phase.PhaseModel
     time_s : array [step] [s], strictly increasing
     temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2 : arrays [step, cell]
-        Already checked by the caller (SI units; see :func:`phase_block`).
+        Already checked by the caller (SI units; see :func:`phase_block`); broadcast together.
     loading_kg_m2 : float or array [cell] [kg m-2]
         Anhydrous salt per unit area (> 0).
     min_water_activity, min_temperature_K : float
@@ -94,7 +94,10 @@ def run_cells(model, time_s, temperature_K, relative_humidity, surface_pressure_
     (stats, series): dicts of arrays, stats [cell] (names from :func:`statistic_names`), series
     [step, cell] (names :data:`PHASE_KEYS`; float64, states and flags int8) or None.
     """
-    T = np.ascontiguousarray(temperature_K, dtype=np.float64)
+    # writable C-ordered float64 copies: one compiled signature of the kernels for every caller
+    T, relative_humidity, surface_pressure_Pa, frost_kg_m2 = (
+        np.array(a, dtype=np.float64, order="C") for a in np.broadcast_arrays(
+            temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2))
     n_steps, n_cells = T.shape
     t = np.asarray(time_s, dtype=np.float64)
     dt = np.concatenate([[0.0], np.diff(t)])
