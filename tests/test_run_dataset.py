@@ -231,3 +231,18 @@ def test_variables_carry_the_names_and_attributes_of_result_files(chunked_result
         assert ds[k].attrs == attrs(k), k          # the one vocabulary output.py writes from
     assert ds.attrs["Conventions"] == "CF-1.8" and "not evidence" in ds.attrs["caution"]
     assert ds.attrs["phase_law"] == wetcycle.phase.DEFAULTS["law"]
+
+
+def test_statistics_alone_and_streamed_in_short_blocks_are_the_same(chunked_result, monkeypatch):
+    # run_cells streams the series in blocks carrying the state and the accumulators: blocks of
+    # 7 steps (not a divisor of the 96 steps) must give bitwise the statistics of one block
+    import wetcycle.block
+    fc, full = chunked_result
+    monkeypatch.setattr(wetcycle.block, "BLOCK_STEPS", 7)
+    short = wetcycle.run_dataset(fc, SALTS, series=False)
+    assert "time" not in short.dims and "phase_state" not in short
+    short, full = short.compute(), full.compute()
+    for k in short.data_vars:
+        np.testing.assert_array_equal(short[k].values, full[k].values, err_msg=k)
+    streamed = wetcycle.run_dataset(fc, SALTS[0], series=True).compute()
+    np.testing.assert_array_equal(streamed["liquid_water"].values, full["liquid_water"].sel(salt=[SALTS[0]]).values)

@@ -29,6 +29,12 @@ PHASE_KEYS = ("phase_state", "brine_water_activity", "liquid_water", "hydrate_wa
               "liquid_fraction", "water_exchanged", "validity_flag")
 
 
+#: Steps per block streamed through the phase model by :func:`run_cells`: the kernel's outputs are
+#: held for one block at a time (results do not depend on it: the state and the accumulators carry
+#: everything from block to block, checked bitwise in tests/test_run_dataset.py).
+BLOCK_STEPS = 1024
+
+
 def phase_block(model, state, acc, temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt_s,
                 season_deg, ltst_h):
     """Step ``state`` of ``model`` through one forcing block and add the block to ``acc``.
@@ -60,6 +66,17 @@ def phase_block(model, state, acc, temperature_K, relative_humidity, surface_pre
     return r
 
 
+def phase_outputs(r):
+    """A block's per-step results under their names in result files (:data:`PHASE_KEYS`).
+
+    States and flags as int8, the rest as the kernel gives them (float64), arrays [step, cell].
+    """
+    return {"phase_state": r.phase.astype(np.int8), "brine_water_activity": r.water_activity,
+            "liquid_water": r.liquid_water, "hydrate_water": r.hydrate_water, "ice_water": r.ice_water,
+            "liquid_fraction": r.liquid_fraction, "water_exchanged": r.exchanged,
+            "validity_flag": r.validity_flag.astype(np.int8)}
+
+
 def statistic_names():
     """Names and dtypes of the statistics :func:`run_cells` returns (totals over the series)."""
     sample = Accumulator.new(1, 1).finish(float("nan"), per_year=False)
@@ -75,6 +92,7 @@ def run_cells(model, time_s, temperature_K, relative_humidity, surface_pressure_
     length 0 (the series starts at its first sample), step k ends at sample k.  A given series has
     no season and no planet's year: the statistics are totals over the series (DESIGN decision 7),
     as for a chamber programme (:meth:`wetcycle.stats.Accumulator.finish` with ``per_year=False``).
+    The series streams through :func:`phase_block` in blocks of :data:`BLOCK_STEPS` steps.
 
     Parameters
     ----------
@@ -103,19 +121,15 @@ def run_cells(model, time_s, temperature_K, relative_humidity, surface_pressure_
     dt = np.concatenate([[0.0], np.diff(t)])
     state = model.initial_state(n_cells, loading_kg_m2, T[0], relative_humidity[0])
     acc = Accumulator.new(n_cells, 1, min_water_activity, min_temperature_K)
-    r = phase_block(model, state, acc, T, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt,
-                    np.zeros(n_steps), np.zeros((n_steps, n_cells)))
+    parts = {k: [] for k in PHASE_KEYS} if keep_series else None
+    for i0 in range(0, n_steps, BLOCK_STEPS):
+        i1 = min(i0 + BLOCK_STEPS, n_steps)
+        r = phase_block(model, state, acc, T[i0:i1], relative_humidity[i0:i1], surface_pressure_Pa[i0:i1],
+                        frost_kg_m2[i0:i1], dt[i0:i1], np.zeros(i1 - i0), np.zeros((i1 - i0, n_cells)))
+        if keep_series:
+            for k, v in phase_outputs(r).items():
+                parts[k].append(v)
     stats = acc.finish(float("nan"), per_year=False)
     if not keep_series:
         return stats, None
-    series = {
-        "phase_state": r.phase.astype(np.int8),
-        "brine_water_activity": r.water_activity,
-        "liquid_water": r.liquid_water,
-        "hydrate_water": r.hydrate_water,
-        "ice_water": r.ice_water,
-        "liquid_fraction": r.liquid_fraction,
-        "water_exchanged": r.exchanged,
-        "validity_flag": r.validity_flag.astype(np.int8),
-    }
-    return stats, series
+    return stats, {k: v[0] if len(v) == 1 else np.concatenate(v) for k, v in parts.items()}

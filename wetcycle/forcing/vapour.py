@@ -31,7 +31,8 @@ import numpy as np
 
 from ..errors import ConfigError, ValidityError, shown
 from ..orbit import MARS, get_planet
-from ..water import (MOLAR_MASS_WATER, saturation_vapor_pressure_ice, saturation_vapor_pressure_liquid)
+from ..water import (LIQUID_T_RANGE, MOLAR_MASS_WATER, saturation_vapor_pressure_ice,
+                     saturation_vapor_pressure_liquid)
 
 __all__ = [
     "PRECIPITABLE_MICRON_KG_M2", "R_VAPOUR", "vapor_pressure_from_vmr", "column_to_vapor_pressure",
@@ -176,10 +177,6 @@ def vapor_pressure_from_relative_humidity(rh, temperature_k):
     return float(e) if np.ndim(e) == 0 else e
 
 
-#: Murphy & Koop (2005)'s range of the liquid saturation formula [K], used to clamp forcing series.
-LIQUID_T_RANGE_K = (123.0, 332.0)
-
-
 def relative_humidity_for_salt(vapor_pressure_pa, temperature_k):
     """Relative humidity w.r.t. liquid water that a salt sees in a forcing series, in [0, 1] [-].
 
@@ -199,5 +196,5 @@ def relative_humidity_for_salt(vapor_pressure_pa, temperature_k):
     -------
     ndarray [-]
     """
-    Tc = np.clip(temperature_k, *LIQUID_T_RANGE_K)
+    Tc = np.clip(temperature_k, *LIQUID_T_RANGE)
     return np.clip(vapor_pressure_pa / saturation_vapor_pressure_liquid(Tc), 0.0, 1.0)
