@@ -6,13 +6,16 @@ and compiles nothing.
 
 __version__ = "0.2.0"
 
-__all__ = ["run", "run_series", "open_result", "__version__"]
+__all__ = ["run", "run_series", "run_dataset", "open_result", "__version__"]
 
 
 def __getattr__(name):
     if name == "run_series":
         from .series import run_series
         return run_series
+    if name == "run_dataset":
+        from .dataset import run_dataset
+        return run_dataset
     if name == "run":
         from .runner import run
         return run

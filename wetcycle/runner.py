@@ -18,10 +18,11 @@ from . import output
 from .clock import make_clock
 from .config import Scenario, load_scenario
 from .errors import ConfigError, ValidityError, WetcycleError
+from .block import PHASE_KEYS, phase_block, phase_outputs
 from .phase import PhaseModel
 from .stats import Accumulator
 from .timescales import jd_tt_to_utc
-from .water import saturation_vapor_pressure_ice, saturation_vapor_pressure_liquid
+from .water import LIQUID_T_RANGE, saturation_vapor_pressure_ice, saturation_vapor_pressure_liquid
 
 FORCING_KEYS = ("surface_temperature", "salt_temperature", "vapor_pressure", "relative_humidity",
                 "relative_humidity_ice", "surface_pressure", "water_frost", "co2_frost")
@@ -33,8 +34,6 @@ WATER_CYCLE_KEYS = ("air_temperature", "air_vapor_pressure", "air_relative_humid
                     "free_vapor_pressure")
 #: Per-salt water-budget statistics of energy-balance runs (DESIGN decision 4).
 WATER_CYCLE_STATS = ("salt_water_uptake", "surface_water_delivered", "uptake_exceeds_supply_steps")
-PHASE_KEYS = ("phase_state", "brine_water_activity", "liquid_water", "hydrate_water", "ice_water",
-              "liquid_fraction", "water_exchanged", "validity_flag")
 
 
 @dataclass
@@ -87,11 +86,11 @@ def _clock(sc):
 
 
 def _rh(e, T):
-    Tc = np.clip(T, 123.0, 332.0)
-    rh = e / saturation_vapor_pressure_liquid(Tc)
+    from .forcing.vapour import relative_humidity_for_salt
+    Tc = np.clip(T, *LIQUID_T_RANGE)
     rhi = e / np.where(Tc <= 273.16, saturation_vapor_pressure_ice(np.minimum(Tc, 273.16)),
                        saturation_vapor_pressure_liquid(Tc))
-    return np.clip(rh, 0.0, 1.0), rhi
+    return relative_humidity_for_salt(e, T), rhi
 
 
 def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None, salt_T=None, frost=None):
@@ -104,7 +103,7 @@ def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None, sa
     if rh is None:
         rh, rhi = _rh(e, T)
     else:
-        e = rh * saturation_vapor_pressure_liquid(np.clip(T, 123.0, 332.0))
+        e = rh * saturation_vapor_pressure_liquid(np.clip(T, *LIQUID_T_RANGE))
         _, rhi = _rh(e, T)
     P = np.broadcast_to(P if P is not None else planet.mean_surface_pressure_pa, T.shape)
     data = dict(surface_temperature=T, salt_temperature=T if salt_T is None else salt_T, vapor_pressure=e,
@@ -224,7 +223,7 @@ def _chamber_source(sc):
     P = col(fs.surface_pressure_Pa) if fs.surface_pressure_Pa is not None else np.full_like(T, 600.0)
     if fs.relative_humidity is not None:
         rh = col(fs.relative_humidity)
-        e = rh * saturation_vapor_pressure_liquid(np.clip(T, 123.0, 332.0))
+        e = rh * saturation_vapor_pressure_liquid(np.clip(T, *LIQUID_T_RANGE))
     else:
         e = col(fs.vapor_pressure_Pa)
         rh = None
@@ -522,24 +521,18 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
                                             d["salt_temperature"][0], d["relative_humidity"][0])
                 if keep:
                     initial_water[j] = states[j].total_water.copy()
-            r = m.step(states[j], d["salt_temperature"], d["relative_humidity"], d["surface_pressure"], frost,
-                       blk.dt_s)
-            acc.add(r.liquid_fraction, r.phase, r.water_activity, d["salt_temperature"], season[blk.i0:blk.i1],
-                    blk.ltst_h, r.validity_flag, blk.dt_s, r.liquid_water)
+            r = phase_block(m, states[j], acc, d["salt_temperature"], d["relative_humidity"], d["surface_pressure"],
+                            frost, blk.dt_s, season[blk.i0:blk.i1], blk.ltst_h)
             if water_cycle:
                 gain = np.maximum(r.exchanged, 0.0)
                 uptake[j] += _sum_steps(gain)
                 exceed[j] += np.sum(gain > available * (1.0 + 1e-9) + 1e-15, axis=0)
             if keep:
-                ps = phase_series[j]
-                ps["phase_state"].append(r.phase.astype(np.int8))
-                ps["brine_water_activity"].append(r.water_activity.astype(np.float32))
-                ps["liquid_water"].append(r.liquid_water.astype(np.float32))
-                ps["hydrate_water"].append(r.hydrate_water.astype(np.float32))
-                ps["ice_water"].append(r.ice_water.astype(np.float32))
-                ps["liquid_fraction"].append(r.liquid_fraction.astype(np.float32))
-                ps["water_exchanged"].append(r.exchanged)  # float64: the water balance closes to rounding
-                ps["validity_flag"].append(r.validity_flag.astype(np.int8))
+                # site files store float32, except the water exchanged (float64: the water balance
+                # closes to rounding)
+                for k, v in phase_outputs(r).items():
+                    phase_series[j][k].append(v if k == "water_exchanged" or v.dtype != np.float64
+                                              else v.astype(np.float32))
         if keep:
             for k in series_keys:
                 series[k].append(np.asarray(d[k], dtype=np.float32))

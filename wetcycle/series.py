@@ -15,13 +15,15 @@ import xarray as xr
 from . import __version__
 from .errors import ConfigError, InputDataError, shown
 from .forcing.prescribed import RANGES
-from .output import add_time_bounds, time_attrs
+from .block import run_cells
+from .output import CAUTION, add_time_bounds, time_attrs
 from .phase import DEFAULTS, PhaseModel
 from .phase.model import phase_settings_attrs
+from .stats import HABITABILITY_DEFAULTS
 from .vocabulary import attrs
 
 OPTIONS = ("law", "loading_kg_m2", "surface_pressure_Pa", "frost_kg_m2", "diffusion_length_m",
-           "diffusivity_factor", "liquid_threshold", "hydrate_kinetics")
+           "diffusivity_factor", "liquid_threshold", "hydrate_kinetics", "min_water_activity", "min_temperature_K")
 
 
 def elapsed_seconds(times, field="time"):
@@ -71,7 +73,9 @@ def _non_negative(field, value, shape, strict=False):
 def run_series(salt, time_s, temperature_K, relative_humidity, *, law=DEFAULTS["law"],
                loading_kg_m2=DEFAULTS["loading_kg_m2"], surface_pressure_Pa=600.0, frost_kg_m2=0.0,
                diffusion_length_m=DEFAULTS["diffusion_length_m"], diffusivity_factor=DEFAULTS["diffusivity_factor"],
-               liquid_threshold=DEFAULTS["liquid_threshold"], hydrate_kinetics=DEFAULTS["hydrate_kinetics"]):
+               liquid_threshold=DEFAULTS["liquid_threshold"], hydrate_kinetics=DEFAULTS["hydrate_kinetics"],
+               min_water_activity=HABITABILITY_DEFAULTS["min_water_activity"],
+               min_temperature_K=HABITABILITY_DEFAULTS["min_temperature_K"]):
     """Step one salt through a series and return an ``xarray.Dataset`` over ``time``.
 
     The defaults are the phase model's one set (:data:`wetcycle.phase.DEFAULTS`, the same as a
@@ -97,14 +101,22 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law=DEFAULTS["
         Water frost in contact with the salt (contact melting at the eutectic).
     diffusion_length_m, diffusivity_factor, liquid_threshold, hydrate_kinetics :
         phase-model settings (see :class:`wetcycle.phase.PhaseModel`).
+    min_water_activity, min_temperature_K : float [-], [K]
+        Habitability thresholds of the statistics (defaults
+        :data:`wetcycle.stats.HABITABILITY_DEFAULTS`: settings, not rulings).
 
     Returns
     -------
     xarray.Dataset with ``phase_state``, ``brine_water_activity``, ``liquid_water``
     (brine water; a sub-threshold film on a damp crystalline salt is not liquid),
     ``liquid_fraction`` (of each step, crossings placed inside the step), ``hydrate_water``,
-    ``ice_water``, ``water_exchanged``, ``validity_flag`` and the forcing, with CF attributes;
-    the phase-model settings and the liquid threshold are global attributes.
+    ``ice_water``, ``water_exchanged``, ``validity_flag`` and the forcing over ``time``, and the
+    statistics of the whole series as scalars (``liquid_hours``, ``liquid_water_hours``,
+    ``habitable_hours``, ``wet_events``, ``longest_liquid_spell_hours``, the liquid's temperature
+    and water-activity range, the model-limit counts: totals, no per-year figures, as a series
+    has no planet's year), with CF attributes; the phase-model settings, the liquid threshold and
+    the habitability thresholds are global attributes.  The path through the phase model is
+    :func:`wetcycle.block.run_cells`, the same as :func:`wetcycle.run_dataset`'s.
 
     Raises
     ------
@@ -138,26 +150,32 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law=DEFAULTS["
     frost = _non_negative("frost_kg_m2", frost_kg_m2, t.shape)
     model = PhaseModel(salt, law=law, diffusion_length_m=diffusion_length_m, diffusivity_factor=diffusivity_factor,
                        liquid_threshold=liquid_threshold, hydrate_kinetics=hydrate_kinetics)
-    state = model.initial_state(1, loading_kg_m2, T[0], rh[0])
-    dt = np.concatenate([[0.0], np.diff(t)])
-    r = model.step(state, T[:, None], rh[:, None], P[:, None], frost[:, None], dt)
-    data = {
-        "phase_state": r.phase[:, 0].astype(np.int8),
-        "brine_water_activity": r.water_activity[:, 0],
-        "liquid_water": r.liquid_water[:, 0],
-        "hydrate_water": r.hydrate_water[:, 0],
-        "ice_water": r.ice_water[:, 0],
-        "liquid_fraction": r.liquid_fraction[:, 0],
-        "water_exchanged": r.exchanged[:, 0],
-        "validity_flag": r.validity_flag[:, 0].astype(np.int8),
-        "salt_temperature": T,
-        "relative_humidity": rh,
-        "surface_pressure": np.array(P),
-    }
+    check_thresholds(min_water_activity, min_temperature_K)
+    stats, series = run_cells(model, t, T[:, None], rh[:, None], P[:, None], frost[:, None], loading_kg_m2,
+                              min_water_activity=min_water_activity, min_temperature_K=min_temperature_K)
+    data = {k: ("time", v[:, 0], attrs(k)) for k, v in series.items()}
+    data.update(salt_temperature=("time", T, attrs("salt_temperature")),
+                relative_humidity=("time", rh, attrs("relative_humidity")),
+                surface_pressure=("time", np.array(P), attrs("surface_pressure")))
+    data.update({k: ((), v[0], attrs(k)) for k, v in stats.items()})
     t_attrs = time_attrs({"start_utc": start} if start else {})
-    ds = xr.Dataset({k: ("time", v, attrs(k)) for k, v in data.items()}, coords={"time": ("time", t, t_attrs)})
+    ds = xr.Dataset(data, coords={"time": ("time", t, t_attrs)})
     ds = add_time_bounds(ds, t, 0.0, t_attrs)
-    ds.attrs.update(title=f"wetcycle series run: {model.tables.name}", salt=model.tables.name, law=model.law,
-                    loading_kg_m2=float(loading_kg_m2), wetcycle_version=__version__, Conventions="CF-1.8",
-                    **phase_settings_attrs(model))
+    ds.attrs.update(series_attrs(model, loading_kg_m2, min_water_activity, min_temperature_K))
     return ds
+
+
+def check_thresholds(min_water_activity, min_temperature_K):
+    """Refuse habitability thresholds outside their ranges (those of a scenario's [habitability])."""
+    if not (0 <= min_water_activity <= 1):
+        raise ConfigError(f"min_water_activity: {shown(min_water_activity)} is not allowed; allowed: 0 to 1")
+    if not (100 <= min_temperature_K <= 400):
+        raise ConfigError(f"min_temperature_K: {shown(min_temperature_K)} is not allowed; allowed: 100 to 400 K")
+
+
+def series_attrs(model, loading_kg_m2, min_water_activity, min_temperature_K):
+    """Global attributes of a result of given series (``run_series``, ``run_dataset``)."""
+    return dict(title=f"wetcycle series run: {model.tables.name}", salt=model.tables.name, law=model.law,
+                loading_kg_m2=float(loading_kg_m2), wetcycle_version=__version__, Conventions="CF-1.8",
+                caution=CAUTION, habitability_min_water_activity=float(min_water_activity),
+                habitability_min_temperature_K=float(min_temperature_K), **phase_settings_attrs(model))

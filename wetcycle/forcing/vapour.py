@@ -31,11 +31,13 @@ import numpy as np
 
 from ..errors import ConfigError, ValidityError, shown
 from ..orbit import MARS, get_planet
-from ..water import (MOLAR_MASS_WATER, saturation_vapor_pressure_ice, saturation_vapor_pressure_liquid)
+from ..water import (LIQUID_T_RANGE, MOLAR_MASS_WATER, saturation_vapor_pressure_ice,
+                     saturation_vapor_pressure_liquid)
 
 __all__ = [
     "PRECIPITABLE_MICRON_KG_M2", "R_VAPOUR", "vapor_pressure_from_vmr", "column_to_vapor_pressure",
     "relative_humidity", "relative_humidity_ice", "vapor_pressure_from_relative_humidity",
+    "relative_humidity_for_salt",
 ]
 
 #: One precipitable micron [kg m-2]: 1e-6 m of liquid water at 1000 kg m-3 (common practice).
@@ -173,3 +175,26 @@ def vapor_pressure_from_relative_humidity(rh, temperature_k):
         raise ValidityError(f"relative_humidity: {float(np.max(r))!r} is not allowed; allowed: 0-1 (fraction)")
     e = r * saturation_vapor_pressure_liquid(temperature_k)
     return float(e) if np.ndim(e) == 0 else e
+
+
+def relative_humidity_for_salt(vapor_pressure_pa, temperature_k):
+    """Relative humidity w.r.t. liquid water that a salt sees in a forcing series, in [0, 1] [-].
+
+    RH = e / p_liq(T) with Murphy & Koop (2005) eq. (10), the saturation pressure taken at T
+    clamped to the formula's range 123-332 K (the phase kernel clamps water's own properties there
+    too and flags such steps, bit 1 of its validity flag), and the result clipped to [0, 1]: air
+    supersaturated over liquid water is not a state the salt can see (it would deposit frost or
+    dew first).  This is the conversion of the scenario runner's series forcing and of
+    :func:`wetcycle.run_dataset`.
+
+    Parameters
+    ----------
+    vapor_pressure_pa : array [Pa]
+    temperature_k : array [K], the salt's temperature
+
+    Returns
+    -------
+    ndarray [-]
+    """
+    Tc = np.clip(temperature_k, *LIQUID_T_RANGE)
+    return np.clip(vapor_pressure_pa / saturation_vapor_pressure_liquid(Tc), 0.0, 1.0)
