@@ -100,3 +100,27 @@ def test_site_scenario_takes_a_netcdf_forcing_path(tmp_path):
     doc["forcing"].pop("variables")
     with pytest.raises(ConfigError, match="forcing.variables: required"):
         run(scenario_from_dict(doc))
+
+
+def test_buried_salt_sees_the_vapour_pressure_at_its_own_temperature(tmp_path):
+    # A salt below the surface, forced by a file with no salt temperature: the column gives its
+    # temperature, and its relative humidity is the file's vapour pressure over the saturation
+    # pressure at that temperature (Murphy & Koop 2005, eq. 10; iapws IAPWS-95 at 273.16 K below),
+    # not at the surface's.
+    from iapws import IAPWS95
+
+    from wetcycle.water import saturation_vapor_pressure_liquid
+    doc = {"scenario": {"name": "nc_buried", "planet": "earth", "output": str(tmp_path / "s.nc")},
+           "clock": {"start_utc": "2031-01-05T00:00:00Z", "sols": 2, "steps_per_sol": 24},
+           "site": [{"name": "Buried crust (invented)", "latitude": -70.5, "longitude": -12.0, "salt_depth": 0.05,
+                     "thermal_inertia": 600.0}],
+           "forcing": {"kind": "file", "path": str(DEMO), "variables": VARS},
+           "salt": [{"name": "CaCl2"}],
+           "output": {"series": True}}
+    ds = run(scenario_from_dict(doc), write=False).isel(site=0)
+    Ts, T0, e = ds.salt_temperature.values, ds.surface_temperature.values, ds.vapor_pressure.values
+    assert np.max(np.abs(Ts - T0)) > 2.0  # the depth matters at this site
+    want = np.clip(e / saturation_vapor_pressure_liquid(Ts.astype(float)), 0, 1)
+    np.testing.assert_allclose(ds.relative_humidity.values, want, rtol=1e-5)  # float32 series
+    # the saturation formula itself at the triple point against IAPWS-95 (iapws): 611.657 Pa
+    assert abs(saturation_vapor_pressure_liquid(273.16) / (IAPWS95(T=273.16, x=0).P * 1e6) - 1) < 1e-4

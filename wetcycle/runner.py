@@ -100,11 +100,18 @@ def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None, sa
     the surface water frost [kg m-2] (default none).
     """
     n = T.shape[0]
+    # The salt sees the vapour pressure at its own temperature: a buried salt (``salt_T`` given)
+    # gets the surface's vapour pressure (series forcing has no pore-vapour model) over the
+    # saturation pressure at its depth.  A given RH is at the surface temperature.
+    Ts = T if salt_T is None else salt_T
     if rh is None:
-        rh, rhi = _rh(e, T)
+        rh, rhi = _rh(e, Ts)
     else:
         e = rh * saturation_vapor_pressure_liquid(np.clip(T, *LIQUID_T_RANGE))
-        _, rhi = _rh(e, T)
+        if salt_T is None:
+            _, rhi = _rh(e, T)
+        else:
+            rh, rhi = _rh(e, Ts)
     P = np.broadcast_to(P if P is not None else planet.mean_surface_pressure_pa, T.shape)
     data = dict(surface_temperature=T, salt_temperature=T if salt_T is None else salt_T, vapor_pressure=e,
                 relative_humidity=rh, relative_humidity_ice=rhi, surface_pressure=P,
