@@ -19,6 +19,7 @@ from wetcycle.forcing.files import read_netcdf_cells, salt_temperature_from_surf
 from wetcycle.grid import run_grid
 from wetcycle.orbit import get_planet
 from wetcycle.runner import run
+from wetcycle.water import saturation_vapor_pressure_liquid
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "forcing" / "climate_demo.nc"
@@ -108,8 +109,6 @@ def test_buried_salt_sees_the_vapour_pressure_at_its_own_temperature(tmp_path):
     # pressure at that temperature (Murphy & Koop 2005, eq. 10; iapws IAPWS-95 at 273.16 K below),
     # not at the surface's.
     from iapws import IAPWS95
-
-    from wetcycle.water import saturation_vapor_pressure_liquid
     doc = {"scenario": {"name": "nc_buried", "planet": "earth", "output": str(tmp_path / "s.nc")},
            "clock": {"start_utc": "2031-01-05T00:00:00Z", "sols": 2, "steps_per_sol": 24},
            "site": [{"name": "Buried crust (invented)", "latitude": -70.5, "longitude": -12.0, "salt_depth": 0.05,
@@ -124,3 +123,28 @@ def test_buried_salt_sees_the_vapour_pressure_at_its_own_temperature(tmp_path):
     np.testing.assert_allclose(ds.relative_humidity.values, want, rtol=1e-5)  # float32 series
     # the saturation formula itself at the triple point against IAPWS-95 (iapws): 611.657 Pa
     assert abs(saturation_vapor_pressure_liquid(273.16) / (IAPWS95(T=273.16, x=0).P * 1e6) - 1) < 1e-4
+
+
+@pytest.mark.parametrize("kind", ["csv", "prescribed"])
+def test_csv_and_prescribed_forcing_honour_salt_depth(kind, tmp_path):
+    # salt_depth was ignored outside NetCDF forcing: the salt sat at the surface temperature.  The
+    # column under the surface series gives its temperature; the daily amplitude at depth z falls
+    # as exp(-z/d) (Carslaw & Jaeger 1959, sec. 2.6), so a buried salt swings less than the surface.
+    if kind == "csv":
+        doc = tomllib.loads((ROOT / "runs" / "analog_file_demo.toml").read_text())
+        base = ROOT / "runs"
+    else:
+        doc = {"scenario": {"name": "presc", "planet": "earth", "output": "x.nc"},
+               "clock": {"start_utc": "2031-01-05T00:00:00Z", "sols": 4, "steps_per_sol": 48},
+               "site": [{"name": "Invented flat", "latitude": 10.0, "longitude": 20.0}],
+               "forcing": {"kind": "prescribed", "temperature_mean": 250.0, "temperature_diurnal_amplitude": 20.0,
+                           "vapor_pressure_mean": 30.0},
+               "salt": [{"name": "CaCl2"}], "output": {"series": True}}
+        base = tmp_path
+    for s in doc["site"]:
+        s["salt_depth"] = 0.03
+    ds = run(scenario_from_dict(doc, base_dir=base), write=False).isel(site=0)
+    surf, salt = ds.surface_temperature.values, ds.salt_temperature.values
+    assert np.ptp(salt) < 0.8 * np.ptp(surf)
+    want = np.clip(ds.vapor_pressure.values / saturation_vapor_pressure_liquid(salt.astype(float)), 0, 1)
+    np.testing.assert_allclose(ds.relative_humidity.values, want, rtol=1e-5)  # float32 series

@@ -321,7 +321,8 @@ def _forcing_from_clock(sc, clock, planet, kind, progress):
         fs = prescribed_forcing(clock, lon, temp, vapor_pressure=vap, surface_pressure_pa=f["surface_pressure"])
         T = np.asarray(fs.temperature_K, dtype=float)
         return _series_source(sc, clock, planet, T, e=np.asarray(fs.vapor_pressure_Pa, dtype=float),
-                              P=None if fs.surface_pressure_Pa is None else np.asarray(fs.surface_pressure_Pa))
+                              P=None if fs.surface_pressure_Pa is None else np.asarray(fs.surface_pressure_Pa),
+                              salt_T=_salt_T_below(sc, clock, planet, T))
     # file
     from .forcing.files import read_csv_forcing
     path = sc.resolve(f["path"])
@@ -331,8 +332,20 @@ def _forcing_from_clock(sc, clock, planet, kind, progress):
     n_sites = len(sc.sites)
     col = lambda a: None if a is None else np.repeat(np.asarray(a, dtype=float).reshape(-1, 1), n_sites, axis=1) \
         if np.ndim(a) == 1 else np.asarray(a, dtype=float)
-    return _series_source(sc, clock, planet, col(fs.temperature_K), e=col(fs.vapor_pressure_Pa),
-                          rh=col(fs.relative_humidity), P=col(fs.surface_pressure_Pa))
+    T = col(fs.temperature_K)
+    return _series_source(sc, clock, planet, T, e=col(fs.vapor_pressure_Pa), rh=col(fs.relative_humidity),
+                          P=col(fs.surface_pressure_Pa), salt_T=_salt_T_below(sc, clock, planet, T))
+
+
+def _salt_T_below(sc, clock, planet, T):
+    """Temperature at each site's ``salt_depth`` from the regolith column driven by the surface
+    temperature series ``T`` [step, site] (None when every salt lies at the surface)."""
+    g = _sites(sc)
+    if not np.any(g("salt_depth") > 0):
+        return None
+    from .forcing.files import salt_temperature_from_surface
+    return salt_temperature_from_surface(T, clock.dt_s, g("salt_depth"), g("thermal_inertia"),
+                                         _site_or(sc, "density", 1500.0), _site_or(sc, "heat_capacity", 800.0), planet)
 
 
 NETCDF_SUFFIXES = (".nc", ".nc4", ".cdf", ".netcdf")
@@ -344,7 +357,7 @@ def _netcdf_source(sc, clock, planet, path):
     The salt's temperature comes from the file's ``salt_temperature`` when mapped, otherwise from
     the regolith column driven by the file's surface temperature (sites with ``salt_depth`` > 0).
     """
-    from .forcing.files import read_netcdf_cells, salt_temperature_from_surface
+    from .forcing.files import read_netcdf_cells
     f = sc["forcing"]
     if not f["variables"]:
         raise ConfigError(f"{sc.source}: forcing.variables: required for a NetCDF forcing.path; allowed: a table "
@@ -356,9 +369,7 @@ def _netcdf_source(sc, clock, planet, path):
     T = q["temperature_K"]
     salt_T = q.get("salt_temperature_K")
     if salt_T is None:
-        salt_T = salt_temperature_from_surface(T, clock.dt_s, g("salt_depth"), g("thermal_inertia"),
-                                               _site_or(sc, "density", 1500.0), _site_or(sc, "heat_capacity", 800.0),
-                                               planet)
+        salt_T = _salt_T_below(sc, clock, planet, T)
     return _series_source(sc, clock, planet, T, e=q.get("vapor_pressure_Pa"), rh=q.get("relative_humidity"),
                           P=q.get("surface_pressure_Pa"), salt_T=salt_T, frost=q.get("water_frost_kg_m2"))
 
