@@ -153,6 +153,19 @@ def test_peritectics_and_hydrate_invariant_points(name, T_ref, solids, tol, why)
     assert pts[0]["temperature_K"] == pytest.approx(T_ref, abs=tol), why
 
 
+def test_sodium_perchlorate_monohydrate_stable_in_solution_up_to_50C():
+    # CRC Handbook 91st ed. (2010) 8-112: the monohydrate is the solid in contact with solution at
+    # 0-50 °C, the anhydrous salt at 60 °C and above (read); the transition at 52.75 °C (from memory)
+    # lies above the system's 50 °C limit, so no peritectic inside it.  Before the peritectic was
+    # fitted the model put one at 36.5 °C, against its own solubility data at 40 and 50 °C.
+    s = salts.load("NaClO4")
+    assert not [p for p in s.peritectics() if set(p["solids"]) == {"NaClO4", "NaClO4·H2O"}]
+    T = np.arange(273.15, s.T_max, 1.0)
+    anh, mono = s.saturation_molality(T, "NaClO4"), s.saturation_molality(T, "NaClO4·H2O")
+    ok = np.isfinite(anh)
+    assert ok.sum() > 20 and np.all(anh[ok] > mono[ok])  # the anhydrous salt is the more soluble (metastable)
+
+
 # --- perchlorate deliquescence (lab measurements) ---------------------------------------------------------
 
 @pytest.mark.parametrize("T,rh", sorted(RS.DRH_MGCLO42_6H2O_GU2017.items()))
