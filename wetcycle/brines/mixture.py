@@ -1,0 +1,298 @@
+"""Salt mixtures for the time stepper: a composition, and its equilibrium tables built once.
+
+A mixture is a fixed composition of anhydrous salts (mass fractions of binary salt systems,
+e.g. ``{"Mg(ClO4)2": 0.6, "NaCl": 0.3, "CaSO4": 0.1}``) spread at a loading [kg m-2].  Its
+parcel holds W kg of water per m2, u = W / loading kg of water per kg of salt.  At each
+temperature the stable assemblage of the closed parcel (salt + water) is a function of u
+alone, from the Gibbs-energy minimisation of :func:`wetcycle.brines.equilibrium.equilibrate`
+(Pitzer model for mixtures, Harvie, Moller & Weare 1984 form).  :func:`build_tables` tabulates
+it once per mixture:
+
+* ``u_dry(T)`` [kg kg-1]: the most water the salts hold with neither brine nor ice (their
+  hydrates; 0 for salts without hydrates), located by bisection on u to 1e-4 relative.  Above it
+  the first brine is the mixture's eutonic brine (all its solids present): its water activity
+  is the mutual deliquescence RH (Tang & Munkelwitz 1993, Atmos. Environ. 27A, 467, for the
+  concept), or ice forms first (below the mixture's eutectic, or where the eutonic brine is
+  more dilute than the ice liquidus).
+* on a grid of v = u - u_dry(T) (log-spaced, 1e-4 to 100 kg kg-1), the equilibrium water
+  activity a_w (of the brine; a_w,ice where ice is present; non-decreasing in v), the brine
+  water and the ice per kg of salt, the dissolved fraction (charge equivalents in the brine /
+  all equivalents: the binary kernel's n_diss / n), the brine's ion molalities and a flag.
+
+Validity: the binaries the mixture uses (every cation-anion pair of its ions) each have a
+temperature range.  By default the tables span only the range common to all of them;
+``extrapolate_binaries=True`` extends them down to the lowest T_min among the pairs, with
+every row below a pair's T_min flagged (bit 8 of the kernel's validity flag: the brine's
+water activity is extrapolated), as the path functions do (design decision 9).
+The tables are equilibrium states: no supersaturated brine, supercooling or ice-nucleation
+barrier (the binary kernel's metastability) -- a stated limitation of mixtures.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import ConfigError, ValidityError, shown
+from ..salts.pitzer import MW
+from ..water import ice_activity_kernel
+from . import chemistry as ch
+from .equilibrium import equilibrate
+
+#: v grid (water beyond u_dry, kg per kg of salt): first point, last point, points per decade.
+V_FIRST, V_LAST, V_PER_DECADE = 1e-4, 100.0, 8
+#: Table flag bit: a binary pair extrapolated below its range, or a pair more concentrated than
+#: its binary's data (the kernel's FLAG_EXTRAPOLATED).
+FLAG_EXTRAPOLATED = 8
+#: Mass fractions must add up to 1 within this.
+SUM_TOL = 1e-3
+
+
+def _salt_systems():
+    """{lower-case name: (canonical name, cation, nu_c, anion, nu_a, molar mass kg/mol)}."""
+    out = {}
+    for (ci, ai), s in ch.binary_pairs().items():
+        mm = s.nu_cation * ch.IONS[ci][1] + s.nu_anion * ch.IONS[ai][1]
+        out[s.name.lower()] = (s.name, ci, float(s.nu_cation), ai, float(s.nu_anion), mm)
+    return out
+
+
+def parse_mixture(mixture, field_name="mixture"):
+    """Validate ``{salt system: mass fraction}``; return ({canonical name: fraction}, {ion: mol per kg salt}).
+
+    One-line :class:`~wetcycle.errors.ConfigError` for an unknown salt, a fraction outside (0, 1],
+    or fractions not adding up to 1 (within 0.001).
+    """
+    systems = _salt_systems()
+    if not isinstance(mixture, dict) or not mixture:
+        raise ConfigError(f"{field_name}: expected a table of salt = mass fraction, got {shown(mixture)}")
+    comp, ions = {}, {}
+    for name, w in mixture.items():
+        s = systems.get(str(name).lower())
+        if s is None:
+            raise ConfigError(f"{field_name}: {name!r} is not a salt system; allowed: "
+                              f"{', '.join(sorted(v[0] for v in systems.values()))}")
+        if isinstance(w, bool) or not isinstance(w, (int, float)) or not (math.isfinite(w) and 0 < w <= 1):
+            raise ConfigError(f"{field_name}.{name}: {shown(w)} is not allowed; allowed: a mass fraction in (0, 1]")
+        if s[0] in comp:
+            raise ConfigError(f"{field_name}: {s[0]!r} is listed twice")
+        comp[s[0]] = float(w)
+        n = w / s[5]
+        ions[s[1]] = ions.get(s[1], 0.0) + s[2] * n
+        ions[s[3]] = ions.get(s[3], 0.0) + s[4] * n
+    total = sum(comp.values())
+    if abs(total - 1.0) > SUM_TOL:
+        raise ConfigError(f"{field_name}: mass fractions add up to {total:.6g}; allowed: fractions adding up to 1")
+    return comp, ions
+
+
+@dataclass(frozen=True)
+class MixtureTables:
+    """Equilibrium tables of one mixture (see module docstring).  Arrays [T] or [T, v] (or [T, v, ion])."""
+
+    name: str
+    composition_json: str         # {salt: mass fraction}
+    ions: tuple
+    ion_mol_per_kg: np.ndarray    # [ion] mol per kg of salt mixture
+    extrapolate_binaries: bool
+    T0: float
+    dT: float
+    T_min: float                  # table range [K]
+    T_max: float
+    T_valid_min: float            # lowest T where every binary of the mixture is inside its range
+    v0: float                     # first v [kg kg-1]
+    dlv: float                    # ln spacing of v
+    u_dry: np.ndarray             # [T] kg water per kg salt held with neither brine nor ice
+    awice: np.ndarray             # [T] a_w of ice (2 above 273.15 K: no ice)
+    aw: np.ndarray                # [T, v] equilibrium water activity
+    lw: np.ndarray                # [T, v] brine water [kg per kg salt]
+    iw: np.ndarray                # [T, v] ice [kg per kg salt]
+    diss: np.ndarray              # [T, v] dissolved fraction of the salt (charge equivalents)
+    mol: np.ndarray               # [T, v, ion] brine molalities [mol kg-1] (0 without brine)
+    flag: np.ndarray              # [T, v] bits (FLAG_EXTRAPOLATED)
+    failed: int = 0               # equilibrium states that did not converge (filled from a neighbour)
+    notes: str = field(default="")
+
+    @property
+    def composition(self):
+        return json.loads(self.composition_json)
+
+    @property
+    def mdrh(self):
+        """[T] water activity of the first brine (or ice) above u_dry: the mutual deliquescence RH."""
+        return self.aw[:, 0]
+
+    @property
+    def temperatures(self):
+        return self.T0 + self.dT * np.arange(self.u_dry.size)
+
+    @property
+    def eutectic_K(self):
+        """Lowest table temperature with brine (NaN if none), to the table's spacing."""
+        has = np.any(self.lw > 0, axis=1)
+        return float(self.temperatures[np.argmax(has)]) if has.any() else math.nan
+
+    def kernel_tables(self):
+        from ..phase.mixture_kernel import MixTables
+        return MixTables(self.T0, self.dT, self.v0, self.dlv, self.u_dry, self.awice, self.aw, self.lw, self.iw,
+                         self.diss, np.ascontiguousarray(self.mol), self.flag.astype(np.int64))
+
+
+def _pair_range(chem, extrapolate):
+    lo = [p.T_min for p in chem.pairs]
+    hi = [p.T_max for p in chem.pairs]
+    return (min(lo) if extrapolate else max(lo)), min(hi), max(lo)
+
+
+def _equilibrium(chem, b, u, T, start):
+    """equilibrate at u kg water per kg salt; an assemblage that holds no water counts as all solid."""
+    with np.errstate(divide="ignore", invalid="ignore"):  # a failed state's log(0) is reported as unconverged
+        return equilibrate(chem, b, u / MW, T, start=start)
+
+
+def _solid_only(r):
+    """All water bound in salt solids (no brine, no ice), including 'no solid holds this water'."""
+    if not r.converged:
+        return True  # the model's driest solids hold more water than this (or no state): all solid
+    if r.liquid:
+        return False
+    ice = sum(x for nm, x in zip(r.solids, r.solid_moles) if nm == ch.ICE)
+    return not ice > 0
+
+
+def _start(r):
+    return {nm: x for nm, x in zip(r.solids, r.solid_moles) if x > 0} if r.converged else None
+
+
+def build_tables(mixture, *, name="mixture", extrapolate_binaries=False, dT=1.0, T_range=None,
+                 v_last=V_LAST, v_per_decade=V_PER_DECADE):
+    """Equilibrium tables of a mixture for the time stepper (see module docstring).
+
+    Parameters
+    ----------
+    mixture : dict {salt system: mass fraction}
+    name : str, the mixture's name (results' salt coordinate)
+    extrapolate_binaries : bool
+        Extend the tables below the common range of the binaries (flagged rows), down to the
+        lowest T_min among them.
+    dT : float [K], temperature spacing
+    T_range : (lo, hi) [K], optional narrower range (tests); must lie inside the allowed one
+    v_last, v_per_decade : the v grid (kg water beyond u_dry per kg salt)
+
+    Cost: ~50 equilibrium states per temperature plus a bisection (~3 ms each): ~20-40 s for a
+    Mars range at 1 K.  Cached in memory by :func:`mixture_tables`.
+    """
+    comp, ions = parse_mixture(mixture)
+    chem = ch.load(tuple(ions), "fitted")
+    b = np.array([ions[i] for i in chem.ions])
+    lo, hi, valid_lo = _pair_range(chem, extrapolate_binaries)
+    if T_range is not None:
+        tlo, thi = float(T_range[0]), float(T_range[1])
+        if tlo < lo - 1e-9 or thi > hi + 1e-9 or thi <= tlo:
+            raise ValidityError(f"T_range: {tlo:g}-{thi:g} K is outside the mixture's range {lo:g}-{hi:g} K "
+                                + ("" if extrapolate_binaries else "(extrapolate_binaries=True extends it down)"))
+        lo, hi = tlo, thi
+    if not hi > lo:
+        raise ValidityError(f"{name}: its binaries have no common temperature range ({lo:g}-{hi:g} K)")
+    nT = int(math.floor((hi - lo) / dT + 1e-9)) + 1
+    Ts = lo + dT * np.arange(nT)
+    dlv = math.log(10.0) / v_per_decade
+    nv = int(round(math.log(v_last / V_FIRST) / dlv)) + 1
+    vs = V_FIRST * np.exp(dlv * np.arange(nv))
+    eq = np.abs(chem.z) * b
+    eq_total = float(eq.sum())
+    u_dry = np.zeros(nT)
+    awice = np.full(nT, 2.0)
+    aw = np.full((nT, nv), np.nan)
+    lw = np.zeros((nT, nv))
+    iw = np.zeros((nT, nv))
+    diss = np.zeros((nT, nv))
+    mol = np.zeros((nT, nv, chem.n))
+    flag = np.zeros((nT, nv), dtype=np.int8)
+    failed = 0
+    for k, T in enumerate(Ts):
+        T = float(T)
+        if T <= 273.15:
+            awice[k] = ice_activity_kernel(T)
+        row_flag = FLAG_EXTRAPOLATED if any(T < p.T_min - 1e-9 or T > p.T_max + 1e-9 for p in chem.pairs) else 0
+        # u_dry by bisection on ln u: all-solid below, brine or ice above
+        ulo, uhi = 1e-7, V_FIRST + v_last
+        r = _equilibrium(chem, b, ulo, T, None)
+        if not _solid_only(r):
+            ud = 0.0
+        else:
+            a, c = math.log(ulo), math.log(uhi)
+            for _ in range(60):
+                mid = 0.5 * (a + c)
+                if _solid_only(_equilibrium(chem, b, math.exp(mid), T, None)):
+                    a = mid
+                else:
+                    c = mid
+                if c - a < 1e-4:
+                    break
+            ud = math.exp(a)
+        u_dry[k] = ud
+        prev = None
+        for j, v in enumerate(vs):
+            r = _equilibrium(chem, b, ud + v, T, prev)
+            if not r.converged:
+                failed += 1
+                continue
+            prev = _start(r)
+            ice = sum(x for nm, x in zip(r.solids, r.solid_moles) if nm == ch.ICE)
+            iw[k, j] = ice * MW
+            if r.liquid:
+                aw[k, j] = math.exp(r.ln_aw)
+                lw[k, j] = r.liquid_water_mol * MW
+                diss[k, j] = min(float(np.dot(np.abs(chem.z), r.ion_moles)) / eq_total, 1.0)
+                mol[k, j] = r.molality
+                f = row_flag | (FLAG_EXTRAPOLATED if chem.pair_excess(r.molality) > 1.0 + 1e-9 else 0)
+                flag[k, j] = f
+            elif ice > 0:
+                aw[k, j] = awice[k]
+        # fill unconverged states from the neighbour on the drier side (then the wetter one)
+        row = aw[k]
+        for j in range(nv):
+            if not np.isfinite(row[j]):
+                src = j - 1 if j > 0 and np.isfinite(row[j - 1]) else next(
+                    (q for q in range(j + 1, nv) if np.isfinite(row[q])), None)
+                if src is None:
+                    raise ValidityError(f"{name}: no equilibrium state converged at {T:g} K")
+                aw[k, j], lw[k, j], iw[k, j], diss[k, j] = aw[k, src], lw[k, src], iw[k, src], diss[k, src]
+                mol[k, j], flag[k, j] = mol[k, src], flag[k, src]
+        # equilibrium a_w is non-decreasing in water; remove round-off wiggles
+        aw[k] = np.maximum.accumulate(aw[k])
+    return MixtureTables(
+        name=str(name), composition_json=json.dumps(comp, sort_keys=True), ions=tuple(chem.ions),
+        ion_mol_per_kg=b, extrapolate_binaries=bool(extrapolate_binaries), T0=float(Ts[0]), dT=float(dT),
+        T_min=float(Ts[0]), T_max=float(Ts[-1]), T_valid_min=float(valid_lo), v0=V_FIRST, dlv=dlv,
+        u_dry=u_dry, awice=awice, aw=aw, lw=lw, iw=iw, diss=diss, mol=mol, flag=flag, failed=failed,
+        notes="equilibrium only: no supersaturated brine, supercooling or ice-nucleation barrier")
+
+
+_CACHE = {}
+
+
+def mixture_tables(mixture, *, name="mixture", extrapolate_binaries=False, **kw):
+    """:func:`build_tables`, built once per (composition, name, settings) in this process."""
+    comp, _ = parse_mixture(mixture)
+    key = hashlib.sha256(json.dumps([comp, name, bool(extrapolate_binaries), sorted(kw.items())],
+                                    sort_keys=True, default=str).encode()).hexdigest()
+    tb = _CACHE.get(key)
+    if tb is None:
+        tb = _CACHE[key] = build_tables(comp, name=name, extrapolate_binaries=extrapolate_binaries, **kw)
+    return tb
+
+
+def valid_range(mixture, extrapolate_binaries=False):
+    """(lowest, highest) table temperature [K] of a mixture (without building tables)."""
+    _, ions = parse_mixture(mixture)
+    lo, hi, _ = _pair_range(ch.load(tuple(ions), "fitted"), extrapolate_binaries)
+    return lo, hi
+
+
+__all__ = ["parse_mixture", "build_tables", "mixture_tables", "MixtureTables", "valid_range"]

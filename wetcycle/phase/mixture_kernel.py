@@ -1,0 +1,357 @@
+"""The phase-state kernel of a salt mixture: many cells, a block of time steps, equilibrium tables.
+
+Each cell holds a parcel of a mixture: M [kg m-2] of anhydrous salts and W [kg m-2] of water
+(u = W / M per kg of salt).  Everything the kernel knows of the mixture comes from the tables
+of :func:`wetcycle.brines.mixture.build_tables` (:data:`MixTables`): at temperature T the salts
+hold up to u_dry(T) as hydrate water with neither brine nor ice; beyond it (v = u - u_dry) the
+equilibrium water activity a_w(T, v), brine water, ice, dissolved fraction and ion molalities.
+The kernel takes the same forcing as :func:`wetcycle.phase.kernel.step_block` and fills the same
+output arrays, so statistics and results need no change; it imports the binary kernel's vapour
+exchange (:func:`wetcycle.phase.kernel._exchange`), not a copy of it.
+
+Physics
+-------
+* **Equilibrium states only.**  The parcel's state at (T, u) is the stable assemblage: no
+  supersaturated brine below the mutual deliquescence RH, no supercooling below the mixture's
+  eutectic, no ice-nucleation barrier (the binary kernel's metastability is not modelled for
+  mixtures: a stated limitation, recorded in results).
+* **Water exchange** (vapour-limited law) at the rate of the binary kernel,
+  F = k_x p_sat (RH - a_s), where a_s is the parcel's surface water activity: the table's a_w
+  where brine or ice is present; for an all-solid parcel (u <= u_dry) the mutual deliquescence
+  RH a_w(T, v -> 0), and only uptake (RH above it): the salts' hydrate water is not exchanged in
+  the solid state (no solid-state hydration for mixtures).  W relaxes toward the water content
+  W_eq where a_w = RH (the smallest such with uptake, the largest with loss; u_dry when the air
+  is drier than the first brine) with the secant time constant (W_eq - W0) / F, so the initial
+  flux is exactly F and a step never overshoots W_eq.  The equilibrium law sets W = W_eq at once;
+  with ice present and air at or above ice saturation the parcel is closed (a_w fixed by ice),
+  and an ice-free parcel fills only up to the first ice.  W is capped at the table's last v.
+* **Frost contact** (T <= 273.15 K, frost present): the parcel draws frost up to the first ice
+  (the brine on the ice liquidus) at once, from the frost budget of the current cover (``prev[3]``),
+  as the binary kernel does; no exchange with the air in that step.
+* **Liquid** when the dissolved fraction reaches ``liquid_threshold`` (the binary kernel's rule,
+  n_diss / n >= threshold, in charge equivalents).  The liquid time of a step is placed where
+  g = dissolved fraction - threshold crosses zero, linearly between the step's ends (so liquid
+  hours converge as the step shrinks).
+* **States** from the table: brine with ice, brine with salt (some salt undissolved), brine
+  (all dissolved), frozen (ice, no liquid), crystalline (no liquid, no ice; a sub-threshold brine
+  film is a damp salt).
+
+Limits (flag bits as the binary kernel's): 1, temperature outside the table range (tables read
+at the nearest end; water's own properties at the true temperature); 8, a liquid step whose brine
+uses a binary below its validity range or more concentrated than its data (extrapolated a_w).
+
+Water is conserved to rounding: hydrate + brine + ice water changes exactly by the exchange.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import namedtuple
+
+from numba import njit
+
+from ..water import ice_activity_kernel
+from .kernel import FLAG_CLAMPED, FLAG_EXTRAPOLATED, T_MELT, T_WATER_MAX, T_WATER_MIN, _exchange
+from .states import BRINE, BRINE_WITH_ICE, BRINE_WITH_SALT, CRYSTALLINE, FROZEN
+
+#: The tables as the kernel reads them (see wetcycle.brines.mixture.MixtureTables).
+MixTables = namedtuple("MixTables", ("T0", "dT", "v0", "dlv", "u_dry", "awice", "aw", "lw", "iw", "diss", "mol",
+                                     "flag"))
+#: Parcel state [cell] arrays, updated in place; ``prev`` [5, cell]: T, RH, frost of the last sample,
+#: frost drawn in the current cover, and the liquid criterion g at the end of the last step.
+MixState = namedtuple("MixState", ("W", "prev", "started"))
+#: Outputs [step, cell] (as :data:`wetcycle.phase.kernel.KernelOut`) and ``mol`` [step, cell, ion]
+#: (brine molalities; a [0, 0, 0] array skips them).
+MixOut = namedtuple("MixOut", ("phase", "liq", "aw", "wb", "wh", "wi", "exch", "flag", "mol"))
+#: A dissolved fraction this close to 1 counts as all salt dissolved.
+ALL_DISSOLVED = 1.0 - 1e-9
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _tloc(T, T0, dT, n):
+    x = (T - T0) / dT
+    if x <= 0.0:
+        return 0, 0.0
+    if x >= n - 1:
+        return max(n - 2, 0), 1.0 if n > 1 else 0.0
+    i = int(x)
+    return i, x - i
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _vloc(v, v0, dlv, nv):
+    """(j, w, below): column j and weight w toward j+1; below: v < v0 (w = v / v0 toward column 0)."""
+    if v < v0:
+        return 0, max(v, 0.0) / v0, True
+    x = math.log(v / v0) / dlv
+    if x >= nv - 1:
+        return nv - 2, 1.0, False
+    j = int(x)
+    return j, x - j, False
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _row(tab, i, j, w, below):
+    """a_w at column position (j, w) of T row i (below v0: the column-0 value)."""
+    if below:
+        return tab[i, 0]
+    return tab[i, j] + w * (tab[i, j + 1] - tab[i, j])
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _amount(tab, i, j, w, below):
+    """An amount (brine or ice water, dissolved fraction) at (j, w): 0 at v = 0, linear to column 0."""
+    if below:
+        return w * tab[i, 0]
+    return tab[i, j] + w * (tab[i, j + 1] - tab[i, j])
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _at(tb, i, f, u):
+    """(a_s, brine water, ice, dissolved fraction) per kg of salt at T row position (i, f) and u.
+
+    Each T row is read at its own v = u - u_dry(T) and the two rows are blended.  a_s is NaN for
+    an all-solid parcel (u <= u_dry in both rows).
+    """
+    nv = tb.aw.shape[1]
+    a = 0.0
+    lw = 0.0
+    iw = 0.0
+    ds = 0.0
+    solid = 0.0
+    for r in range(2):
+        ii = i + r
+        wt = (1.0 - f) if r == 0 else f
+        if wt == 0.0 or ii >= tb.aw.shape[0]:
+            continue
+        v = u - tb.u_dry[ii]
+        if v <= 0.0:
+            a += wt * tb.aw[ii, 0]
+            solid += wt
+            continue
+        j, w, below = _vloc(v, tb.v0, tb.dlv, nv)
+        a += wt * _row(tb.aw, ii, j, w, below)
+        lw += wt * _amount(tb.lw, ii, j, w, below)
+        iw += wt * _amount(tb.iw, ii, j, w, below)
+        ds += wt * _amount(tb.diss, ii, j, w, below)
+    if solid >= 1.0:
+        a = math.nan
+    return a, lw, iw, ds
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _u_of_aw(tb, i, f, target, uptake):
+    """Water content u [kg kg-1] where the blended a_w reaches ``target``.
+
+    ``uptake``: the smallest u with a_w >= target (the last column if none); else the largest u
+    with a_w <= target (u_dry if none: the air is drier than the first brine).  Blends the two T
+    rows' columns at equal v offsets from their own u_dry, which keeps a_w monotone in u.
+    """
+    nv = tb.aw.shape[1]
+    ud = (1.0 - f) * tb.u_dry[i] + f * tb.u_dry[i + 1] if i + 1 < tb.aw.shape[0] else tb.u_dry[i]
+    i1 = i + 1 if i + 1 < tb.aw.shape[0] else i
+    lo = 0
+    hi = nv - 1
+    if uptake:
+        # smallest j with a(j) >= target
+        if (1.0 - f) * tb.aw[i, nv - 1] + f * tb.aw[i1, nv - 1] < target:
+            return ud + tb.v0 * math.exp(tb.dlv * (nv - 1))
+        a0 = (1.0 - f) * tb.aw[i, 0] + f * tb.aw[i1, 0]
+        if a0 >= target:
+            return ud + tb.v0
+        while hi - lo > 1:
+            mid = (lo + hi) // 2
+            if (1.0 - f) * tb.aw[i, mid] + f * tb.aw[i1, mid] >= target:
+                hi = mid
+            else:
+                lo = mid
+    else:
+        # largest j with a(j) <= target
+        a0 = (1.0 - f) * tb.aw[i, 0] + f * tb.aw[i1, 0]
+        if a0 > target:
+            return ud
+        if (1.0 - f) * tb.aw[i, nv - 1] + f * tb.aw[i1, nv - 1] <= target:
+            return ud + tb.v0 * math.exp(tb.dlv * (nv - 1))
+        while hi - lo > 1:
+            mid = (lo + hi) // 2
+            if (1.0 - f) * tb.aw[i, mid] + f * tb.aw[i1, mid] <= target:
+                lo = mid
+            else:
+                hi = mid
+    al = (1.0 - f) * tb.aw[i, lo] + f * tb.aw[i1, lo]
+    ah = (1.0 - f) * tb.aw[i, hi] + f * tb.aw[i1, hi]
+    t = (target - al) / (ah - al) if ah > al else (1.0 if uptake else 0.0)
+    t = min(max(t, 0.0), 1.0)
+    return ud + tb.v0 * math.exp(tb.dlv * (lo + t))
+
+
+@njit(cache=True, inline="always", error_model="numpy")
+def _u_first_ice(tb, i, f):
+    """Smallest u with ice in the blended rows (inf where no ice at any tabulated water)."""
+    nv = tb.aw.shape[1]
+    i1 = i + 1 if i + 1 < tb.aw.shape[0] else i
+    ud = (1.0 - f) * tb.u_dry[i] + f * tb.u_dry[i1]
+    for j in range(nv):
+        if (1.0 - f) * tb.iw[i, j] + f * tb.iw[i1, j] > 0.0:
+            if j == 0:
+                return ud
+            return ud + tb.v0 * math.exp(tb.dlv * (j - 1))
+    return math.inf
+
+
+@njit(cache=True, error_model="numpy", nogil=True)
+def step_mixture_block(T, RH, P, frost, dt, mass, law, tb, st, out):
+    """Advance every cell through ``T.shape[0]`` samples (arguments as ``kernel.step_block``).
+
+    mass : [cell] kg m-2 of anhydrous salt mixture.  law : ``kernel.LawParams`` (``hydrate_instant``
+    unused).  tb : :data:`MixTables`.  st : :data:`MixState`.  out : :data:`MixOut`.
+    """
+    nstep, ncell = T.shape
+    nT = tb.aw.shape[0]
+    nv = tb.aw.shape[1]
+    T_lo = tb.T0
+    T_hi = tb.T0 + tb.dT * (nT - 1)
+    u_cap = tb.v0 * math.exp(tb.dlv * (nv - 1))
+    instant = law.instant
+    thr = law.liquid_threshold
+    want_mol = out.mol.shape[0] > 0
+    nion = tb.mol.shape[2]
+    st_W, st_prev, st_started = st
+    for k in range(nstep):
+        dtk = dt[k]
+        for c in range(ncell):
+            Tb_raw = T[k, c]
+            RHb = min(max(RH[k, c], 1e-9), 1.0)
+            Fb = frost[k, c]
+            M = mass[c]
+            W0 = st_W[c]
+            if st_started[c] == 0:
+                st_prev[0, c], st_prev[1, c], st_prev[2, c] = Tb_raw, RHb, Fb
+                st_prev[3, c] = 0.0
+                st_prev[4, c] = math.nan
+                st_started[c] = 1
+            used = st_prev[3, c] if Fb > 0.0 else 0.0
+            Fb = max(Fb - used, 0.0)
+            drawn = 0.0
+            flag = 0
+            Tb = Tb_raw
+            if Tb < T_lo or Tb > T_hi:
+                flag = FLAG_CLAMPED
+                Tb = min(max(Tb, T_lo), T_hi)
+            Tw = Tb_raw
+            if Tw < T_WATER_MIN or Tw > T_WATER_MAX:
+                flag = FLAG_CLAMPED
+                Tw = min(max(Tw, T_WATER_MIN), T_WATER_MAX)
+            i, f = _tloc(Tb, tb.T0, tb.dT, nT)
+            u0 = W0 / M
+            a0, lw0, iw0, ds0 = _at(tb, i, f, u0)
+            dry = a0 != a0
+            a_s = a0
+            if dry:  # all solid: the first brine's a_w decides uptake; no loss of hydrate water
+                a_s = (1.0 - f) * tb.aw[i, 0] + f * tb.aw[min(i + 1, nT - 1), 0]
+            W = W0
+            frost_touch = Fb > 0.0 and Tb_raw <= T_MELT
+            if frost_touch:
+                # contact melting up to the first ice (the brine on its liquidus), from the frost budget
+                ui = _u_first_ice(tb, i, f)
+                if ui < math.inf:
+                    need = ui * M - W0
+                    if need > 0.0:
+                        drawn = min(need, Fb)
+                        W = W0 + drawn
+            elif instant:
+                if RHb > a_s:
+                    u_t = _u_of_aw(tb, i, f, RHb, True)
+                    aw_i = ice_activity_kernel(Tw) if Tb_raw <= T_MELT else 2.0
+                    if RHb >= aw_i * (1.0 - 1e-5):
+                        # at or above ice saturation: closed once ice is present, else up to the first ice
+                        ui = _u_first_ice(tb, i, f)
+                        if iw0 > 0.0:
+                            u_t = u0
+                        elif ui < u_t:
+                            u_t = ui
+                    W = max(u_t * M, W0) if dry else u_t * M
+                elif RHb < a_s and not dry:
+                    W = _u_of_aw(tb, i, f, RHb, False) * M
+            elif RHb != a_s and not (dry and RHb < a_s):
+                up = RHb > a_s
+                u_t = _u_of_aw(tb, i, f, RHb, up)
+                dWt = u_t * M - W0
+                if dWt != 0.0 and (dWt > 0.0) == up:
+                    psat, kx = _exchange(Tw, P[k, c], law.dfactor, law.diffusion_length)
+                    rate = kx * psat * abs(RHb - a_s) / abs(dWt)
+                    W = u_t * M - dWt * math.exp(-rate * dtk)
+            W = min(max(W, 0.0), max(u_cap * M, W0))
+            a1, lw1, iw1, ds1 = _at(tb, i, f, W / M)
+            wb = lw1 * M
+            wi = iw1 * M
+            if wb + wi > W:  # interpolation of amounts never exceeds the water present
+                s = W / (wb + wi)
+                wb *= s
+                wi *= s
+            wh = W - wb - wi
+            g1 = ds1 - thr if wb > 0.0 else -1.0
+            g0 = st_prev[4, c]
+            if g0 != g0:
+                g0 = g1
+            if g1 >= 0.0 and g0 >= 0.0:
+                liq = 1.0
+            elif g1 < 0.0 and g0 < 0.0:
+                liq = 0.0
+            elif g1 >= 0.0:
+                liq = g1 / (g1 - g0)  # wet from the crossing to the end
+            else:
+                liq = g0 / (g0 - g1)  # wet from the start to the crossing
+            wet = g1 >= 0.0
+            if wet:
+                if wi > 0.0:
+                    s1 = BRINE_WITH_ICE
+                elif ds1 < ALL_DISSOLVED:
+                    s1 = BRINE_WITH_SALT
+                else:
+                    s1 = BRINE
+            elif wi > 0.0:
+                s1 = FROZEN
+            else:
+                s1 = CRYSTALLINE
+            out.phase[k, c] = s1
+            out.liq[k, c] = liq
+            out.aw[k, c] = a1 if wet else math.nan
+            out.wb[k, c] = wb
+            out.wh[k, c] = wh
+            out.wi[k, c] = wi
+            out.exch[k, c] = W - W0
+            if wet or liq > 0.0:
+                ft = tb.flag[i, 0] if f < 0.5 else tb.flag[min(i + 1, nT - 1), 0]
+                v1 = W / M - tb.u_dry[i]
+                if v1 > 0.0:
+                    j, w, below = _vloc(v1, tb.v0, tb.dlv, nv)
+                    ft = tb.flag[i, j if w < 0.5 or below else j + 1]
+                flag |= ft & FLAG_EXTRAPOLATED
+            out.flag[k, c] = flag
+            if want_mol:
+                if wb > 0.0:
+                    v1 = W / M - tb.u_dry[i]
+                    i1 = min(i + 1, nT - 1)
+                    v2 = W / M - tb.u_dry[i1]
+                    for q in range(nion):
+                        m = 0.0
+                        if v1 > 0.0:
+                            j, w, below = _vloc(v1, tb.v0, tb.dlv, nv)
+                            m += (1.0 - f) * (tb.mol[i, 0, q] if below else
+                                              tb.mol[i, j, q] + w * (tb.mol[i, j + 1, q] - tb.mol[i, j, q]))
+                        if v2 > 0.0 and f > 0.0:
+                            j, w, below = _vloc(v2, tb.v0, tb.dlv, nv)
+                            m += f * (tb.mol[i1, 0, q] if below else
+                                      tb.mol[i1, j, q] + w * (tb.mol[i1, j + 1, q] - tb.mol[i1, j, q]))
+                        out.mol[k, c, q] = m
+                else:
+                    for q in range(nion):
+                        out.mol[k, c, q] = math.nan
+            st_W[c] = W
+            st_prev[0, c], st_prev[1, c], st_prev[2, c] = Tb_raw, RHb, frost[k, c]
+            st_prev[4, c] = g1
+            if frost[k, c] > 0.0:
+                st_prev[3, c] = used + drawn
+            elif st_prev[3, c] != 0.0:
+                st_prev[3, c] = 0.0
