@@ -130,8 +130,12 @@ SCHEMA = {
         "porosity": (NUM, 0.35, 0.01, 0.9, "regolith porosity"),
     },
     "salt": {
-        "name": (str, REQUIRED, None, None, "a salt system, e.g. NaCl, Mg(ClO4)2"),
+        "name": (str, REQUIRED, None, None, "a salt system, e.g. NaCl, Mg(ClO4)2; with mixture: the mixture's own name"),
         "loading": (NUM, PHASE_DEFAULTS["loading_kg_m2"], 1e-6, 100.0, "kg m-2 of anhydrous salt"),
+        "mixture": (dict, None, None, None, "a salt mixture: salt system = mass fraction of the anhydrous salts "
+                    "(adding up to 1)"),
+        "extrapolate_binaries": (bool, False, None, None, "mixture: use its binaries below their validity ranges "
+                                 "(flagged)"),
     },
     "phase": {
         "law": (str, PHASE_DEFAULTS["law"], None, None, " | ".join(TIME_LAWS)),
@@ -375,10 +379,22 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
     from .salts import load as load_salt
     names = []
     for i, s in enumerate(lists["salt"]):
-        try:
-            s["name"] = load_salt(s["name"]).name
-        except WetcycleError as exc:
-            raise ConfigError(f"{source}: salt[{i + 1}].name: {exc}") from None
+        if s["mixture"] is not None:
+            from .brines.mixture import parse_mixture
+            try:
+                s["mixture"] = parse_mixture(s["mixture"], f"salt[{i + 1}].mixture")[0]
+            except WetcycleError as exc:
+                raise ConfigError(f"{source}: {exc}") from None
+            if not s["name"].strip():
+                raise ConfigError(f"{source}: salt[{i + 1}].name: a mixture needs a name")
+        else:
+            if s["extrapolate_binaries"]:
+                raise ConfigError(f"{source}: salt[{i + 1}].extrapolate_binaries: applies to a mixture only; "
+                                  "allowed: give mixture = {{ salt = mass fraction, ... }} or remove it")
+            try:
+                s["name"] = load_salt(s["name"]).name
+            except WetcycleError as exc:
+                raise ConfigError(f"{source}: salt[{i + 1}].name: {exc}") from None
         if s["name"] in names:
             raise ConfigError(f"{source}: salt[{i + 1}].name: {s['name']!r} is listed twice")
         names.append(s["name"])

@@ -476,6 +476,8 @@ def assemble(sc, store, hashes=None):
         habitability_min_temperature_K=float(hab["min_temperature"]),
         **phase_settings_attrs(sc["phase"]),
     )
+    from .output import mixture_attrs
+    ds.attrs.update(mixture_attrs(sc))
     note_short_run(ds, years, planet)
     if sc["forcing"]["kind"] == "energy_balance":     # what the humidity rested on
         from .output import WATER_CAUTION

@@ -38,6 +38,42 @@ STAT_DIMS = {"liquid_hours_by_ls": ("salt", "site", "ls_bin"),
              "liquid_hours_by_local_time": ("salt", "site", "hour_bin")}
 
 
+def _ion_molality(phase_series):
+    """(ion names, array [salt, site, time, ion]) of the mixtures' brine ions, or None without mixtures.
+
+    Ions are the union over the mixtures; a salt or mixture without an ion holds NaN for it.
+    """
+    ions = []
+    for ps in phase_series:
+        for i in ps.get("_ions", ()):
+            if i not in ions:
+                ions.append(i)
+    if not ions:
+        return None
+    first = np.concatenate(phase_series[0]["liquid_water"], axis=0)
+    n_t, n_site = first.shape
+    arr = np.full((len(phase_series), n_site, n_t, len(ions)), np.nan, dtype=np.float32)
+    for j, ps in enumerate(phase_series):
+        if "_ion_molality" in ps:
+            a = np.concatenate(ps["_ion_molality"], axis=0)  # [time, site, ion]
+            for q, ion in enumerate(ps["_ions"]):
+                arr[j, :, :, ions.index(ion)] = a[:, :, q].T
+    return ions, arr
+
+
+def mixture_attrs(sc):
+    """Global attributes describing the scenario's salt mixtures ({} without any)."""
+    mixes = {s["name"]: {"composition_mass_fraction": s["mixture"],
+                         "extrapolate_binaries": bool(s.get("extrapolate_binaries", False))}
+             for s in sc.salts if s.get("mixture")}
+    if not mixes:
+        return {}
+    from .phase.mixture_model import NOTES
+    return {"mixtures": json.dumps(mixes, sort_keys=True),
+            "mixture_model": "equilibrium tables per mixture from the multicomponent Pitzer model "
+                             "(wetcycle.brines.mixture); " + NOTES}
+
+
 def build_dataset(sc, src, stats, series=None, phase_series=None):
     """Assemble the result of a run (see /DEVELOPERS.md "Result files" for the layout)."""
     planet = sc["scenario"]["planet"]
@@ -71,7 +107,13 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
                                       att("local_solar_time"))
         for k, parts in series.items():
             data[k] = (("site", "time"), np.concatenate(parts, axis=0).T, att(k))
+        ion_var = _ion_molality(phase_series)
+        if ion_var is not None:
+            coords["ion"] = ("ion", np.array(ion_var[0], dtype=object), att("ion"))
+            data["ion_molality"] = (("salt", "site", "time", "ion"), ion_var[1], att("ion_molality"))
         for k in phase_series[0]:
+            if k in ("_ion_molality", "_ions"):
+                continue
             if k == "_initial_water":
                 data["initial_water"] = (("salt", "site"), np.stack([ps[k] for ps in phase_series]),
                                          att("initial_water"))
@@ -98,6 +140,7 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
         forcing=sc["forcing"]["kind"],
         law=sc["phase"]["law"],
         years=float(src.years),
+        **mixture_attrs(sc),
         steps_per_sol=int(src.steps_per_sol),
         habitability_min_water_activity=float(hab["min_water_activity"]),
         habitability_min_temperature_K=float(hab["min_temperature"]),

@@ -463,8 +463,15 @@ def bin_coverage(sc, src=None):
 def phase_models(sc, tables=None):
     """One :class:`PhaseModel` per ``[[salt]]`` of the scenario; ``tables`` (salt name -> PhaseTables)
     are used as given when passed (a worker process never looks a salt up by name)."""
-    return [PhaseModel.from_settings(s["name"], sc["phase"], tables=None if tables is None else tables[s["name"]])
-            for s in sc.salts]
+    out = []
+    for s in sc.salts:
+        tb = None if tables is None else tables[s["name"]]
+        if s.get("mixture"):  # a salt mixture (issue 13): equilibrium tables built once per mixture
+            from .phase.mixture_model import MixtureModel
+            out.append(MixtureModel.from_entry(s, sc["phase"], tables=tb))
+        else:
+            out.append(PhaseModel.from_settings(s["name"], sc["phase"], tables=tb))
+    return out
 
 
 def statistics(sc, tables=None, timings=None):
@@ -539,8 +546,15 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
                                             d["salt_temperature"][0], d["relative_humidity"][0])
                 if keep:
                     initial_water[j] = states[j].total_water.copy()
-            r = phase_block(m, states[j], acc, d["salt_temperature"], d["relative_humidity"], d["surface_pressure"],
-                            frost, blk.dt_s, season[blk.i0:blk.i1], blk.ltst_h)
+            mix = keep and getattr(m, "is_mixture", False)  # a mixture's brine ions are saved with series
+            if mix:
+                r = m.step(states[j], d["salt_temperature"], d["relative_humidity"], d["surface_pressure"], frost,
+                           blk.dt_s, ion_molality=True)
+                acc.add(r.liquid_fraction, r.phase, r.water_activity, d["salt_temperature"],
+                        season[blk.i0:blk.i1], blk.ltst_h, r.validity_flag, blk.dt_s, r.liquid_water)
+            else:
+                r = phase_block(m, states[j], acc, d["salt_temperature"], d["relative_humidity"],
+                                d["surface_pressure"], frost, blk.dt_s, season[blk.i0:blk.i1], blk.ltst_h)
             if water_cycle:
                 gain = np.maximum(r.exchanged, 0.0)
                 uptake[j] += _sum_steps(gain)
@@ -551,6 +565,9 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
                 for k, v in phase_outputs(r).items():
                     phase_series[j][k].append(v if k == "water_exchanged" or v.dtype != np.float64
                                               else v.astype(np.float32))
+                if mix:
+                    phase_series[j].setdefault("_ion_molality", []).append(r.ion_molality.astype(np.float32))
+                    phase_series[j]["_ions"] = m.ions
         if keep:
             for k in series_keys:
                 series[k].append(np.asarray(d[k], dtype=np.float32))

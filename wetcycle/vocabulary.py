@@ -20,7 +20,10 @@ VARIABLES = {
     "longitude": ("degrees_east", "longitude", "longitude"),
     "lat": ("degrees_north", "latitude of the cell centre", "latitude"),
     "lon": ("degrees_east", "longitude of the cell centre", "longitude"),
-    "salt": (None, "salt system (formula of the anhydrous salt)", None),
+    "salt": (None, "salt system (formula of the anhydrous salt) or the name of a salt mixture", None),
+    "ion": (None, "ion of a mixture's brine", None),
+    "ion_molality": ("mol kg-1", "molality of each ion in a salt mixture's brine (NaN without brine; "
+                     "single salts: NaN)", None),
     "site": (None, "site name", None),
     "ls_bin": ("degree", "centre of the bin of areocentric solar longitude Ls", None),
     "hour_bin": ("hour", "centre of the bin of local true solar time", None),
@@ -100,7 +103,8 @@ VARIABLES = {
     "lower_limit_freezes": ("1", "supercooled brine frozen at the salt's lower validity limit, above its "
                             "supercooling limit", None),
     "extrapolated_liquid_steps": ("1", "steps with liquid brine more concentrated than the salt's published "
-                                  "water-activity data (extrapolated)", None),
+                                  "water-activity data, or (mixtures) using a binary below its validity range "
+                                  "(extrapolated)", None),
 }
 
 #: Extra attributes for categorical variables (CF flags).

@@ -157,7 +157,9 @@ def _equilibrium(chem, b, u, T, start):
 def _solid_only(r):
     """All water bound in salt solids (no brine, no ice), including 'no solid holds this water'."""
     if not r.converged:
-        return True  # the model's driest solids hold more water than this (or no state): all solid
+        # the model's driest solids hold more water than this: all solid; any other failure is the
+        # solver losing a vanishing, extremely concentrated brine: wet
+        return r.message.startswith("the liquid vanishes but no solid")
     if r.liquid:
         return False
     ice = sum(x for nm, x in zip(r.solids, r.solid_moles) if nm == ch.ICE)
@@ -219,24 +221,34 @@ def build_tables(mixture, *, name="mixture", extrapolate_binaries=False, dT=1.0,
         if T <= 273.15:
             awice[k] = ice_activity_kernel(T)
         row_flag = FLAG_EXTRAPOLATED if any(T < p.T_min - 1e-9 or T > p.T_max + 1e-9 for p in chem.pairs) else 0
-        # u_dry by bisection on ln u: all-solid below, brine or ice above
+        # u_dry: march down from a wet state in halving steps, each state started from the last wet
+        # one (the solver follows a shrinking brine; a cold start at little water can land on a
+        # metastable hydrate), then bisect on ln u between the last wet and the first all-solid state
         ulo, uhi = 1e-7, V_FIRST + v_last
-        r = _equilibrium(chem, b, ulo, T, None)
-        if not _solid_only(r):
+        wet = _equilibrium(chem, b, uhi, T, None)
+        c = math.log(uhi)
+        a = None
+        while c > math.log(ulo):
+            r = _equilibrium(chem, b, math.exp(c - math.log(2.0)), T, _start(wet))
+            if _solid_only(r):
+                a = c - math.log(2.0)
+                break
+            c, wet = c - math.log(2.0), r
+        if a is None:
             ud = 0.0
         else:
-            a, c = math.log(ulo), math.log(uhi)
             for _ in range(60):
                 mid = 0.5 * (a + c)
-                if _solid_only(_equilibrium(chem, b, math.exp(mid), T, None)):
+                r = _equilibrium(chem, b, math.exp(mid), T, _start(wet))
+                if _solid_only(r):
                     a = mid
                 else:
-                    c = mid
+                    c, wet = mid, r
                 if c - a < 1e-4:
                     break
             ud = math.exp(a)
         u_dry[k] = ud
-        prev = None
+        prev = _start(wet)
         for j, v in enumerate(vs):
             r = _equilibrium(chem, b, ud + v, T, prev)
             if not r.converged:
@@ -275,11 +287,14 @@ def build_tables(mixture, *, name="mixture", extrapolate_binaries=False, dT=1.0,
 
 
 _CACHE = {}
+#: Temperature spacing [K] of tables built for scenarios (tests may coarsen it to build faster).
+DEFAULT_DT = 1.0
 
 
 def mixture_tables(mixture, *, name="mixture", extrapolate_binaries=False, **kw):
     """:func:`build_tables`, built once per (composition, name, settings) in this process."""
     comp, _ = parse_mixture(mixture)
+    kw.setdefault("dT", DEFAULT_DT)
     key = hashlib.sha256(json.dumps([comp, name, bool(extrapolate_binaries), sorted(kw.items())],
                                     sort_keys=True, default=str).encode()).hexdigest()
     tb = _CACHE.get(key)

@@ -1,0 +1,238 @@
+"""Salt mixtures in the time stepper (issue 13, part 3): tables, kernel, scenarios, grids.
+
+Tables are built small (few temperatures, coarse spacing) to keep the suite fast.
+"""
+
+import tomllib
+from pathlib import Path
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from wetcycle import cli
+from wetcycle.brines import mutual_deliquescence_rh
+from wetcycle.brines import mixture as mx
+from wetcycle.config import scenario_from_dict
+from wetcycle.errors import ConfigError
+from wetcycle.phase.mixture_model import MixtureModel
+from wetcycle.phase.states import BRINE, BRINE_WITH_ICE, BRINE_WITH_SALT, CRYSTALLINE, FROZEN
+
+ROOT = Path(__file__).resolve().parents[1]
+NACL_KCL = {"NaCl": 0.5, "KCl": 0.5}
+
+
+@pytest.fixture(scope="module")
+def nacl_kcl():
+    return mx.mixture_tables(NACL_KCL, name="NaCl-KCl", T_range=(294.0, 302.0), dT=2.0)
+
+
+@pytest.fixture(scope="module")
+def nacl():
+    return mx.mixture_tables({"NaCl": 1.0}, name="NaCl alone", T_range=(294.0, 302.0), dT=2.0)
+
+
+@pytest.fixture(scope="module")
+def cold_soil():
+    # perchlorate-chloride soil around its eutectic and the ice field (binaries extrapolated, flagged)
+    return mx.mixture_tables({"Mg(ClO4)2": 0.5, "NaCl": 0.5}, name="cold soil", extrapolate_binaries=True,
+                             T_range=(196.0, 276.0), dT=4.0)
+
+
+def ramp(model, T, rh, dt=60.0, loading=0.05):
+    n = rh.size
+    st_ = model.initial_state(1, loading, T)
+    r = model.step(st_, np.full((n, 1), T), rh[:, None], 600.0, 0.0, dt)
+    return st_, r
+
+
+def test_single_salt_mixture_deliquesces_at_the_binary_drh(nacl):
+    # NaCl DRH at 25 C: 0.7528 +- 0.0003 (Greenspan 1977, J. Res. NBS 81A, 89, Table 2); 0.01 asked by the issue
+    m = MixtureModel("NaCl alone", {"NaCl": 1.0}, law="equilibrium", tables=nacl)
+    rh = np.linspace(0.70, 0.80, 2001)
+    _, r = ramp(m, 298.15, rh)
+    k = int(np.argmax(r.liquid_fraction[:, 0] > 0))
+    assert k > 0 and abs(rh[k] - 0.7528) < 0.01
+    assert r.phase[k - 1, 0] == CRYSTALLINE and r.phase[k + 1, 0] in (BRINE_WITH_SALT, BRINE)
+
+
+def test_nacl_kcl_mutual_deliquescence_from_the_stepper(nacl_kcl):
+    # NaCl-KCl eutonic at 25 C: 72.7 % (Tang & Munkelwitz 1993, Atmos. Environ. 27A, 467; from memory);
+    # tolerance 0.01: the fitted mixing terms' residual at this point (README table: 72.2 %)
+    m = MixtureModel("NaCl-KCl", NACL_KCL, law="equilibrium", tables=nacl_kcl)
+    rh = np.linspace(0.65, 0.80, 3001)
+    _, r = ramp(m, 298.15, rh)
+    k = int(np.argmax(r.liquid_fraction[:, 0] > 0))
+    assert abs(rh[k] - 0.727) < 0.01
+    # below either salt's own DRH (NaCl 0.753, Greenspan 1977; KCl 0.843, Greenspan 1977)
+    assert rh[k] < 0.75
+    # the stepper equals the path function's mutual deliquescence RH within the table's resolution
+    # (linear in T between rows 2 K apart: ~1e-3)
+    ref = mutual_deliquescence_rh({"NaCl": 0.5 / 0.05844, "KCl": 0.5 / 0.07455}, 298.15)
+    assert abs(rh[k] - ref) < 2e-3
+
+
+def test_held_parcel_converges_to_a_w_equal_rh(nacl_kcl):
+    # equilibrium as the long-time limit of the vapour-limited law (common practice: a_w = RH at equilibrium)
+    m = MixtureModel("NaCl-KCl", NACL_KCL, law="vapour_limited", tables=nacl_kcl)
+    n = 3000
+    st_ = m.initial_state(1, 0.05, 298.0)
+    r = m.step(st_, np.full((n, 1), 298.0), 0.85, 600.0, 0.0, 600.0)
+    assert r.phase[-1, 0] == BRINE
+    assert abs(r.water_activity[-1, 0] - 0.85) < 1e-6  # relaxed for 500 h: the residual decays exponentially
+    # the first step takes up no more than the initial Fick flux F = k_x p_sat (RH - MDRH) allows
+    # (the binary kernel's law, imported: wetcycle.phase.kernel._exchange)
+    from wetcycle.phase.kernel import _exchange
+    psat, kx = _exchange(298.0, 600.0, 0.2, 2.5e-3)
+    mdrh = float(np.interp(298.0, nacl_kcl.temperatures, nacl_kcl.mdrh))
+    assert 0 < r.exchanged[0, 0] <= kx * psat * (0.85 - mdrh) * 600.0 * (1 + 1e-9)
+
+
+def test_equilibrium_law_matches_the_equilibrium_solver(nacl_kcl):
+    # a_w of the stepper's brine equals equilibrate's for the same water (tables interpolated in log water)
+    from wetcycle.brines import chemistry as ch
+    from wetcycle.brines.equilibrium import equilibrate
+    m = MixtureModel("NaCl-KCl", NACL_KCL, law="equilibrium", tables=nacl_kcl)
+    _, r = ramp(m, 298.0, np.full(3, 0.9))
+    W = r.liquid_water[-1, 0] + r.hydrate_water[-1, 0]
+    _, ions = mx.parse_mixture(NACL_KCL)
+    chem = ch.load(tuple(ions))
+    b = np.array([ions[i] for i in chem.ions]) * 0.05
+    e = equilibrate(chem, b, W / ch.MW, 298.0)
+    assert abs(e.water_activity - 0.9) < 2e-3  # log-water interpolation of a_w between table columns
+
+
+def test_cold_mixture_freezes_and_flags_extrapolated_binaries(cold_soil):
+    m = MixtureModel("cold soil", {"Mg(ClO4)2": 0.5, "NaCl": 0.5}, law="equilibrium", extrapolate_binaries=True,
+                     tables=cold_soil)
+    # above ice saturation at 240 K a brine on the ice field; at 200 K (below Mg(ClO4)2's eutectic,
+    # 206 K, Chevrier et al. 2009; a mixture's eutectic cannot lie above it) no liquid
+    T = np.array([240.0] * 200 + [200.0] * 200)
+    from wetcycle.water import ice_water_activity
+    rh = np.minimum(ice_water_activity(T) * 1.05, 1.0)
+    st_ = m.initial_state(1, 0.05, 240.0)
+    r = m.step(st_, T[:, None], rh[:, None], 600.0, 0.0, 600.0)
+    # the equilibrium law fills an ice-free parcel up to the first ice: a brine on the ice liquidus,
+    # a_w = a_w,ice (Murphy & Koop 2005), within the table's 4 K interpolation
+    assert r.phase[150, 0] in (BRINE_WITH_SALT, BRINE_WITH_ICE, BRINE) and r.liquid_fraction[150, 0] == 1.0
+    assert abs(r.water_activity[150, 0] - ice_water_activity(240.0)) < 0.01
+    assert r.phase[-1, 0] == FROZEN and r.liquid_fraction[-1, 0] == 0.0
+    # 240 K lies below NaCl's fitted range (245 K): the liquid steps are flagged (bit 8)
+    assert np.all(r.validity_flag[100:200, 0] & 8)
+    assert np.isnan(r.water_activity[-1, 0])
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.lists(st.tuples(st.floats(200.0, 276.0), st.floats(0.0, 1.0), st.floats(0.0, 0.02)),
+                min_size=2, max_size=40),
+       st.sampled_from(["equilibrium", "vapour_limited"]))
+def test_water_conserved_and_states_consistent(cold_soil, forcing, law):
+    # invariant (common practice): hydrate + brine + ice changes exactly by the water exchanged
+    m = MixtureModel("cold soil", {"Mg(ClO4)2": 0.5, "NaCl": 0.5}, law=law, extrapolate_binaries=True,
+                     tables=cold_soil)
+    a = np.array(forcing)
+    T, rh, frost = a[:, 0:1], a[:, 1:2], a[:, 2:3]
+    st_ = m.initial_state(1, 0.05, T[0])
+    w0 = st_.W.copy()
+    r = m.step(st_, T, rh, 600.0, frost, 900.0)
+    total = r.liquid_water + r.hydrate_water + r.ice_water
+    assert np.allclose(total[-1], w0 + r.exchanged.sum(axis=0), rtol=0, atol=1e-14)
+    assert np.allclose(total, w0 + np.cumsum(r.exchanged, axis=0), rtol=0, atol=1e-14)
+    assert np.all(r.liquid_water >= 0) and np.all(r.ice_water >= 0) and np.all(r.hydrate_water >= -1e-15)
+    assert np.all((r.liquid_fraction >= 0) & (r.liquid_fraction <= 1))
+    liquid = np.isin(r.phase, (BRINE, BRINE_WITH_SALT, BRINE_WITH_ICE))
+    assert np.all(np.isfinite(r.water_activity[liquid])) and np.all(np.isnan(r.water_activity[~liquid]))
+    assert np.all(r.liquid_water[liquid] > 0)
+    assert np.all(r.ice_water[r.phase == BRINE_WITH_ICE] > 0) and np.all(r.ice_water[r.phase == FROZEN] > 0)
+    assert np.all((r.water_activity[liquid] > 0) & (r.water_activity[liquid] <= 1))
+
+
+def test_bad_mixture_entries_are_one_line_errors():
+    with pytest.raises(ConfigError, match=r"'NaCI' is not a salt system; allowed: .*NaCl"):
+        mx.parse_mixture({"NaCI": 1.0})
+    with pytest.raises(ConfigError, match="add up to 0.9"):
+        mx.parse_mixture({"NaCl": 0.5, "KCl": 0.4})
+    with pytest.raises(ConfigError, match=r"mixture.NaCl: -0.5 is not allowed"):
+        mx.parse_mixture({"NaCl": -0.5, "KCl": 1.5})
+
+
+def scenario_doc(tmp_path, salts, **clock):
+    doc = {
+        "scenario": {"name": "mix", "output": str(tmp_path / "mix.nc")},
+        "clock": dict(sols=2, steps_per_sol=24, **clock),
+        "site": [{"name": "Salt Flat", "latitude": 10.0, "longitude": 20.0}],
+        "forcing": {"kind": "prescribed", "temperature_mean": 298.0, "temperature_diurnal_amplitude": 2.0,
+                    "vapor_pressure_mean": 2600.0, "vapor_pressure_diurnal_amplitude": 500.0,
+                    "surface_pressure": 600.0},
+        "salt": salts,
+        "phase": {"law": "equilibrium"},
+    }
+    return doc
+
+
+def write_toml(path, doc):
+    lines = []
+    for t in ("scenario", "clock", "forcing", "phase"):
+        lines.append(f"[{t}]")
+        lines += [f"{k} = {v!r}".replace("'", '"') for k, v in doc[t].items()]
+    for t in ("site", "salt"):
+        for it in doc[t]:
+            lines.append(f"[[{t}]]")
+            for k, v in it.items():
+                if isinstance(v, dict):
+                    v = "{ " + ", ".join(f'"{a}" = {b!r}' for a, b in v.items()) + " }"
+                    lines.append(f"{k} = {v}")
+                else:
+                    lines.append(f"{k} = {v!r}".replace("'", '"').replace("True", "true"))
+    path.write_text("\n".join(lines) + "\n")
+
+
+@pytest.fixture
+def small_tables(monkeypatch):
+    monkeypatch.setattr(mx, "DEFAULT_DT", 4.0)  # coarse tables: the check is the plumbing, not the numbers
+
+
+def test_cli_runs_a_mixture_scenario(tmp_path, small_tables, capsys):
+    doc = scenario_doc(tmp_path, [{"name": "sea salt crust", "mixture": NACL_KCL}, {"name": "NaCl"}])
+    p = tmp_path / "mix.toml"
+    write_toml(p, doc)
+    assert cli.main(["run", str(p)]) == 0
+    import xarray as xr
+    with xr.open_dataset(tmp_path / "mix.nc") as ds:
+        assert list(ds.salt.values) == ["sea salt crust", "NaCl"]
+        assert '"KCl": 0.5' in ds.attrs["mixtures"] and "equilibrium states only" in ds.attrs["mixture_model"]
+        assert ds.ion_molality.dims == ("salt", "site", "time", "ion")
+        assert sorted(ds.ion.values) == ["Cl", "K", "Na"]
+        im = ds.ion_molality.sel(salt="sea salt crust", site="Salt Flat")
+        wet = ds.liquid_water.sel(salt="sea salt crust", site="Salt Flat").values > 0
+        # the brine is electrically neutral (Na + K = Cl), and NaCl alone has no ion series
+        assert np.allclose((im.sel(ion="Na") + im.sel(ion="K") - im.sel(ion="Cl")).values[wet], 0, atol=1e-4)
+        assert np.all(np.isnan(ds.ion_molality.sel(salt="NaCl").values))
+        assert float(ds.liquid_hours.sel(salt="sea salt crust").max()) > 0
+
+
+def test_bad_mixture_entry_exits_2_with_one_line(tmp_path, capsys):
+    doc = scenario_doc(tmp_path, [{"name": "bad", "mixture": {"NaCl": 0.5, "Kcl2": 0.5}}])
+    p = tmp_path / "bad.toml"
+    write_toml(p, doc)
+    assert cli.main(["run", str(p)]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "salt[1].mixture" in err and "'Kcl2' is not a salt system" in err
+    assert not (tmp_path / "mix.nc").exists()
+
+
+def test_grid_with_a_mixture_runs(tmp_path, small_tables):
+    from wetcycle.grid import run_grid
+    doc = tomllib.loads((ROOT / "runs" / "demo.toml").read_text())
+    doc.pop("site")
+    doc["grid"] = dict(lat_min=-20.0, lat_max=20.0, lat_step=20.0, lon_min=0.0, lon_max=60.0, lon_step=60.0,
+                       chunk_cells=2)
+    doc["clock"].update(sols=2, steps_per_sol=24, spinup_max_years=0)
+    doc["clock"].pop("years", None)
+    doc["salt"] = [{"name": "sea salt crust", "mixture": NACL_KCL, "extrapolate_binaries": True}]
+    doc["scenario"]["output"] = str(tmp_path / "grid.nc")
+    ds = run_grid(scenario_from_dict(doc))
+    assert list(ds.salt.values) == ["sea salt crust"]
+    assert ds.liquid_hours_per_year.shape == (1, 3, 2) and np.all(np.isfinite(ds.liquid_hours_per_year))
+    assert "sea salt crust" in ds.attrs["mixtures"]
