@@ -236,3 +236,19 @@ def test_grid_with_a_mixture_runs(tmp_path, small_tables):
     assert list(ds.salt.values) == ["sea salt crust"]
     assert ds.liquid_hours_per_year.shape == (1, 3, 2) and np.all(np.isfinite(ds.liquid_hours_per_year))
     assert "sea salt crust" in ds.attrs["mixtures"]
+
+
+def test_perchlorate_chloride_mutual_deliquescence_below_either_salt():
+    # Mg(ClO4)2/MgCl2 eutonic RH 28 % at 243-253 K (Gough, Chevrier & Tolbert 2014, read in the abstract;
+    # journal from memory); the mixing terms were fitted to it (README: 31 % / 26 %): tolerance 0.05, the
+    # fit's spread over that range.  Below both salts' own DRH (binary systems of wetcycle.salts).
+    from wetcycle import salts
+    tb = mx.mixture_tables({"Mg(ClO4)2": 0.5, "MgCl2": 0.5}, name="perchlorate-chloride", T_range=(244.0, 252.0),
+                           dT=4.0)
+    m = MixtureModel("perchlorate-chloride", {"Mg(ClO4)2": 0.5, "MgCl2": 0.5}, law="equilibrium", tables=tb)
+    rh = np.linspace(0.15, 0.6, 2251)
+    _, r = ramp(m, 248.0, rh)
+    k = int(np.argmax(r.liquid_fraction[:, 0] > 0))
+    assert k > 0 and abs(rh[k] - 0.28) < 0.05
+    own = min(float(salts.load(n).deliquescence_rh(248.0)) for n in ("Mg(ClO4)2", "MgCl2"))
+    assert rh[k] < own

@@ -253,10 +253,17 @@ def _legend_right(ax, **kw):
 
 
 def _drh_series(name, T):
-    """DRH of the salt's stable solid along a temperature series; NaN outside its validity."""
+    """DRH of the salt's stable solid along a temperature series; NaN outside its validity.
+
+    A salt mixture (its own name, not a salt system) has no single-salt DRH: NaN throughout.
+    """
+    from .errors import UnknownNameError
     from .salts import load
-    s = load(name)
     T = np.asarray(T, dtype=float)
+    try:
+        s = load(name)
+    except UnknownNameError:
+        return np.full(T.shape, np.nan)
     ok = np.isfinite(T) & (T >= s.T_min) & (T <= s.T_max)
     out = np.full(T.shape, np.nan)
     if ok.any():

@@ -41,10 +41,12 @@ from ..errors import ConfigError, ValidityError, shown
 from ..salts.pitzer import MW
 from ..water import ice_activity_kernel
 from . import chemistry as ch
-from .equilibrium import equilibrate
+from .equilibrium import considered_solids, equilibrate
 
 #: v grid (water beyond u_dry, kg per kg of salt): first point, last point, points per decade.
 V_FIRST, V_LAST, V_PER_DECADE = 1e-4, 100.0, 8
+#: Points of the all-solid part of the tables (u from 0 to u_dry, evenly spaced).
+N_SOLID = 17
 #: Table flag bit: a binary pair extrapolated below its range, or a pair more concentrated than
 #: its binary's data (the kernel's FLAG_EXTRAPOLATED).
 FLAG_EXTRAPOLATED = 8
@@ -107,6 +109,7 @@ class MixtureTables:
     v0: float                     # first v [kg kg-1]
     dlv: float                    # ln spacing of v
     u_dry: np.ndarray             # [T] kg water per kg salt held with neither brine nor ice
+    aw_solid: np.ndarray          # [T, s] a_w of the all-solid parcel at u = s u_dry, s evenly spaced on [0, 1]
     awice: np.ndarray             # [T] a_w of ice (2 above 273.15 K: no ice)
     aw: np.ndarray                # [T, v] equilibrium water activity
     lw: np.ndarray                # [T, v] brine water [kg per kg salt]
@@ -138,7 +141,8 @@ class MixtureTables:
 
     def kernel_tables(self):
         from ..phase.mixture_kernel import MixTables
-        return MixTables(self.T0, self.dT, self.v0, self.dlv, self.u_dry, self.awice, self.aw, self.lw, self.iw,
+        return MixTables(self.T0, self.dT, self.v0, self.dlv, self.u_dry, self.aw_solid, self.awice, self.aw, self.lw,
+                         self.iw,
                          self.diss, np.ascontiguousarray(self.mol), self.flag.astype(np.int64))
 
 
@@ -164,6 +168,28 @@ def _solid_only(r):
         return False
     ice = sum(x for nm, x in zip(r.solids, r.solid_moles) if nm == ch.ICE)
     return not ice > 0
+
+
+def _solid_water_activity(chem, b, T, u_dry, n):
+    """a_w of the all-solid parcel at u = s u_dry (s on [0, 1], n points): the water row's dual of the
+    solid-only linear programme min sum_s x_s ln K_s, A x = b, h.x = W, x >= 0 (its ln a_w: the water's
+    chemical potential relative to pure liquid, as in :mod:`wetcycle.brines.equilibrium`).  Between two
+    hydrates it is their transition RH (K_low / K_high)^(1/dn); a parcel drier than the model's driest
+    solids holds (no solid holds that little water) gets 0, so it takes up water at any RH.
+    """
+    from scipy.optimize import linprog
+    ice = (ch.ICE,) if T <= ch.T_ICE_MAX else ()
+    cols, _ = considered_solids(chem, T, exclude=ice)
+    A_all, h_all = chem.stoichiometry
+    A, h = A_all[:, cols], h_all[cols]
+    lnK = chem.ln_k(T)[cols]
+    out = np.zeros(n)
+    for j, sj in enumerate(np.linspace(0.0, 1.0, n)):
+        W = sj * u_dry / MW
+        res = linprog(lnK, A_eq=np.vstack([A, h[None, :]]), b_eq=np.concatenate([b, [W]]), bounds=(0, None),
+                      method="highs")
+        out[j] = math.exp(min(res.eqlin.marginals[-1], 0.0)) if res.status == 0 else 0.0
+    return np.maximum.accumulate(out)
 
 
 def _start(r):
@@ -208,6 +234,7 @@ def build_tables(mixture, *, name="mixture", extrapolate_binaries=False, dT=1.0,
     eq = np.abs(chem.z) * b
     eq_total = float(eq.sum())
     u_dry = np.zeros(nT)
+    aw_solid = np.zeros((nT, N_SOLID))
     awice = np.full(nT, 2.0)
     aw = np.full((nT, nv), np.nan)
     lw = np.zeros((nT, nv))
@@ -278,11 +305,15 @@ def build_tables(mixture, *, name="mixture", extrapolate_binaries=False, dT=1.0,
                 mol[k, j], flag[k, j] = mol[k, src], flag[k, src]
         # equilibrium a_w is non-decreasing in water; remove round-off wiggles
         aw[k] = np.maximum.accumulate(aw[k])
+        if ud > 0.0:
+            aw_solid[k] = np.minimum(_solid_water_activity(chem, b, T, ud, N_SOLID), aw[k, 0])
+        else:
+            aw_solid[k] = aw[k, 0]
     return MixtureTables(
         name=str(name), composition_json=json.dumps(comp, sort_keys=True), ions=tuple(chem.ions),
         ion_mol_per_kg=b, extrapolate_binaries=bool(extrapolate_binaries), T0=float(Ts[0]), dT=float(dT),
         T_min=float(Ts[0]), T_max=float(Ts[-1]), T_valid_min=float(valid_lo), v0=V_FIRST, dlv=dlv,
-        u_dry=u_dry, awice=awice, aw=aw, lw=lw, iw=iw, diss=diss, mol=mol, flag=flag, failed=failed,
+        u_dry=u_dry, aw_solid=aw_solid, awice=awice, aw=aw, lw=lw, iw=iw, diss=diss, mol=mol, flag=flag, failed=failed,
         notes="equilibrium only: no supersaturated brine, supercooling or ice-nucleation barrier")
 
 

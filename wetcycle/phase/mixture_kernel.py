@@ -16,15 +16,16 @@ Physics
   eutectic, no ice-nucleation barrier (the binary kernel's metastability is not modelled for
   mixtures: a stated limitation, recorded in results).
 * **Water exchange** (vapour-limited law) at the rate of the binary kernel,
-  F = k_x p_sat (RH - a_s), where a_s is the parcel's surface water activity: the table's a_w
-  where brine or ice is present; for an all-solid parcel (u <= u_dry) the mutual deliquescence
-  RH a_w(T, v -> 0), and only uptake (RH above it): the salts' hydrate water is not exchanged in
-  the solid state (no solid-state hydration for mixtures).  W relaxes toward the water content
-  W_eq where a_w = RH (the smallest such with uptake, the largest with loss; u_dry when the air
-  is drier than the first brine) with the secant time constant (W_eq - W0) / F, so the initial
-  flux is exactly F and a step never overshoots W_eq.  The equilibrium law sets W = W_eq at once;
-  with ice present and air at or above ice saturation the parcel is closed (a_w fixed by ice),
-  and an ice-free parcel fills only up to the first ice.  W is capped at the table's last v.
+  F = k_x p_sat (RH - a_s), where a_s is the parcel's water activity from the tables: the brine's
+  (a_w,ice with ice) beyond u_dry; for an all-solid parcel (u <= u_dry) that of its hydrates, the
+  dual of the water balance in the solid-only Gibbs minimum (between two hydrates their transition
+  RH), so hydrates gain and lose water through the vapour at the same diffusion-limited rate (the
+  binary kernel's "instant where no rate is published", slowed by vapour diffusion).  W relaxes
+  toward the water content W_eq where a_s = RH (the smallest such with uptake, the largest with
+  loss) with the secant time constant (W_eq - W0) / F, so the initial flux is exactly F and a step
+  never overshoots W_eq.  The equilibrium law sets W = W_eq at once; with ice present and air at or
+  above ice saturation the parcel is closed (a_w fixed by ice), and an ice-free parcel fills only
+  up to the first ice.  W is capped at the table's last v.
 * **Frost contact** (T <= 273.15 K, frost present): the parcel draws frost up to the first ice
   (the brine on the ice liquidus) at once, from the frost budget of the current cover (``prev[3]``),
   as the binary kernel does; no exchange with the air in that step.
@@ -55,8 +56,8 @@ from .kernel import FLAG_CLAMPED, FLAG_EXTRAPOLATED, T_MELT, T_WATER_MAX, T_WATE
 from .states import BRINE, BRINE_WITH_ICE, BRINE_WITH_SALT, CRYSTALLINE, FROZEN
 
 #: The tables as the kernel reads them (see wetcycle.brines.mixture.MixtureTables).
-MixTables = namedtuple("MixTables", ("T0", "dT", "v0", "dlv", "u_dry", "awice", "aw", "lw", "iw", "diss", "mol",
-                                     "flag"))
+MixTables = namedtuple("MixTables", ("T0", "dT", "v0", "dlv", "u_dry", "aw_solid", "awice", "aw", "lw", "iw", "diss",
+                                     "mol", "flag"))
 #: Parcel state [cell] arrays, updated in place; ``prev`` [5, cell]: T, RH, frost of the last sample,
 #: frost drawn in the current cover, and the liquid criterion g at the end of the last step.
 MixState = namedtuple("MixState", ("W", "prev", "started"))
@@ -108,10 +109,10 @@ def _amount(tab, i, j, w, below):
 
 @njit(cache=True, inline="always", error_model="numpy")
 def _at(tb, i, f, u):
-    """(a_s, brine water, ice, dissolved fraction) per kg of salt at T row position (i, f) and u.
+    """(a_s, brine water, ice, dissolved fraction, all solid) per kg of salt at T row position (i, f) and u.
 
-    Each T row is read at its own v = u - u_dry(T) and the two rows are blended.  a_s is NaN for
-    an all-solid parcel (u <= u_dry in both rows).
+    Each T row is read at its own v = u - u_dry(T) (or, all solid, at s = u / u_dry) and the two
+    rows are blended.
     """
     nv = tb.aw.shape[1]
     a = 0.0
@@ -124,19 +125,24 @@ def _at(tb, i, f, u):
         wt = (1.0 - f) if r == 0 else f
         if wt == 0.0 or ii >= tb.aw.shape[0]:
             continue
-        v = u - tb.u_dry[ii]
+        ud = tb.u_dry[ii]
+        v = u - ud
         if v <= 0.0:
-            a += wt * tb.aw[ii, 0]
             solid += wt
+            if ud > 0.0:
+                ns = tb.aw_solid.shape[1]
+                x = max(u, 0.0) / ud * (ns - 1)
+                js = min(int(x), ns - 2)
+                a += wt * (tb.aw_solid[ii, js] + (x - js) * (tb.aw_solid[ii, js + 1] - tb.aw_solid[ii, js]))
+            else:
+                a += wt * tb.aw[ii, 0]
             continue
         j, w, below = _vloc(v, tb.v0, tb.dlv, nv)
         a += wt * _row(tb.aw, ii, j, w, below)
         lw += wt * _amount(tb.lw, ii, j, w, below)
         iw += wt * _amount(tb.iw, ii, j, w, below)
         ds += wt * _amount(tb.diss, ii, j, w, below)
-    if solid >= 1.0:
-        a = math.nan
-    return a, lw, iw, ds
+    return a, lw, iw, ds, solid >= 1.0
 
 
 @njit(cache=True, inline="always", error_model="numpy")
@@ -150,14 +156,42 @@ def _u_of_aw(tb, i, f, target, uptake):
     nv = tb.aw.shape[1]
     ud = (1.0 - f) * tb.u_dry[i] + f * tb.u_dry[i + 1] if i + 1 < tb.aw.shape[0] else tb.u_dry[i]
     i1 = i + 1 if i + 1 < tb.aw.shape[0] else i
+    a_m = (1.0 - f) * tb.aw[i, 0] + f * tb.aw[i1, 0]
+    if (uptake and target <= a_m) or ((not uptake) and target < a_m):
+        # the all-solid part, u = s u_dry: hydrate water in equilibrium with the air
+        if not ud > 0.0:
+            return 0.0
+        ns = tb.aw_solid.shape[1]
+        sa = tb.aw_solid
+        if uptake:
+            j = 0
+            while j < ns and (1.0 - f) * sa[i, j] + f * sa[i1, j] < target:
+                j += 1
+            if j >= ns:
+                return ud
+            if j == 0:
+                return 0.0
+            lo = j - 1
+        else:
+            j = ns - 1
+            while j >= 0 and (1.0 - f) * sa[i, j] + f * sa[i1, j] > target:
+                j -= 1
+            if j < 0:
+                return 0.0
+            if j == ns - 1:
+                return ud
+            lo = j
+        al = (1.0 - f) * sa[i, lo] + f * sa[i1, lo]
+        ah = (1.0 - f) * sa[i, lo + 1] + f * sa[i1, lo + 1]
+        t = (target - al) / (ah - al) if ah > al else (1.0 if uptake else 0.0)
+        return ud * (lo + min(max(t, 0.0), 1.0)) / (ns - 1)
     lo = 0
     hi = nv - 1
     if uptake:
         # smallest j with a(j) >= target
         if (1.0 - f) * tb.aw[i, nv - 1] + f * tb.aw[i1, nv - 1] < target:
             return ud + tb.v0 * math.exp(tb.dlv * (nv - 1))
-        a0 = (1.0 - f) * tb.aw[i, 0] + f * tb.aw[i1, 0]
-        if a0 >= target:
+        if a_m >= target:
             return ud + tb.v0
         while hi - lo > 1:
             mid = (lo + hi) // 2
@@ -167,8 +201,7 @@ def _u_of_aw(tb, i, f, target, uptake):
                 lo = mid
     else:
         # largest j with a(j) <= target
-        a0 = (1.0 - f) * tb.aw[i, 0] + f * tb.aw[i1, 0]
-        if a0 > target:
+        if a_m > target:
             return ud
         if (1.0 - f) * tb.aw[i, nv - 1] + f * tb.aw[i1, nv - 1] <= target:
             return ud + tb.v0 * math.exp(tb.dlv * (nv - 1))
@@ -244,11 +277,7 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, tb, st, out):
                 Tw = min(max(Tw, T_WATER_MIN), T_WATER_MAX)
             i, f = _tloc(Tb, tb.T0, tb.dT, nT)
             u0 = W0 / M
-            a0, lw0, iw0, ds0 = _at(tb, i, f, u0)
-            dry = a0 != a0
-            a_s = a0
-            if dry:  # all solid: the first brine's a_w decides uptake; no loss of hydrate water
-                a_s = (1.0 - f) * tb.aw[i, 0] + f * tb.aw[min(i + 1, nT - 1), 0]
+            a_s, lw0, iw0, ds0, dry = _at(tb, i, f, u0)
             W = W0
             frost_touch = Fb > 0.0 and Tb_raw <= T_MELT
             if frost_touch:
@@ -270,10 +299,10 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, tb, st, out):
                             u_t = u0
                         elif ui < u_t:
                             u_t = ui
-                    W = max(u_t * M, W0) if dry else u_t * M
-                elif RHb < a_s and not dry:
+                    W = u_t * M
+                elif RHb < a_s:
                     W = _u_of_aw(tb, i, f, RHb, False) * M
-            elif RHb != a_s and not (dry and RHb < a_s):
+            elif RHb != a_s:
                 up = RHb > a_s
                 u_t = _u_of_aw(tb, i, f, RHb, up)
                 dWt = u_t * M - W0
@@ -282,7 +311,7 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, tb, st, out):
                     rate = kx * psat * abs(RHb - a_s) / abs(dWt)
                     W = u_t * M - dWt * math.exp(-rate * dtk)
             W = min(max(W, 0.0), max(u_cap * M, W0))
-            a1, lw1, iw1, ds1 = _at(tb, i, f, W / M)
+            a1, lw1, iw1, ds1, dry1 = _at(tb, i, f, W / M)
             wb = lw1 * M
             wi = iw1 * M
             if wb + wi > W:  # interpolation of amounts never exceeds the water present

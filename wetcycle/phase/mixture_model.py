@@ -18,8 +18,8 @@ from .model import DEFAULTS, BlockResult, hydrate_kinetics, time_law
 
 #: What results record about a mixture entry (global attribute ``mixture_notes``).
 NOTES = ("equilibrium states only: no supersaturated brine below the mutual deliquescence RH, no supercooling "
-         "below the mixture's eutectic, no ice-nucleation barrier; the salts' hydrate water is not exchanged "
-         "in the solid state")
+         "below the mixture's eutectic, no ice-nucleation barrier; solid hydrates exchange water with the air "
+         "at the vapour-limited rate, with no kinetics of their own")
 
 
 @dataclass
@@ -109,13 +109,24 @@ class MixtureModel:
                     hydrate_kinetics=self.hydrate_kinetics)
 
     def initial_state(self, n_cells, loading_kg_m2, temperature_K, relative_humidity=None):
-        """All-solid parcels in every cell, the salts holding their hydrate water u_dry at the first T."""
+        """All-solid parcels in every cell, their hydrates in equilibrium with the first (T, RH).
+
+        Without a humidity (or above the mutual deliquescence RH) the salts hold their most hydrated
+        assemblage, u_dry(T).
+        """
         tb = self.tables
         load = np.broadcast_to(np.asarray(loading_kg_m2, dtype=float), (n_cells,)).copy()
         if np.any(~(load > 0)):
             raise ConfigError(f"loading: {shown(load[~(load > 0)][0])} kg/m2 must be > 0")
         T = np.clip(np.broadcast_to(np.asarray(temperature_K, dtype=float), (n_cells,)), tb.T_min, tb.T_max)
-        ud = np.interp(T, tb.temperatures, tb.u_dry)
+        kt = self._ktab
+        ud = np.empty(n_cells)
+        rh = np.broadcast_to(np.asarray(1.0 if relative_humidity is None else relative_humidity, dtype=float),
+                             (n_cells,))
+        for c in range(n_cells):  # once per run: a Python loop over cells is fine here
+            i, f = mk._tloc(float(T[c]), tb.T0, tb.dT, tb.u_dry.size)
+            u_top = (1.0 - f) * tb.u_dry[i] + f * tb.u_dry[min(i + 1, tb.u_dry.size - 1)]
+            ud[c] = min(mk._u_of_aw(kt, i, f, min(max(float(rh[c]), 1e-9), 1.0), False), u_top)
         return MixtureState(W=ud * load, mass=load, prev=np.zeros((5, n_cells)),
                             started=np.zeros(n_cells, dtype=np.int64), exchanged=np.zeros(n_cells))
 
