@@ -158,14 +158,29 @@ def _equilibrium(chem, b, u, T, start):
         return equilibrate(chem, b, u / MW, T, start=start)
 
 
-def _solid_only(r):
+#: A brine whose ionic strength exceeds this multiple of the largest ionic strength of its binaries'
+#: data (at their m_max) is outside the model (the Pitzer polynomials can show spurious minima
+#: there): such states count as dry, in the spirit of
+#: :func:`wetcycle.brines.paths.mutual_deliquescence_rh` (which limits each pair; a sparingly soluble
+#: pair such as CaSO4, m_max 0.03 mol/kg, is legitimately exceeded in a concentrated chloride brine).
+STRENGTH_LIMIT = 1.25
+
+
+def _trusted(chem, r):
+    if not r.liquid:
+        return True
+    used = chem.pair_limits(r.molality)
+    return chem.ionic_strength(r.molality) <= STRENGTH_LIMIT * max(p.ionic_strength_max for p in used)
+
+
+def _solid_only(r, chem=None):
     """All water bound in salt solids (no brine, no ice), including 'no solid holds this water'."""
     if not r.converged:
         # the model's driest solids hold more water than this: all solid; any other failure is the
         # solver losing a vanishing, extremely concentrated brine: wet
         return r.message.startswith("the liquid vanishes but no solid")
     if r.liquid:
-        return False
+        return chem is not None and not _trusted(chem, r)
     ice = sum(x for nm, x in zip(r.solids, r.solid_moles) if nm == ch.ICE)
     return not ice > 0
 
@@ -190,6 +205,23 @@ def _solid_water_activity(chem, b, T, u_dry, n):
                       method="highs")
         out[j] = math.exp(min(res.eqlin.marginals[-1], 0.0)) if res.status == 0 else 0.0
     return np.maximum.accumulate(out)
+
+
+def _best(chem, b, u, T, starts):
+    """The equilibrium at u from the first start that gives a converged state with brine, else the first
+    converged state (else the last).  A converged brine with every solid at or below saturation is the
+    Gibbs minimum (G is convex there), whereas a solver that loses its brine on the way falls back on the
+    best all-solid state, which a brine may beat: so a brine found from any start wins."""
+    first = None
+    last = None
+    for st in starts:
+        r = _equilibrium(chem, b, u, T, st)
+        if r.converged and r.liquid and _trusted(chem, r):
+            return r
+        if r.converged and first is None:
+            first = r
+        last = r
+    return first if first is not None else last
 
 
 def _start(r):
@@ -243,8 +275,12 @@ def build_tables(mixture, *, name="mixture", extrapolate_binaries=False, dT=1.0,
     mol = np.zeros((nT, nv, chem.n))
     flag = np.zeros((nT, nv), dtype=np.int8)
     failed = 0
-    for k, T in enumerate(Ts):
-        T = float(T)
+    # rows from warm to cold, each state also started from the warmer row's (a cooling path: the
+    # solver follows a brine down in temperature, as brines.freeze does)
+    march_prev = {}
+    col_prev = [None] * nv
+    for k in range(nT - 1, -1, -1):
+        T = float(Ts[k])
         if T <= 273.15:
             awice[k] = ice_activity_kernel(T)
         row_flag = FLAG_EXTRAPOLATED if any(T < p.T_min - 1e-9 or T > p.T_max + 1e-9 for p in chem.pairs) else 0
@@ -252,12 +288,17 @@ def build_tables(mixture, *, name="mixture", extrapolate_binaries=False, dT=1.0,
         # one (the solver follows a shrinking brine; a cold start at little water can land on a
         # metastable hydrate), then bisect on ln u between the last wet and the first all-solid state
         ulo, uhi = 1e-7, V_FIRST + v_last
-        wet = _equilibrium(chem, b, uhi, T, None)
+        wet = _best(chem, b, uhi, T, (march_prev.get(0), None))
+        march_prev[0] = _start(wet)
         c = math.log(uhi)
         a = None
+        q = 0
         while c > math.log(ulo):
-            r = _equilibrium(chem, b, math.exp(c - math.log(2.0)), T, _start(wet))
-            if _solid_only(r):
+            q += 1
+            r = _best(chem, b, math.exp(c - math.log(2.0)), T, (_start(wet), march_prev.get(q)))
+            if r.converged:
+                march_prev[q] = _start(r)
+            if _solid_only(r, chem):
                 a = c - math.log(2.0)
                 break
             c, wet = c - math.log(2.0), r
@@ -266,8 +307,8 @@ def build_tables(mixture, *, name="mixture", extrapolate_binaries=False, dT=1.0,
         else:
             for _ in range(60):
                 mid = 0.5 * (a + c)
-                r = _equilibrium(chem, b, math.exp(mid), T, _start(wet))
-                if _solid_only(r):
+                r = _best(chem, b, math.exp(mid), T, (_start(wet),))
+                if _solid_only(r, chem):
                     a = mid
                 else:
                     c, wet = mid, r
@@ -277,11 +318,11 @@ def build_tables(mixture, *, name="mixture", extrapolate_binaries=False, dT=1.0,
         u_dry[k] = ud
         prev = _start(wet)
         for j, v in enumerate(vs):
-            r = _equilibrium(chem, b, ud + v, T, prev)
+            r = _best(chem, b, ud + v, T, (prev, col_prev[j]))
             if not r.converged:
                 failed += 1
                 continue
-            prev = _start(r)
+            prev = col_prev[j] = _start(r)
             ice = sum(x for nm, x in zip(r.solids, r.solid_moles) if nm == ch.ICE)
             iw[k, j] = ice * MW
             if r.liquid:

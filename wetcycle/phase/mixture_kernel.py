@@ -220,16 +220,13 @@ def _u_of_aw(tb, i, f, target, uptake):
 
 @njit(cache=True, inline="always", error_model="numpy")
 def _u_first_ice(tb, i, f):
-    """Smallest u with ice in the blended rows (inf where no ice at any tabulated water)."""
+    """Smallest u with ice in the blended rows: where the brine's a_w reaches a_w,ice (inf without ice)."""
     nv = tb.aw.shape[1]
     i1 = i + 1 if i + 1 < tb.aw.shape[0] else i
-    ud = (1.0 - f) * tb.u_dry[i] + f * tb.u_dry[i1]
-    for j in range(nv):
-        if (1.0 - f) * tb.iw[i, j] + f * tb.iw[i1, j] > 0.0:
-            if j == 0:
-                return ud
-            return ud + tb.v0 * math.exp(tb.dlv * (j - 1))
-    return math.inf
+    if not (1.0 - f) * tb.iw[i, nv - 1] + f * tb.iw[i1, nv - 1] > 0.0:
+        return math.inf
+    ai = (1.0 - f) * tb.awice[i] + f * tb.awice[i1]
+    return _u_of_aw(tb, i, f, ai * (1.0 - 1e-9), True)
 
 
 @njit(cache=True, error_model="numpy", nogil=True)
