@@ -64,6 +64,23 @@ MixState = namedtuple("MixState", ("W", "prev", "started"))
 #: Outputs [step, cell] (as :data:`wetcycle.phase.kernel.KernelOut`) and ``mol`` [step, cell, ion]
 #: (brine molalities; a [0, 0, 0] array skips them).
 MixOut = namedtuple("MixOut", ("phase", "liq", "aw", "wb", "wh", "wi", "exch", "flag", "mol"))
+#: Temperature grid of the vapour-exchange table [K]: Murphy & Koop's liquid range at 0.05 K.
+XT0, XDT = T_WATER_MIN, 0.05
+XN = int(round((T_WATER_MAX - T_WATER_MIN) / XDT)) + 1
+
+
+def exchange_table(dfactor, length):
+    """k_x p_sat [kg m-2 s-1] of the vapour-limited law at 1e5 Pa on XT0 + XDT k, from the binary kernel's
+    :func:`wetcycle.phase.kernel._exchange` (k_x scales as 1/P).  Linear interpolation at 0.05 K is within
+    1e-5 (relative) of the function (the curvature of ln p_sat, ~2 L / (R T^3), times 0.05^2 / 8)."""
+    import numpy as np
+    out = np.empty(XN)
+    for k in range(XN):
+        psat, kx = _exchange(XT0 + XDT * k, 1e5, dfactor, length)
+        out[k] = psat * kx
+    return out
+
+
 #: A dissolved fraction this close to 1 counts as all salt dissolved.
 ALL_DISSOLVED = 1.0 - 1e-9
 
@@ -115,6 +132,20 @@ def _at(tb, i, f, u):
     rows are blended.
     """
     nv = tb.aw.shape[1]
+    i1 = min(i + 1, tb.aw.shape[0] - 1)
+    ud0 = tb.u_dry[i]
+    ud1 = tb.u_dry[i1]
+    if u <= ud0 and u <= ud1 and ud0 > 0.0 and ud1 > 0.0:
+        # all solid in both rows (the common case on Mars): straight-line code
+        ns1 = tb.aw_solid.shape[1] - 1
+        x0 = max(u, 0.0) / ud0 * ns1
+        j0 = min(int(x0), ns1 - 1)
+        x1 = max(u, 0.0) / ud1 * ns1
+        j1 = min(int(x1), ns1 - 1)
+        sa = tb.aw_solid
+        a0 = sa[i, j0] + (x0 - j0) * (sa[i, j0 + 1] - sa[i, j0])
+        a1 = sa[i1, j1] + (x1 - j1) * (sa[i1, j1 + 1] - sa[i1, j1])
+        return a0 + f * (a1 - a0), 0.0, 0.0, 0.0, True
     a = 0.0
     lw = 0.0
     iw = 0.0
@@ -164,23 +195,31 @@ def _u_of_aw(tb, i, f, target, uptake):
         ns = tb.aw_solid.shape[1]
         sa = tb.aw_solid
         if uptake:
-            j = 0
-            while j < ns and (1.0 - f) * sa[i, j] + f * sa[i1, j] < target:
-                j += 1
-            if j >= ns:
+            # smallest j with a(j) >= target, by bisection (a is non-decreasing)
+            if (1.0 - f) * sa[i, ns - 1] + f * sa[i1, ns - 1] < target:
                 return ud
-            if j == 0:
+            if (1.0 - f) * sa[i, 0] + f * sa[i1, 0] >= target:
                 return 0.0
-            lo = j - 1
+            lo, hi = 0, ns - 1
+            while hi - lo > 1:
+                mid = (lo + hi) // 2
+                if (1.0 - f) * sa[i, mid] + f * sa[i1, mid] >= target:
+                    hi = mid
+                else:
+                    lo = mid
         else:
-            j = ns - 1
-            while j >= 0 and (1.0 - f) * sa[i, j] + f * sa[i1, j] > target:
-                j -= 1
-            if j < 0:
+            # largest j with a(j) <= target
+            if (1.0 - f) * sa[i, 0] + f * sa[i1, 0] > target:
                 return 0.0
-            if j == ns - 1:
+            if (1.0 - f) * sa[i, ns - 1] + f * sa[i1, ns - 1] <= target:
                 return ud
-            lo = j
+            lo, hi = 0, ns - 1
+            while hi - lo > 1:
+                mid = (lo + hi) // 2
+                if (1.0 - f) * sa[i, mid] + f * sa[i1, mid] <= target:
+                    lo = mid
+                else:
+                    hi = mid
         al = (1.0 - f) * sa[i, lo] + f * sa[i1, lo]
         ah = (1.0 - f) * sa[i, lo + 1] + f * sa[i1, lo + 1]
         t = (target - al) / (ah - al) if ah > al else (1.0 if uptake else 0.0)
@@ -230,11 +269,12 @@ def _u_first_ice(tb, i, f):
 
 
 @njit(cache=True, error_model="numpy", nogil=True)
-def step_mixture_block(T, RH, P, frost, dt, mass, law, tb, st, out):
+def step_mixture_block(T, RH, P, frost, dt, mass, law, xtab, tb, st, out):
     """Advance every cell through ``T.shape[0]`` samples (arguments as ``kernel.step_block``).
 
     mass : [cell] kg m-2 of anhydrous salt mixture.  law : ``kernel.LawParams`` (``hydrate_instant``
-    unused).  tb : :data:`MixTables`.  st : :data:`MixState`.  out : :data:`MixOut`.
+    unused).  xtab : :func:`exchange_table` of the law's settings.  tb : :data:`MixTables`.
+    st : :data:`MixState`.  out : :data:`MixOut`.
     """
     nstep, ncell = T.shape
     nT = tb.aw.shape[0]
@@ -247,6 +287,9 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, tb, st, out):
     want_mol = out.mol.shape[0] > 0
     nion = tb.mol.shape[2]
     st_W, st_prev, st_started = st
+    o_phase, o_liq, o_aw, o_wb, o_wh, o_wi, o_exch, o_flag, o_mol = out
+    t_udry, t_awice, t_flag, t_mol = tb.u_dry, tb.awice, tb.flag, tb.mol
+    t_T0, t_dT, t_v0, t_dlv = tb.T0, tb.dT, tb.v0, tb.dlv
     for k in range(nstep):
         dtk = dt[k]
         for c in range(ncell):
@@ -272,7 +315,7 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, tb, st, out):
             if Tw < T_WATER_MIN or Tw > T_WATER_MAX:
                 flag = FLAG_CLAMPED
                 Tw = min(max(Tw, T_WATER_MIN), T_WATER_MAX)
-            i, f = _tloc(Tb, tb.T0, tb.dT, nT)
+            i, f = _tloc(Tb, t_T0, t_dT, nT)
             u0 = W0 / M
             a_s, lw0, iw0, ds0, dry = _at(tb, i, f, u0)
             W = W0
@@ -288,7 +331,12 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, tb, st, out):
             elif instant:
                 if RHb > a_s:
                     u_t = _u_of_aw(tb, i, f, RHb, True)
-                    aw_i = ice_activity_kernel(Tw) if Tb_raw <= T_MELT else 2.0
+                    if Tb_raw > T_MELT:
+                        aw_i = 2.0
+                    elif Tb == Tb_raw:  # the tabulated ice activity (exact at the rows, linear between)
+                        aw_i = (1.0 - f) * t_awice[i] + f * t_awice[min(i + 1, nT - 1)]
+                    else:
+                        aw_i = ice_activity_kernel(Tw)
                     if RHb >= aw_i * (1.0 - 1e-5):
                         # at or above ice saturation: closed once ice is present, else up to the first ice
                         ui = _u_first_ice(tb, i, f)
@@ -304,11 +352,18 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, tb, st, out):
                 u_t = _u_of_aw(tb, i, f, RHb, up)
                 dWt = u_t * M - W0
                 if dWt != 0.0 and (dWt > 0.0) == up:
-                    psat, kx = _exchange(Tw, P[k, c], law.dfactor, law.diffusion_length)
-                    rate = kx * psat * abs(RHb - a_s) / abs(dWt)
+                    xx = (Tw - XT0) / XDT
+                    ix = min(int(xx), XN - 2)
+                    kp = (xtab[ix] + (xx - ix) * (xtab[ix + 1] - xtab[ix])) * (1e5 / max(P[k, c], 1.0))
+                    rate = kp * abs(RHb - a_s) / abs(dWt)
                     W = u_t * M - dWt * math.exp(-rate * dtk)
             W = min(max(W, 0.0), max(u_cap * M, W0))
-            a1, lw1, iw1, ds1, dry1 = _at(tb, i, f, W / M)
+            if W == W0:
+                a1, lw1, iw1, ds1 = a_s, lw0, iw0, ds0
+            elif W <= M * min(t_udry[i], t_udry[min(i + 1, nT - 1)]):
+                a1, lw1, iw1, ds1 = a_s, 0.0, 0.0, 0.0  # all solid in both rows (a1 is used only with brine)
+            else:
+                a1, lw1, iw1, ds1, dry1 = _at(tb, i, f, W / M)
             wb = lw1 * M
             wi = iw1 * M
             if wb + wi > W:  # interpolation of amounts never exceeds the water present
@@ -340,40 +395,40 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, tb, st, out):
                 s1 = FROZEN
             else:
                 s1 = CRYSTALLINE
-            out.phase[k, c] = s1
-            out.liq[k, c] = liq
-            out.aw[k, c] = a1 if wet else math.nan
-            out.wb[k, c] = wb
-            out.wh[k, c] = wh
-            out.wi[k, c] = wi
-            out.exch[k, c] = W - W0
+            o_phase[k, c] = s1
+            o_liq[k, c] = liq
+            o_aw[k, c] = a1 if wet else math.nan
+            o_wb[k, c] = wb
+            o_wh[k, c] = wh
+            o_wi[k, c] = wi
+            o_exch[k, c] = W - W0
             if wet or liq > 0.0:
-                ft = tb.flag[i, 0] if f < 0.5 else tb.flag[min(i + 1, nT - 1), 0]
-                v1 = W / M - tb.u_dry[i]
+                ft = t_flag[i, 0] if f < 0.5 else t_flag[min(i + 1, nT - 1), 0]
+                v1 = W / M - t_udry[i]
                 if v1 > 0.0:
-                    j, w, below = _vloc(v1, tb.v0, tb.dlv, nv)
-                    ft = tb.flag[i, j if w < 0.5 or below else j + 1]
+                    j, w, below = _vloc(v1, t_v0, t_dlv, nv)
+                    ft = t_flag[i, j if w < 0.5 or below else j + 1]
                 flag |= ft & FLAG_EXTRAPOLATED
-            out.flag[k, c] = flag
+            o_flag[k, c] = flag
             if want_mol:
                 if wb > 0.0:
-                    v1 = W / M - tb.u_dry[i]
+                    v1 = W / M - t_udry[i]
                     i1 = min(i + 1, nT - 1)
-                    v2 = W / M - tb.u_dry[i1]
+                    v2 = W / M - t_udry[i1]
                     for q in range(nion):
                         m = 0.0
                         if v1 > 0.0:
-                            j, w, below = _vloc(v1, tb.v0, tb.dlv, nv)
-                            m += (1.0 - f) * (tb.mol[i, 0, q] if below else
-                                              tb.mol[i, j, q] + w * (tb.mol[i, j + 1, q] - tb.mol[i, j, q]))
+                            j, w, below = _vloc(v1, t_v0, t_dlv, nv)
+                            m += (1.0 - f) * (t_mol[i, 0, q] if below else
+                                              t_mol[i, j, q] + w * (t_mol[i, j + 1, q] - t_mol[i, j, q]))
                         if v2 > 0.0 and f > 0.0:
-                            j, w, below = _vloc(v2, tb.v0, tb.dlv, nv)
-                            m += f * (tb.mol[i1, 0, q] if below else
-                                      tb.mol[i1, j, q] + w * (tb.mol[i1, j + 1, q] - tb.mol[i1, j, q]))
-                        out.mol[k, c, q] = m
+                            j, w, below = _vloc(v2, t_v0, t_dlv, nv)
+                            m += f * (t_mol[i1, 0, q] if below else
+                                      t_mol[i1, j, q] + w * (t_mol[i1, j + 1, q] - t_mol[i1, j, q]))
+                        o_mol[k, c, q] = m
                 else:
                     for q in range(nion):
-                        out.mol[k, c, q] = math.nan
+                        o_mol[k, c, q] = math.nan
             st_W[c] = W
             st_prev[0, c], st_prev[1, c], st_prev[2, c] = Tb_raw, RHb, frost[k, c]
             st_prev[4, c] = g1

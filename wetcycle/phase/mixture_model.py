@@ -83,6 +83,8 @@ class MixtureModel:
                                                               extrapolate_binaries=self.extrapolate_binaries,
                                                               **(self.table_options or {})))
         object.__setattr__(self, "_ktab", self.tables.kernel_tables())
+        object.__setattr__(self, "_xtab", mk.exchange_table(float(self.diffusivity_factor),
+                                                            float(self.diffusion_length_m)))
         object.__setattr__(self, "_law", kernel.LawParams(
             self.law == "equilibrium", float(self.diffusion_length_m), float(self.diffusivity_factor),
             float(self.liquid_threshold), True))
@@ -153,7 +155,7 @@ class MixtureModel:
         kst = mk.MixState(state.W, state.prev, state.started)
         kout = mk.MixOut(out.phase, out.liquid_fraction, out.water_activity, out.liquid_water, out.hydrate_water,
                          out.ice_water, out.exchanged, out.validity_flag, mol)
-        mk.step_mixture_block(T, RH, P, F, dt, state.mass, self._law, self._ktab, kst, kout)
+        mk.step_mixture_block(T, RH, P, F, dt, state.mass, self._law, self._xtab, self._ktab, kst, kout)
         state.exchanged += out.exchanged.sum(axis=0)
         if ion_molality:
             out.ion_molality = mol
