@@ -214,7 +214,7 @@ def _exchange(Tw, P, dfactor, length):
     return psat, D * MW / (R_GAS * Tw * length)
 
 
-@njit(cache=True, inline="always", error_model="numpy")
+@njit(cache=True, error_model="numpy")
 def _partition(n, W, T, i, f, tab, k_prev, allow_supersat, ice_ok, erh, m_ext):
     """Lever rule for a closed parcel: returns (state, solid, w_hyd, w_brine, w_ice, n_diss, beyond).
 
@@ -256,7 +256,7 @@ def _partition(n, W, T, i, f, tab, k_prev, allow_supersat, ice_ok, erh, m_ext):
     return BRINE_WITH_SALT, ks, x * nk * MW, nd / ms, 0.0, nd, beyond
 
 
-@njit(cache=True, inline="always", error_model="numpy")
+@njit(cache=True, error_model="numpy")
 def _freeze(n, W, i, f, tab, k_prev):
     """Ice + the stable hydrate from a parcel of water W: (solid, w_hyd, w_ice)."""
     ks = _stable(tab.stable, i, f)

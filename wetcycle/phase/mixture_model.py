@@ -11,10 +11,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..brines.mixture import mixture_tables, parse_mixture
-from ..errors import ConfigError, InputDataError, shown
+from ..errors import ConfigError, shown
 from . import kernel
 from . import mixture_kernel as mk
-from .model import DEFAULTS, BlockResult, hydrate_kinetics, time_law
+from .model import DEFAULTS, BlockResult, forcing_arrays, hydrate_kinetics, time_law
 
 #: What results record about a mixture entry (global attribute ``mixture_notes``).
 NOTES = ("equilibrium states only: no supersaturated brine below the mutual deliquescence RH, no supercooling "
@@ -139,14 +139,8 @@ class MixtureModel:
         With ``ion_molality`` the result also carries ``ion_molality`` [step, cell, ion] (mol kg-1, NaN
         without brine), in the order of :attr:`ions`.
         """
-        T = np.ascontiguousarray(temperature_K, dtype=np.float64)
-        if T.ndim != 2:
-            raise InputDataError(f"temperature_K: forcing arrays must be [step, cell], got {T.ndim} dimension(s)")
+        T, RH, P, F, dt = forcing_arrays(temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt_s)
         shape = T.shape
-        RH = np.ascontiguousarray(np.broadcast_to(relative_humidity, shape), dtype=np.float64)
-        P = np.ascontiguousarray(np.broadcast_to(surface_pressure_Pa, shape), dtype=np.float64)
-        F = np.ascontiguousarray(np.broadcast_to(frost_kg_m2, shape), dtype=np.float64)
-        dt = np.ascontiguousarray(np.broadcast_to(np.asarray(dt_s, dtype=np.float64), (shape[0],)))
         out = BlockResult(
             phase=np.empty(shape, np.int64), liquid_fraction=np.empty(shape), water_activity=np.empty(shape),
             liquid_water=np.empty(shape), hydrate_water=np.empty(shape), ice_water=np.empty(shape),

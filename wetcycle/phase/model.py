@@ -80,6 +80,29 @@ def hydrate_kinetics(name):
     return str(name)
 
 
+def _readonly(a):
+    """A read-only view of ``a`` (the caller's array keeps its flags)."""
+    v = a.view()
+    v.flags.writeable = False
+    return v
+
+
+def forcing_arrays(temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt_s):
+    """The forcing of one block as the kernels take it: C-contiguous float64 [step, cell] (``dt``
+    [step]), always read-only views, so every caller -- runner blocks, series, dask chunks, arrays
+    that happen to be writeable or not -- meets one compiled signature of a kernel (numba compiles
+    and caches one specialisation per distinct argument type, and each costs tens of seconds)."""
+    T = np.ascontiguousarray(temperature_K, dtype=np.float64)
+    if T.ndim != 2:
+        raise InputDataError(f"temperature_K: forcing arrays must be [step, cell], got {T.ndim} dimension(s)")
+    shape = T.shape
+    RH = np.ascontiguousarray(np.broadcast_to(relative_humidity, shape), dtype=np.float64)
+    P = np.ascontiguousarray(np.broadcast_to(surface_pressure_Pa, shape), dtype=np.float64)
+    F = np.ascontiguousarray(np.broadcast_to(frost_kg_m2, shape), dtype=np.float64)
+    dt = np.ascontiguousarray(np.broadcast_to(np.asarray(dt_s, dtype=np.float64), (shape[0],)))
+    return tuple(_readonly(a) for a in (T, RH, P, F, dt))
+
+
 @dataclass
 class ParcelState:
     """State of one salt in every cell (arrays over cells), carried from block to block.
@@ -237,19 +260,13 @@ class PhaseModel:
         the first interval starts at the last sample of the previous block.  ``dt_s``
         [s] is a scalar (uniform clock) or one value per step.
         """
-        T = np.ascontiguousarray(temperature_K, dtype=np.float64)
-        if T.ndim != 2:
-            raise InputDataError(f"temperature_K: forcing arrays must be [step, cell], got {T.ndim} dimension(s)")
+        T, RH, P, F, dt = forcing_arrays(temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt_s)
         shape = T.shape
-        RH = np.ascontiguousarray(np.broadcast_to(relative_humidity, shape), dtype=np.float64)
-        P = np.ascontiguousarray(np.broadcast_to(surface_pressure_Pa, shape), dtype=np.float64)
-        F = np.ascontiguousarray(np.broadcast_to(frost_kg_m2, shape), dtype=np.float64)
         out = BlockResult(
             phase=np.empty(shape, np.int64), liquid_fraction=np.empty(shape), water_activity=np.empty(shape),
             liquid_water=np.empty(shape), hydrate_water=np.empty(shape), ice_water=np.empty(shape),
             exchanged=np.empty(shape), validity_flag=np.empty(shape, np.int64),
         )
-        dt = np.ascontiguousarray(np.broadcast_to(np.asarray(dt_s, dtype=np.float64), (shape[0],)))
         kst = kernel.KernelState(state.phase, state.solid, state.w_hyd, state.w_brine, state.w_ice, state.n_diss,
                                  state.prev, state.started)
         kout = kernel.KernelOut(out.phase, out.liquid_fraction, out.water_activity, out.liquid_water,
