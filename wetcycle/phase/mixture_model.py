@@ -14,7 +14,7 @@ from ..brines.mixture import mixture_tables, parse_mixture
 from ..errors import ConfigError, shown
 from . import kernel
 from . import mixture_kernel as mk
-from .model import DEFAULTS, BlockResult, forcing_arrays, hydrate_kinetics, time_law
+from .model import DEFAULTS, BlockResult, check_phase_settings, forcing_arrays
 
 #: What results record about a mixture entry (global attribute ``mixture_notes``).
 NOTES = ("equilibrium states only: no supersaturated brine below the mutual deliquescence RH, no supercooling "
@@ -68,14 +68,7 @@ class MixtureModel:
     table_options: dict = field(default=None, repr=False, compare=False)
 
     def __post_init__(self):
-        object.__setattr__(self, "law", time_law(self.law))
-        object.__setattr__(self, "hydrate_kinetics", hydrate_kinetics(self.hydrate_kinetics))
-        if not (self.diffusion_length_m > 0):
-            raise ConfigError(f"diffusion_length_m: {shown(self.diffusion_length_m)} must be > 0 m")
-        if not (0 < self.diffusivity_factor <= 1):
-            raise ConfigError(f"diffusivity_factor: {shown(self.diffusivity_factor)} must lie in (0, 1]")
-        if not (0 <= self.liquid_threshold < 1):
-            raise ConfigError(f"liquid_threshold: {shown(self.liquid_threshold)} must lie in [0, 1)")
+        check_phase_settings(self)
         comp, _ = parse_mixture(self.mixture)
         object.__setattr__(self, "mixture", comp)
         if self.tables is None:

@@ -80,6 +80,20 @@ def hydrate_kinetics(name):
     return str(name)
 
 
+def check_phase_settings(model):
+    """Normalise and check the time-law settings shared by :class:`PhaseModel` and the mixture
+    model (frozen dataclasses): law and hydrate-kinetics names, diffusion length, diffusivity
+    factor, liquid threshold.  Raises ConfigError in one line."""
+    object.__setattr__(model, "law", time_law(model.law))
+    object.__setattr__(model, "hydrate_kinetics", hydrate_kinetics(model.hydrate_kinetics))
+    if not (model.diffusion_length_m > 0):
+        raise ConfigError(f"diffusion_length_m: {shown(model.diffusion_length_m)} must be > 0 m")
+    if not (0 < model.diffusivity_factor <= 1):
+        raise ConfigError(f"diffusivity_factor: {shown(model.diffusivity_factor)} must lie in (0, 1]")
+    if not (0 <= model.liquid_threshold < 1):
+        raise ConfigError(f"liquid_threshold: {shown(model.liquid_threshold)} must lie in [0, 1)")
+
+
 def _readonly(a):
     """A read-only view of ``a`` (the caller's array keeps its flags)."""
     v = a.view()
@@ -184,14 +198,7 @@ class PhaseModel:
     tables: object = field(default=None, repr=False, compare=False)
 
     def __post_init__(self):
-        object.__setattr__(self, "law", time_law(self.law))
-        object.__setattr__(self, "hydrate_kinetics", hydrate_kinetics(self.hydrate_kinetics))
-        if not (self.diffusion_length_m > 0):
-            raise ConfigError(f"diffusion_length_m: {shown(self.diffusion_length_m)} must be > 0 m")
-        if not (0 < self.diffusivity_factor <= 1):
-            raise ConfigError(f"diffusivity_factor: {shown(self.diffusivity_factor)} must lie in (0, 1]")
-        if not (0 <= self.liquid_threshold < 1):
-            raise ConfigError(f"liquid_threshold: {shown(self.liquid_threshold)} must lie in [0, 1)")
+        check_phase_settings(self)
         if self.tables is _NO_TABLES:
             return  # settings only (e.g. to record them), no salt
         if self.tables is None:
