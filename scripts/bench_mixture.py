@@ -19,7 +19,7 @@ import numba
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from bench_phase import bench_kernel, forcing  # noqa: E402
+from bench_phase import bench_kernel, forcing, time_steps  # noqa: E402
 
 MIXTURE = {"Mg(ClO4)2": 0.6, "NaCl": 0.3, "CaSO4": 0.1}
 
@@ -27,20 +27,8 @@ MIXTURE = {"Mg(ClO4)2": 0.6, "NaCl": 0.3, "CaSO4": 0.1}
 def bench_mixture(model, n_cells, n_sols, spd=96):
     rng = np.random.default_rng(1)
     T, rh = forcing(n_cells, n_sols * spd, spd, rng)
-    st = model.initial_state(n_cells, 0.05, T[0])
-    model.step(st.copy(), T[:2], rh[:2], 600.0, 0.0, 925.0)  # compile
-    best = np.inf
-    for _ in range(5):
-        s = st.copy()
-        t0 = time.perf_counter()
-        for k in range(n_sols):
-            model.step(s, T[k * spd:(k + 1) * spd], rh[k * spd:(k + 1) * spd], 600.0, 0.0, 925.0)
-        best = min(best, time.perf_counter() - t0)
-    s, liquid = st.copy(), 0
-    for k in range(n_sols):
-        r = model.step(s, T[k * spd:(k + 1) * spd], rh[k * spd:(k + 1) * spd], 600.0, 0.0, 925.0)
-        liquid += int((r.liquid_fraction > 0).sum())
-    return n_cells * n_sols * spd / best, liquid / (n_cells * n_sols * spd)
+    return time_steps(model, model.initial_state(n_cells, 0.05, T[0]), T, rh, n_sols, spd,
+                      wet=lambda r: r.liquid_fraction > 0)
 
 
 def main():

@@ -40,7 +40,6 @@ References
 
 from __future__ import annotations
 
-import hashlib
 import math
 from dataclasses import dataclass, field
 from importlib import resources
@@ -50,6 +49,7 @@ import numpy as np
 from numba import njit
 
 from ..errors import ConfigError, InputDataError
+from ..inputs import file_sha256
 from ..water import MOLAR_MASS_WATER, psat_ice_kernel
 
 __all__ = ["PRECIPITABLE_MICRON_KG_M2", "WaterColumnTable", "default_climatology",
@@ -195,14 +195,6 @@ def _clamped_weights(x, xp):
     return i.astype(np.int64), (i + 1).astype(np.int64), f
 
 
-def _sha256(path):
-    h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for chunk in iter(lambda: fh.read(1 << 20), b""):
-            h.update(chunk)
-    return h.hexdigest()
-
-
 def _from_long_frame(df, where, sha):
     """A table from long-format rows (ls_deg, latitude_deg[, longitude_deg], value)."""
     cols = set(df.columns)
@@ -255,7 +247,7 @@ def _read_csv(path):
     except (OSError, UnicodeDecodeError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
         raise InputDataError(f"{path}: could not be read as a CSV text table ({type(exc).__name__})") from None
     df.columns = [c.strip() for c in df.columns]
-    return _from_long_frame(df, str(path), _sha256(path))
+    return _from_long_frame(df, str(path), file_sha256(path))
 
 
 def _read_netcdf(path, variable):
@@ -309,7 +301,7 @@ def _read_netcdf(path, variable):
             lon = np.mod(axes[dlon], 360.0)
             p = np.argsort(lon)
             lon, vals = lon[p], vals[:, :, p]
-        return WaterColumnTable(np.sort(ls), np.sort(lat), lon, vals, str(path), _sha256(path))
+        return WaterColumnTable(np.sort(ls), np.sort(lat), lon, vals, str(path), file_sha256(path))
 
 
 def read_column_table(path, variable=None):
