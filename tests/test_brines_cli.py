@@ -1,4 +1,13 @@
-"""`wetcycle brine freeze|evaporate`: sequence table, dataset and figure; one-line errors, exit 2."""
+"""`wetcycle brine freeze|evaporate`: sequence table, dataset and figure; one-line errors, exit 2.
+
+The mineral checks are the published behaviour the command reports, not model numbers (those are
+checked in test_brines_paths.py): a sulfate-rich chloride brine freezes out mirabilite first, as
+seawater does (Nelson & Thompson 1954, recalled; Marion et al. 1999), and, its Ca spent on
+gypsum, follows the SO4-rich, Ca-poor branch of the chemical divides (Hardie & Eugster 1970);
+evaporated at 25 °C it ends with halite (McCaffrey et al. 1987, recalled).  The one-line-error
+and exit-2 checks are the project's own CLI rules; charge neutrality of an ionic composition is
+common practice.
+"""
 
 import shutil
 from pathlib import Path
