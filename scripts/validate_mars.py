@@ -223,7 +223,9 @@ def _vapour_only(ds, k, hours_year):
     liq = ds["liquid_fraction"].isel(salt=k).values
     frost = ds["water_frost"].values
     ice = ds["ice_water"].isel(salt=k).values
-    dt_h = float(np.median(np.diff(ds["time"].values).astype("timedelta64[ms]").astype(float))) / 3.6e6
+    dt = np.diff(ds["time"].values)  # datetime64 when read back from a file, seconds in a fresh run
+    dt_s = dt / np.timedelta64(1, "s") if np.issubdtype(dt.dtype, np.timedelta64) else dt.astype(float)
+    dt_h = float(np.median(dt_s)) / 3600.0
     vap = (liq > 0) & ~(frost > 0) & ~(ice > 0)
     hours = np.nansum(np.where(vap, liq, 0.0), axis=-1) * dt_h / float(ds.attrs["years"])
     spell = _longest_run(vap) * dt_h
