@@ -248,6 +248,42 @@ def test_statistics_alone_and_streamed_in_short_blocks_are_the_same(chunked_resu
     np.testing.assert_array_equal(streamed["liquid_water"].values, full["liquid_water"].sel(salt=[SALTS[0]]).values)
 
 
+def test_a_time_axis_in_several_chunks_streams_and_equals_one_chunk(chunked_result):
+    # DESIGN decision 1: a time axis longer than memory streams through the block function,
+    # carrying the state.  Time chunks of 25 steps (not a divisor of the 96) stay separate chunks
+    # in the result (never gathered into one), and every statistic and per-step variable equals
+    # the one-chunk result bitwise (which equals run_series, above).
+    fc, full = chunked_result
+    streamed = wetcycle.run_dataset(fc.chunk({"lat": 2, "lon": 1, "time": 25}), SALTS, series=True)
+    assert streamed["phase_state"].chunks[1] == (25, 25, 25, 21)
+    assert streamed["liquid_hours"].chunks == ((1, 1), (2, 1), (1, 1))
+    streamed, full = streamed.compute(), full.compute()
+    for k in full.data_vars:
+        np.testing.assert_array_equal(streamed[k].values, full[k].values, err_msg=k)
+    assert np.any(full["liquid_hours"].values > 0)
+
+
+def test_streamed_vapour_pressure_without_pressure_and_a_single_cell():
+    # the same bitwise equality for the other humidity variable, the default surface pressure (a
+    # NumPy array among dask ones) and a series with no dimension but time
+    fc = invented_forcing(vapour=True).drop_vars("surface_pressure").isel(lat=2, lon=0)
+    one = wetcycle.run_dataset(fc, SALTS[0], series=True, law="equilibrium")
+    many = wetcycle.run_dataset(fc.chunk({"time": 10}), SALTS[0], series=True, law="equilibrium")
+    assert len(many["liquid_water"].chunks[-1]) == 10
+    many = many.compute()
+    for k in one.data_vars:
+        np.testing.assert_array_equal(many[k].values, one[k].values, err_msg=k)
+    assert float(one["liquid_hours"].sum()) > 0
+
+
+def test_streamed_values_out_of_range_are_refused_when_computed():
+    fc = invented_forcing()
+    fc["relative_humidity"] = fc["relative_humidity"] * 100.0     # percent, but labelled a fraction
+    lazy = wetcycle.run_dataset(fc.chunk({"lat": 1, "time": 30}), SALTS[0])
+    with pytest.raises(InputDataError, match=r"^relative_humidity: .* is outside 0 to 1 \(a fraction"):
+        lazy.compute()
+
+
 def test_readme_example_runs_as_written():
     # README, "From xarray: run_dataset": the snippet runs as printed (documentation kept true)
     import re

@@ -112,24 +112,64 @@ def run_cells(model, time_s, temperature_K, relative_humidity, surface_pressure_
     (stats, series): dicts of arrays, stats [cell] (names from :func:`statistic_names`), series
     [step, cell] (names :data:`PHASE_KEYS`; float64, states and flags int8) or None.
     """
-    # writable C-ordered float64 copies: one compiled signature of the kernels for every caller
-    T, relative_humidity, surface_pressure_Pa, frost_kg_m2 = (
-        np.array(a, dtype=np.float64, order="C") for a in np.broadcast_arrays(
-            temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2))
-    n_steps, n_cells = T.shape
+    T, relative_humidity, surface_pressure_Pa, frost_kg_m2 = _c_order(temperature_K, relative_humidity,
+                                                                      surface_pressure_Pa, frost_kg_m2)
     t = np.asarray(time_s, dtype=np.float64)
     dt = np.concatenate([[0.0], np.diff(t)])
-    state = model.initial_state(n_cells, loading_kg_m2, T[0], relative_humidity[0])
-    acc = Accumulator.new(n_cells, 1, min_water_activity, min_temperature_K)
+    state, acc = start_cells(model, T[0], relative_humidity[0], loading_kg_m2, min_water_activity=min_water_activity,
+                             min_temperature_K=min_temperature_K)
+    series = advance_cells(model, state, acc, T, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt,
+                           keep_series=keep_series)
+    return finish_cells(acc), series
+
+
+def _c_order(*arrays):
+    """Writable C-ordered float64 copies, broadcast together: one compiled signature of the
+    kernels for every caller."""
+    return tuple(np.array(a, dtype=np.float64, order="C") for a in np.broadcast_arrays(*arrays))
+
+
+def start_cells(model, temperature_K, relative_humidity, loading_kg_m2, *,
+                min_water_activity=HABITABILITY_DEFAULTS["min_water_activity"],
+                min_temperature_K=HABITABILITY_DEFAULTS["min_temperature_K"]):
+    """The state and empty accumulators of one salt in a chunk of cells, from the first sample.
+
+    The salt starts crystalline, as the stable hydrate at the first sample's temperature [K] and
+    relative humidity [-] (arrays [cell]); ``loading_kg_m2`` as for :func:`run_cells`.
+    Returns ``(state, acc)`` for :func:`advance_cells`.
+    """
+    T0, rh0 = (np.array(a, dtype=np.float64, order="C") for a in np.broadcast_arrays(temperature_K,
+                                                                                     relative_humidity))
+    state = model.initial_state(T0.size, loading_kg_m2, T0, rh0)
+    return state, Accumulator.new(T0.size, 1, min_water_activity, min_temperature_K)
+
+
+def advance_cells(model, state, acc, temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt_s, *,
+                  keep_series=True):
+    """Step ``state`` through series [step, cell] (no season), adding them to ``acc``, both in place.
+
+    ``dt_s`` [step] is each step's length (step k ends at sample k).  The steps stream through
+    :func:`phase_block` in blocks of :data:`BLOCK_STEPS`; the state and the accumulators carry
+    everything from block to block, so a series cut into consecutive pieces and advanced piece by
+    piece gives bitwise what one call gives.  Returns the per-step series (names
+    :data:`PHASE_KEYS`) or None.
+    """
+    T, rh, P, frost = _c_order(temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2)
+    dt = np.asarray(dt_s, dtype=np.float64)
+    n_steps, n_cells = T.shape
     parts = {k: [] for k in PHASE_KEYS} if keep_series else None
     for i0 in range(0, n_steps, BLOCK_STEPS):
         i1 = min(i0 + BLOCK_STEPS, n_steps)
-        r = phase_block(model, state, acc, T[i0:i1], relative_humidity[i0:i1], surface_pressure_Pa[i0:i1],
-                        frost_kg_m2[i0:i1], dt[i0:i1], np.zeros(i1 - i0), np.zeros((i1 - i0, n_cells)))
+        r = phase_block(model, state, acc, T[i0:i1], rh[i0:i1], P[i0:i1], frost[i0:i1], dt[i0:i1],
+                        np.zeros(i1 - i0), np.zeros((i1 - i0, n_cells)))
         if keep_series:
             for k, v in phase_outputs(r).items():
                 parts[k].append(v)
-    stats = acc.finish(float("nan"), per_year=False)
     if not keep_series:
-        return stats, None
-    return stats, {k: v[0] if len(v) == 1 else np.concatenate(v) for k, v in parts.items()}
+        return None
+    return {k: v[0] if len(v) == 1 else np.concatenate(v) for k, v in parts.items()}
+
+
+def finish_cells(acc):
+    """The statistics of a series (totals; no planet's year, DESIGN decision 7), arrays [cell]."""
+    return acc.finish(float("nan"), per_year=False)

@@ -3,7 +3,10 @@
 A thin layer over :func:`wetcycle.block.run_cells`, the path :func:`wetcycle.run_series` takes
 too: ``xr.apply_ufunc(..., dask="parallelized")`` hands each chunk of cells (every dimension but
 ``time``) to it as plain arrays [step, cell] in SI units, so a cell of the result equals
-``run_series`` on that cell bitwise, whatever the chunking.
+``run_series`` on that cell bitwise, whatever the chunking.  A ``time`` axis held in several dask
+chunks is not gathered into one: each chunk of cells becomes a chain of tasks, one per time block,
+carrying the state and the accumulators (:func:`wetcycle.block.start_cells`,
+:func:`~wetcycle.block.advance_cells`, :func:`~wetcycle.block.finish_cells`; DESIGN decision 1).
 
 >>> import numpy as np, xarray as xr, wetcycle
 >>> t = np.arange(0, 7200.0, 60.0)
@@ -17,10 +20,12 @@ True
 
 from __future__ import annotations
 
+import copy
+
 import numpy as np
 import xarray as xr
 
-from .block import PHASE_KEYS, run_cells, statistic_names
+from .block import PHASE_KEYS, advance_cells, finish_cells, run_cells, start_cells, statistic_names
 from .errors import ConfigError, InputDataError, shown
 from .forcing.prescribed import RANGES
 from .forcing.vapour import relative_humidity_for_salt
@@ -114,11 +119,10 @@ def _rh_from_vapor(e, T):
     return relative_humidity_for_salt(e, T)
 
 
-def _cells(T, rh, P, frost, *, model, time_s, loading, thresholds, keep_series, temperature_name):
-    """One chunk of cells: forcing arrays (..., time) in SI -> statistics and series (..., [time]).
+def _si_cells(T, rh, P, frost, temperature_name):
+    """Forcing arrays (..., time) of a chunk -> checked arrays [step, cell] in SI, and the cells' shape.
 
-    Runs inside dask (or directly on NumPy arrays); refuses values out of range in one line.
-    """
+    Refuses values out of range in one line."""
     T, rh, P, frost = np.broadcast_arrays(T, rh, P, frost)
     shape = T.shape[:-1]
     n_steps = T.shape[-1]
@@ -130,10 +134,92 @@ def _cells(T, rh, P, frost, *, model, time_s, loading, thresholds, keep_series, 
     _check("relative_humidity", rh, 0.0, 1.0, "", "(a fraction; percentages need units '%')")
     _check("surface_pressure", P, np.nextafter(0.0, 1.0), np.inf, "Pa")
     _check("water_frost", frost, 0.0, np.inf, "kg m-2")
+    return (T, rh, P, frost), shape
+
+
+def _cells(T, rh, P, frost, *, model, time_s, loading, thresholds, keep_series, temperature_name):
+    """One chunk of cells: forcing arrays (..., time) in SI -> statistics and series (..., [time]).
+
+    Runs inside dask (or directly on NumPy arrays); refuses values out of range in one line.
+    """
+    (T, rh, P, frost), shape = _si_cells(T, rh, P, frost, temperature_name)
+    n_steps = T.shape[0]
     stats, series = run_cells(model, time_s, T, rh, P, frost, loading, keep_series=keep_series, **thresholds)
     out = [np.asarray(v).reshape(shape) for v in stats.values()]
     if keep_series:
         out += [np.moveaxis(v, 0, -1).reshape(shape + (n_steps,)) for v in series.values()]
+    return tuple(out)
+
+
+# ---- streaming a time axis held in several chunks (DESIGN decision 1) ---------------------------
+# A chain of tasks per chunk of cells: the first time block starts the state, each block advances
+# a copy of the carried (state, accumulators) and hands it on, the last carry gives the statistics.
+# Only one time block of a chain is in memory at a time, so a series longer than memory streams.
+
+def _stream_block(carry, T, rh, P, frost, dt, *, model, loading, thresholds, keep_series, temperature_name):
+    """Advance one time block of one chunk of cells; returns ``(carry, series or None)``."""
+    (T, rh, P, frost), shape = _si_cells(T, rh, P, frost, temperature_name)
+    if carry is None:
+        state, acc = start_cells(model, T[0], rh[0], loading, **thresholds)
+    else:
+        state, acc = carry[0].copy(), copy.deepcopy(carry[1])
+    series = advance_cells(model, state, acc, T, rh, P, frost, dt, keep_series=keep_series)
+    if series is not None:
+        series = {k: np.moveaxis(v, 0, -1).reshape(shape + (T.shape[0],)) for k, v in series.items()}
+    return (state, acc), series
+
+
+def _stream_stats(carry, shape):
+    return {k: np.asarray(v).reshape(shape) for k, v in finish_cells(carry[1]).items()}
+
+
+def _streamed(args, *, model, time_s, loading, thresholds, keep_series, temperature_name, stat_types):
+    """The outputs of :func:`_cells` for dask-backed ``args`` whose ``time`` axis has several chunks.
+
+    ``args`` are DataArrays with a ``time`` dimension; returns DataArrays on (<other dims>) for the
+    statistics and (<other dims>, time) for the series, lazy, chunked as the input."""
+    import dask
+    import dask.array as dsa
+
+    args = xr.broadcast(*args)
+    other = [d for d in args[0].dims if d != "time"]
+    args = xr.unify_chunks(*[a.transpose(*other, "time") for a in args])
+    chunks = next(a.chunks for a in args if a.chunks is not None)
+    arrays = [a.data if isinstance(a.data, dsa.Array) else dsa.from_array(np.asarray(a.data), chunks=chunks)
+              for a in args]
+    t_chunks = chunks[-1]
+    t_edges = np.concatenate([[0], np.cumsum(t_chunks)])
+    dt = np.concatenate([[0.0], np.diff(np.asarray(time_s, dtype=np.float64))])
+    spatial = [range(len(c)) for c in chunks[:-1]]
+    kw = dict(model=model, loading=loading, thresholds=thresholds, keep_series=keep_series,
+              temperature_name=temperature_name)
+    step = dask.delayed(_stream_block, nout=2, pure=True)
+    stat_blocks = np.empty([len(c) for c in chunks[:-1]], dtype=object)
+    series_blocks = {k: np.empty([len(c) for c in chunks[:-1]] + [len(t_chunks)], dtype=object) for k in PHASE_KEYS}
+    for idx in np.ndindex(*[len(r) for r in spatial]):
+        shape = tuple(chunks[d][i] for d, i in enumerate(idx))
+        carry = None
+        for k in range(len(t_chunks)):
+            blocks = [a.blocks[idx + (k,)] for a in arrays]
+            carry, ser = step(carry, *blocks, dt[t_edges[k]:t_edges[k + 1]], **kw)
+            if keep_series:
+                for name in PHASE_KEYS:
+                    dtype = np.int8 if name in ("phase_state", "validity_flag") else np.float64
+                    series_blocks[name][idx + (k,)] = dsa.from_delayed(ser[name], shape + (t_chunks[k],), dtype=dtype)
+        stat_blocks[idx] = dask.delayed(_stream_stats, pure=True)(carry, shape)
+    coords = {}
+    for a in args:
+        coords.update({k: c for k, c in a.coords.items() if "time" not in c.dims and k not in coords})
+    out = []
+    for name, dtype in stat_types.items():
+        grid = np.empty(stat_blocks.shape, dtype=object)
+        for idx in np.ndindex(*stat_blocks.shape):
+            shape = tuple(chunks[d][i] for d, i in enumerate(idx))
+            grid[idx] = dsa.from_delayed(stat_blocks[idx][name], shape, dtype=dtype)
+        out.append(xr.DataArray(dsa.block(grid.tolist()) if grid.ndim else grid[()], dims=other, coords=coords))
+    if keep_series:
+        for name in PHASE_KEYS:
+            out.append(xr.DataArray(dsa.block(series_blocks[name].tolist()), dims=other + ["time"], coords=coords))
     return tuple(out)
 
 
@@ -150,7 +236,9 @@ def run_dataset(forcing, salts, *, law=DEFAULTS["law"], loading_kg_m2=DEFAULTS["
     :func:`wetcycle.run_series` steps it (both go through :func:`wetcycle.block.run_cells`): a
     cell of the result equals ``run_series`` on that cell's series bitwise.  With dask-chunked
     forcing the result is a graph of one task per chunk of cells (``xr.apply_ufunc`` with
-    ``dask="parallelized"``); ``time`` is brought into a single chunk.
+    ``dask="parallelized"``); if ``time`` is cut into several chunks, of one chain of tasks per
+    chunk of cells that steps the time blocks in order (memory: one time block per chain; the
+    per-step output keeps the input's time chunks).
 
     Parameters
     ----------
@@ -242,10 +330,9 @@ def run_dataset(forcing, salts, *, law=DEFAULTS["law"], loading_kg_m2=DEFAULTS["
     args = []
     for name in ("salt_temperature", "vapor_pressure" if has_e else "relative_humidity", "surface_pressure",
                  "water_frost"):
-        da = inputs[name].drop_vars("time", errors="ignore")
-        if da.chunks is not None:
-            da = da.chunk({"time": -1})
-        args.append(da)
+        args.append(inputs[name].drop_vars("time", errors="ignore"))
+    # a time axis in several dask chunks streams block by block; otherwise one task per chunk of cells
+    stream = any(da.chunks is not None and len(da.chunks[da.dims.index("time")]) > 1 for da in args)
     if has_e:
         args[1] = xr.apply_ufunc(_rh_from_vapor, args[1], args[0], dask="parallelized", output_dtypes=[np.float64])
     stat_types = statistic_names()
@@ -257,11 +344,15 @@ def run_dataset(forcing, salts, *, law=DEFAULTS["law"], loading_kg_m2=DEFAULTS["
     thresholds = dict(min_water_activity=float(min_water_activity), min_temperature_K=float(min_temperature_K))
     per_salt = []
     for model in models:
-        res = xr.apply_ufunc(
-            _cells, *args, input_core_dims=[["time"]] * len(args), output_core_dims=core,
-            kwargs=dict(model=model, time_s=t, loading=float(loading_kg_m2), thresholds=thresholds,
-                        keep_series=series, temperature_name=temperature_name),
-            dask="parallelized", output_dtypes=out_types)
+        if stream:
+            res = _streamed(args, model=model, time_s=t, loading=float(loading_kg_m2), thresholds=thresholds,
+                            keep_series=series, temperature_name=temperature_name, stat_types=stat_types)
+        else:
+            res = xr.apply_ufunc(
+                _cells, *args, input_core_dims=[["time"]] * len(args), output_core_dims=core,
+                kwargs=dict(model=model, time_s=t, loading=float(loading_kg_m2), thresholds=thresholds,
+                            keep_series=series, temperature_name=temperature_name),
+                dask="parallelized", output_dtypes=out_types)
         res = res if isinstance(res, tuple) else (res,)
         data = {k: res[i] for i, k in enumerate(stat_types)}
         if series:
