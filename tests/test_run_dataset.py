@@ -284,6 +284,23 @@ def test_streamed_values_out_of_range_are_refused_when_computed():
         lazy.compute()
 
 
+def test_masked_cells_are_selected_out_by_stacking_and_come_back_as_nan():
+    # the README's recipe for a land-only (NaN-masked) field: stack the cells, drop the all-NaN
+    # ones, run, unstack.  The masked cell is NaN; every other cell equals its unmasked run.
+    fc = invented_forcing()
+    hole = (fc.lat == 0.0) & (fc.lon == 120.0)
+    masked = fc.copy()
+    for k in ("surface_temperature", "relative_humidity"):
+        masked[k] = fc[k].where(~hole)
+    land = masked.stack(cell=("lat", "lon")).dropna("cell", how="all", subset=["surface_temperature"])
+    ds = wetcycle.run_dataset(land, SALTS[0]).unstack("cell")
+    ref = wetcycle.run_dataset(fc, SALTS[0])
+    lh = ds["liquid_hours"].sel(salt=SALTS[0]).transpose("lat", "lon")
+    assert np.isnan(lh.sel(lat=0.0, lon=120.0)) and int(lh.isnull().sum()) == 1
+    keep = ~hole.transpose("lat", "lon").values
+    np.testing.assert_array_equal(lh.values[keep], ref["liquid_hours"].sel(salt=SALTS[0]).values[keep])
+
+
 def test_readme_example_runs_as_written():
     # README, "From xarray: run_dataset": the snippet runs as printed (documentation kept true)
     import re

@@ -361,13 +361,14 @@ def run_dataset(forcing, salts, *, law=DEFAULTS["law"], loading_kg_m2=DEFAULTS["
     ds = xr.concat(per_salt, dim="salt", coords="minimal", compat="override")
     ds = ds.assign_coords(salt=("salt", np.array([m.tables.name for m in models], dtype=object), attrs("salt")))
     other = [d for d in ds["liquid_hours"].dims if d != "salt"]
+    # one transpose of the whole Dataset (reassigning variables one by one trips over a stacked,
+    # MultiIndex dimension such as the `cell` of a land-only selection)
+    ds = ds.transpose("salt", *(["time"] if series else []), *other)
     for k in stat_types:
-        ds[k] = ds[k].transpose("salt", *other)
         ds[k].attrs = attrs(k)
     t_attrs = time_attrs({"start_utc": start} if start else {})
     if series:
         for k in PHASE_KEYS:
-            ds[k] = ds[k].transpose("salt", "time", *other)
             ds[k].attrs = attrs(k)
         for k, da in zip(("salt_temperature", "relative_humidity", "surface_pressure"), args):
             ds[k] = da.transpose("time", ...)
