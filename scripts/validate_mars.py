@@ -116,6 +116,14 @@ def lander_rows(ds):
     amp = np.mean([ts[sol == s].max() - ts[sol == s].min() for s in np.unique(sol)])
     rows.append(("Gale ground temperature, mean diurnal amplitude", "76 K", "Buenestado et al. (read)",
                  f"{amp:.0f} K", "annual mean", abs(amp - 76) <= 15, "15 K"))
+    # the ground temperature's diurnal range by season: block medians of the daily min / max of the
+    # rover's ground-temperature sensor in MY32 (REMS team's public daily feed, open data; our count
+    # over ~45 sols per block, +-2 K), +-8 K for the sensor's footprint and the rover's traverse
+    for lo, hi, omin, omax in ((72, 112, 183, 264), (124, 146, 188, 271), (186, 213, 200, 287), (259, 291, 200, 277)):
+        tmin, tmax = _sol_stats(ds, "surface_temperature", g, lo, hi)
+        rows.append((f"Gale ground temperature, Ls {lo}-{hi}", f"{omin}-{omax} K",
+                     "REMS daily records, MY32 (open data)", f"{tmin:.0f}-{tmax:.0f} K", "daily min/max, sol mean",
+                     abs(tmin - omin) <= 8 and abs(tmax - omax) <= 8, "8 K"))
     pg = ds["surface_pressure"].isel(site=g).values
     rows.append(("Gale surface pressure, annual min / max", "735 / 924 Pa", "rover team's daily reports, MY32 (open data)",
                  f"{pg.min():.0f} / {pg.max():.0f} Pa", "site elevation -4.4 km",
