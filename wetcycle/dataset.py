@@ -21,6 +21,7 @@ True
 from __future__ import annotations
 
 import copy
+import uuid
 
 import numpy as np
 import xarray as xr
@@ -191,7 +192,10 @@ def _streamed(args, *, model, time_s, loading, thresholds, keep_series, temperat
     t_edges = np.concatenate([[0], np.cumsum(t_chunks)])
     dt = np.concatenate([[0.0], np.diff(np.asarray(time_s, dtype=np.float64))])
     spatial = [range(len(c)) for c in chunks[:-1]]
-    kw = dict(model=model, loading=loading, thresholds=thresholds, keep_series=keep_series,
+    # the phase model (megabytes of tables) is one key of the graph that every task depends on,
+    # not a copy inside each task (which a distributed scheduler would ship task by task)
+    model_key = dask.delayed(model, name=f"phase-model-{uuid.uuid4().hex}", traverse=False)
+    kw = dict(model=model_key, loading=loading, thresholds=thresholds, keep_series=keep_series,
               temperature_name=temperature_name)
     step = dask.delayed(_stream_block, nout=2, pure=True)
     stat_blocks = np.empty([len(c) for c in chunks[:-1]], dtype=object)
