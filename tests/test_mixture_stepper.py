@@ -252,3 +252,46 @@ def test_perchlorate_chloride_mutual_deliquescence_below_either_salt():
     assert k > 0 and abs(rh[k] - 0.28) < 0.05
     own = min(float(salts.load(n).deliquescence_rh(248.0)) for n in ("Mg(ClO4)2", "MgCl2"))
     assert rh[k] < own
+
+
+@pytest.mark.parametrize("tables_name, law", [("cold_soil", "equilibrium"), ("cold_soil", "vapour_limited"),
+                                              ("nacl_kcl", "equilibrium"), ("nacl_kcl", "vapour_limited")])
+def test_kernel_gives_the_numbers_of_its_reference(request, tables_name, law):
+    # The kernel's speed-up changed how it reads its tables, not what it computes: on random forcing
+    # (temperatures inside and outside the tables, humid and dry air, frost, uneven steps) every output and
+    # the carried state equal those of the kernel before the speed-up (tests/mixture_kernel_reference.py,
+    # wetcycle 45076c1) exactly: the same floating-point operations in the same order.
+    from mixture_kernel_reference import step_mixture_block as reference
+
+    from wetcycle.phase import mixture_kernel as mk
+    from wetcycle.phase.model import forcing_arrays
+    tb = request.getfixturevalue(tables_name)
+    m = MixtureModel("x", tb.composition, law=law, extrapolate_binaries=tb.extrapolate_binaries, tables=tb)
+    rng = np.random.default_rng(13)
+    n_step, n_cell = 120, 64
+    lo, hi = tb.T_min - 6.0, tb.T_max + 6.0
+    T = rng.uniform(lo, hi, n_cell)[None, :] + rng.normal(0.0, 2.0, (n_step, n_cell)).cumsum(axis=0)
+    T = np.clip(T, lo, hi)
+    rh = np.clip(rng.uniform(0.0, 1.1, (n_step, n_cell)) ** 2, 0.0, 1.0)
+    frost = np.where(rng.uniform(size=(n_step, n_cell)) < 0.2, rng.uniform(0.0, 0.01, (n_step, n_cell)), 0.0)
+    P = rng.uniform(300.0, 1200.0, (n_step, n_cell))
+    dt = rng.uniform(60.0, 3600.0, n_step)
+    results = []
+    for kernel in (mk.step_mixture_block, reference):
+        st0 = m.initial_state(n_cell, np.linspace(0.01, 0.2, n_cell), T[0])
+        kst = mk.MixState(st0.W, st0.prev, st0.started)
+        shape = T.shape
+        out = mk.MixOut(np.empty(shape, np.int64), *(np.empty(shape) for _ in range(6)), np.empty(shape, np.int64),
+                        np.empty(shape + (len(tb.ions),)))
+        for a, b in ((0, 50), (50, n_step)):  # two blocks: the carried state is part of the check
+            f = forcing_arrays(T[a:b], rh[a:b], P[a:b], frost[a:b], dt[a:b])
+            o = mk.MixOut(*(x[a:b] for x in out))
+            kernel(*f, st0.mass, m._law, m._xtab, m._ktab, kst, o)
+        results.append((out, kst))
+    (new, st_new), (ref, st_ref) = results
+    for name, x, y in zip(mk.MixOut._fields + mk.MixState._fields, tuple(new) + tuple(st_new),
+                          tuple(ref) + tuple(st_ref)):
+        assert np.array_equal(x, y, equal_nan=True), name
+    # the forcing reached every kind of state (else the comparison would miss a branch)
+    seen = set(np.unique(new.phase))
+    assert {CRYSTALLINE} < seen and seen & {BRINE, BRINE_WITH_SALT, BRINE_WITH_ICE}

@@ -85,7 +85,7 @@ def exchange_table(dfactor, length):
 ALL_DISSOLVED = 1.0 - 1e-9
 
 
-@njit(cache=True, inline="always", error_model="numpy")
+@njit(cache=True, inline="always", error_model="numpy", _nrt=False)
 def _tloc(T, T0, dT, n):
     x = (T - T0) / dT
     if x <= 0.0:
@@ -96,7 +96,7 @@ def _tloc(T, T0, dT, n):
     return i, x - i
 
 
-@njit(cache=True, inline="always", error_model="numpy")
+@njit(cache=True, inline="always", error_model="numpy", _nrt=False)
 def _vloc(v, v0, dlv, nv):
     """(j, w, below): column j and weight w toward j+1; below: v < v0 (w = v / v0 toward column 0)."""
     if v < v0:
@@ -108,92 +108,91 @@ def _vloc(v, v0, dlv, nv):
     return j, x - j, False
 
 
-@njit(cache=True, inline="always", error_model="numpy")
-def _row(tab, i, j, w, below):
-    """a_w at column position (j, w) of T row i (below v0: the column-0 value)."""
-    if below:
-        return tab[i, 0]
+# The helpers below take the tables' arrays one by one, hoisted out of the kernel's loops, and are
+# ordinary (not numba-inlined) functions: numba's own inlining, or a field of the tables' tuple read
+# inside a loop, makes a new reference to an array at every use, and those atomic reference counts
+# took a third of the kernel's time.  LLVM still inlines the calls.
+
+@njit(cache=True, inline="always", error_model="numpy", _nrt=False)
+def _lerp(tab, i, j, w):
     return tab[i, j] + w * (tab[i, j + 1] - tab[i, j])
 
 
-@njit(cache=True, inline="always", error_model="numpy")
-def _amount(tab, i, j, w, below):
-    """An amount (brine or ice water, dissolved fraction) at (j, w): 0 at v = 0, linear to column 0."""
-    if below:
-        return w * tab[i, 0]
-    return tab[i, j] + w * (tab[i, j + 1] - tab[i, j])
-
-
-@njit(cache=True, inline="always", error_model="numpy")
-def _at(tb, i, f, u):
+@njit(cache=True, inline="always", error_model="numpy", _nrt=False)
+def _at(u_dry, aw_solid, aw, lw, iw, diss, v0, dlv, i, f, u):
     """(a_s, brine water, ice, dissolved fraction, all solid) per kg of salt at T row position (i, f) and u.
 
     Each T row is read at its own v = u - u_dry(T) (or, all solid, at s = u / u_dry) and the two
-    rows are blended.
+    rows are blended.  Below v0 an amount (brine or ice water, dissolved fraction) goes linearly
+    to 0 at v = 0 and a_w is the column-0 value.
     """
-    nv = tb.aw.shape[1]
-    i1 = min(i + 1, tb.aw.shape[0] - 1)
-    ud0 = tb.u_dry[i]
-    ud1 = tb.u_dry[i1]
+    nv = aw.shape[1]
+    i1 = min(i + 1, aw.shape[0] - 1)
+    ud0 = u_dry[i]
+    ud1 = u_dry[i1]
     if u <= ud0 and u <= ud1 and ud0 > 0.0 and ud1 > 0.0:
         # all solid in both rows (the common case on Mars): straight-line code
-        ns1 = tb.aw_solid.shape[1] - 1
+        ns1 = aw_solid.shape[1] - 1
         x0 = max(u, 0.0) / ud0 * ns1
         j0 = min(int(x0), ns1 - 1)
         x1 = max(u, 0.0) / ud1 * ns1
         j1 = min(int(x1), ns1 - 1)
-        sa = tb.aw_solid
-        a0 = sa[i, j0] + (x0 - j0) * (sa[i, j0 + 1] - sa[i, j0])
-        a1 = sa[i1, j1] + (x1 - j1) * (sa[i1, j1 + 1] - sa[i1, j1])
+        a0 = _lerp(aw_solid, i, j0, x0 - j0)
+        a1 = _lerp(aw_solid, i1, j1, x1 - j1)
         return a0 + f * (a1 - a0), 0.0, 0.0, 0.0, True
     a = 0.0
-    lw = 0.0
-    iw = 0.0
+    lwv = 0.0
+    iwv = 0.0
     ds = 0.0
     solid = 0.0
     for r in range(2):
         ii = i + r
         wt = (1.0 - f) if r == 0 else f
-        if wt == 0.0 or ii >= tb.aw.shape[0]:
+        if wt == 0.0 or ii >= aw.shape[0]:
             continue
-        ud = tb.u_dry[ii]
+        ud = u_dry[ii]
         v = u - ud
         if v <= 0.0:
             solid += wt
             if ud > 0.0:
-                ns = tb.aw_solid.shape[1]
+                ns = aw_solid.shape[1]
                 x = max(u, 0.0) / ud * (ns - 1)
                 js = min(int(x), ns - 2)
-                a += wt * (tb.aw_solid[ii, js] + (x - js) * (tb.aw_solid[ii, js + 1] - tb.aw_solid[ii, js]))
+                a += wt * _lerp(aw_solid, ii, js, x - js)
             else:
-                a += wt * tb.aw[ii, 0]
+                a += wt * aw[ii, 0]
             continue
-        j, w, below = _vloc(v, tb.v0, tb.dlv, nv)
-        a += wt * _row(tb.aw, ii, j, w, below)
-        lw += wt * _amount(tb.lw, ii, j, w, below)
-        iw += wt * _amount(tb.iw, ii, j, w, below)
-        ds += wt * _amount(tb.diss, ii, j, w, below)
-    return a, lw, iw, ds, solid >= 1.0
+        j, w, below = _vloc(v, v0, dlv, nv)
+        if below:
+            a += wt * aw[ii, 0]
+            lwv += wt * (w * lw[ii, 0])
+            iwv += wt * (w * iw[ii, 0])
+            ds += wt * (w * diss[ii, 0])
+        else:
+            a += wt * _lerp(aw, ii, j, w)
+            lwv += wt * _lerp(lw, ii, j, w)
+            iwv += wt * _lerp(iw, ii, j, w)
+            ds += wt * _lerp(diss, ii, j, w)
+    return a, lwv, iwv, ds, solid >= 1.0
 
 
-@njit(cache=True, inline="always", error_model="numpy")
-def _u_of_aw(tb, i, f, target, uptake):
+@njit(cache=True, inline="always", error_model="numpy", _nrt=False)
+def _u_of_aw(u_dry, sa, aw, v0, dlv, i, f, target, uptake):
     """Water content u [kg kg-1] where the blended a_w reaches ``target``.
 
     ``uptake``: the smallest u with a_w >= target (the last column if none); else the largest u
     with a_w <= target (u_dry if none: the air is drier than the first brine).  Blends the two T
     rows' columns at equal v offsets from their own u_dry, which keeps a_w monotone in u.
     """
-    nv = tb.aw.shape[1]
-    ud = (1.0 - f) * tb.u_dry[i] + f * tb.u_dry[i + 1] if i + 1 < tb.aw.shape[0] else tb.u_dry[i]
-    i1 = i + 1 if i + 1 < tb.aw.shape[0] else i
-    a_m = (1.0 - f) * tb.aw[i, 0] + f * tb.aw[i1, 0]
+    nv = aw.shape[1]
+    ud = (1.0 - f) * u_dry[i] + f * u_dry[i + 1] if i + 1 < aw.shape[0] else u_dry[i]
+    i1 = i + 1 if i + 1 < aw.shape[0] else i
+    a_m = (1.0 - f) * aw[i, 0] + f * aw[i1, 0]
     if (uptake and target <= a_m) or ((not uptake) and target < a_m):
         # the all-solid part, u = s u_dry: hydrate water in equilibrium with the air
         if not ud > 0.0:
             return 0.0
-        ns = tb.aw_solid.shape[1]
-        sa = tb.aw_solid
+        ns = sa.shape[1]
         if uptake:
             # smallest j with a(j) >= target, by bisection (a is non-decreasing)
             if (1.0 - f) * sa[i, ns - 1] + f * sa[i1, ns - 1] < target:
@@ -228,13 +227,13 @@ def _u_of_aw(tb, i, f, target, uptake):
     hi = nv - 1
     if uptake:
         # smallest j with a(j) >= target
-        if (1.0 - f) * tb.aw[i, nv - 1] + f * tb.aw[i1, nv - 1] < target:
-            return ud + tb.v0 * math.exp(tb.dlv * (nv - 1))
+        if (1.0 - f) * aw[i, nv - 1] + f * aw[i1, nv - 1] < target:
+            return ud + v0 * math.exp(dlv * (nv - 1))
         if a_m >= target:
-            return ud + tb.v0
+            return ud + v0
         while hi - lo > 1:
             mid = (lo + hi) // 2
-            if (1.0 - f) * tb.aw[i, mid] + f * tb.aw[i1, mid] >= target:
+            if (1.0 - f) * aw[i, mid] + f * aw[i1, mid] >= target:
                 hi = mid
             else:
                 lo = mid
@@ -242,33 +241,39 @@ def _u_of_aw(tb, i, f, target, uptake):
         # largest j with a(j) <= target
         if a_m > target:
             return ud
-        if (1.0 - f) * tb.aw[i, nv - 1] + f * tb.aw[i1, nv - 1] <= target:
-            return ud + tb.v0 * math.exp(tb.dlv * (nv - 1))
+        if (1.0 - f) * aw[i, nv - 1] + f * aw[i1, nv - 1] <= target:
+            return ud + v0 * math.exp(dlv * (nv - 1))
         while hi - lo > 1:
             mid = (lo + hi) // 2
-            if (1.0 - f) * tb.aw[i, mid] + f * tb.aw[i1, mid] <= target:
+            if (1.0 - f) * aw[i, mid] + f * aw[i1, mid] <= target:
                 lo = mid
             else:
                 hi = mid
-    al = (1.0 - f) * tb.aw[i, lo] + f * tb.aw[i1, lo]
-    ah = (1.0 - f) * tb.aw[i, hi] + f * tb.aw[i1, hi]
+    al = (1.0 - f) * aw[i, lo] + f * aw[i1, lo]
+    ah = (1.0 - f) * aw[i, hi] + f * aw[i1, hi]
     t = (target - al) / (ah - al) if ah > al else (1.0 if uptake else 0.0)
     t = min(max(t, 0.0), 1.0)
-    return ud + tb.v0 * math.exp(tb.dlv * (lo + t))
+    return ud + v0 * math.exp(dlv * (lo + t))
 
 
-@njit(cache=True, inline="always", error_model="numpy")
-def _u_first_ice(tb, i, f):
+@njit(cache=True, inline="always", error_model="numpy", _nrt=False)
+def _u_first_ice(u_dry, sa, aw, iw, awice, v0, dlv, i, f):
     """Smallest u with ice in the blended rows: where the brine's a_w reaches a_w,ice (inf without ice)."""
-    nv = tb.aw.shape[1]
-    i1 = i + 1 if i + 1 < tb.aw.shape[0] else i
-    if not (1.0 - f) * tb.iw[i, nv - 1] + f * tb.iw[i1, nv - 1] > 0.0:
+    nv = aw.shape[1]
+    i1 = i + 1 if i + 1 < aw.shape[0] else i
+    if not (1.0 - f) * iw[i, nv - 1] + f * iw[i1, nv - 1] > 0.0:
         return math.inf
-    ai = (1.0 - f) * tb.awice[i] + f * tb.awice[i1]
-    return _u_of_aw(tb, i, f, ai * (1.0 - 1e-9), True)
+    ai = (1.0 - f) * awice[i] + f * awice[i1]
+    return _u_of_aw(u_dry, sa, aw, v0, dlv, i, f, ai * (1.0 - 1e-9), True)
 
 
-@njit(cache=True, error_model="numpy", nogil=True)
+@njit(cache=True, inline="always", error_model="numpy", _nrt=False)
+def u_of_aw(tb, i, f, target, uptake):
+    """:func:`_u_of_aw` on a :data:`MixTables` (for callers outside the kernel's loops)."""
+    return _u_of_aw(tb.u_dry, tb.aw_solid, tb.aw, tb.v0, tb.dlv, i, f, target, uptake)
+
+
+@njit(cache=True, error_model="numpy", nogil=True, _nrt=False)
 def step_mixture_block(T, RH, P, frost, dt, mass, law, xtab, tb, st, out):
     """Advance every cell through ``T.shape[0]`` samples (arguments as ``kernel.step_block``).
 
@@ -289,6 +294,7 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, xtab, tb, st, out):
     st_W, st_prev, st_started = st
     o_phase, o_liq, o_aw, o_wb, o_wh, o_wi, o_exch, o_flag, o_mol = out
     t_udry, t_awice, t_flag, t_mol = tb.u_dry, tb.awice, tb.flag, tb.mol
+    t_sa, t_aw, t_lw, t_iw, t_diss = tb.aw_solid, tb.aw, tb.lw, tb.iw, tb.diss
     t_T0, t_dT, t_v0, t_dlv = tb.T0, tb.dT, tb.v0, tb.dlv
     for k in range(nstep):
         dtk = dt[k]
@@ -317,12 +323,12 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, xtab, tb, st, out):
                 Tw = min(max(Tw, T_WATER_MIN), T_WATER_MAX)
             i, f = _tloc(Tb, t_T0, t_dT, nT)
             u0 = W0 / M
-            a_s, lw0, iw0, ds0, dry = _at(tb, i, f, u0)
+            a_s, lw0, iw0, ds0, dry = _at(t_udry, t_sa, t_aw, t_lw, t_iw, t_diss, t_v0, t_dlv, i, f, u0)
             W = W0
             frost_touch = Fb > 0.0 and Tb_raw <= T_MELT
             if frost_touch:
                 # contact melting up to the first ice (the brine on its liquidus), from the frost budget
-                ui = _u_first_ice(tb, i, f)
+                ui = _u_first_ice(t_udry, t_sa, t_aw, t_iw, t_awice, t_v0, t_dlv, i, f)
                 if ui < math.inf:
                     need = ui * M - W0
                     if need > 0.0:
@@ -330,7 +336,7 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, xtab, tb, st, out):
                         W = W0 + drawn
             elif instant:
                 if RHb > a_s:
-                    u_t = _u_of_aw(tb, i, f, RHb, True)
+                    u_t = _u_of_aw(t_udry, t_sa, t_aw, t_v0, t_dlv, i, f, RHb, True)
                     if Tb_raw > T_MELT:
                         aw_i = 2.0
                     elif Tb == Tb_raw:  # the tabulated ice activity (exact at the rows, linear between)
@@ -339,17 +345,17 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, xtab, tb, st, out):
                         aw_i = ice_activity_kernel(Tw)
                     if RHb >= aw_i * (1.0 - 1e-5):
                         # at or above ice saturation: closed once ice is present, else up to the first ice
-                        ui = _u_first_ice(tb, i, f)
+                        ui = _u_first_ice(t_udry, t_sa, t_aw, t_iw, t_awice, t_v0, t_dlv, i, f)
                         if iw0 > 0.0:
                             u_t = u0
                         elif ui < u_t:
                             u_t = ui
                     W = u_t * M
                 elif RHb < a_s:
-                    W = _u_of_aw(tb, i, f, RHb, False) * M
+                    W = _u_of_aw(t_udry, t_sa, t_aw, t_v0, t_dlv, i, f, RHb, False) * M
             elif RHb != a_s:
                 up = RHb > a_s
-                u_t = _u_of_aw(tb, i, f, RHb, up)
+                u_t = _u_of_aw(t_udry, t_sa, t_aw, t_v0, t_dlv, i, f, RHb, up)
                 dWt = u_t * M - W0
                 if dWt != 0.0 and (dWt > 0.0) == up:
                     xx = (Tw - XT0) / XDT
@@ -363,7 +369,7 @@ def step_mixture_block(T, RH, P, frost, dt, mass, law, xtab, tb, st, out):
             elif W <= M * min(t_udry[i], t_udry[min(i + 1, nT - 1)]):
                 a1, lw1, iw1, ds1 = a_s, 0.0, 0.0, 0.0  # all solid in both rows (a1 is used only with brine)
             else:
-                a1, lw1, iw1, ds1, dry1 = _at(tb, i, f, W / M)
+                a1, lw1, iw1, ds1, dry1 = _at(t_udry, t_sa, t_aw, t_lw, t_iw, t_diss, t_v0, t_dlv, i, f, W / M)
             wb = lw1 * M
             wi = iw1 * M
             if wb + wi > W:  # interpolation of amounts never exceeds the water present

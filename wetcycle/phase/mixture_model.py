@@ -121,7 +121,7 @@ class MixtureModel:
         for c in range(n_cells):  # once per run: a Python loop over cells is fine here
             i, f = mk._tloc(float(T[c]), tb.T0, tb.dT, tb.u_dry.size)
             u_top = (1.0 - f) * tb.u_dry[i] + f * tb.u_dry[min(i + 1, tb.u_dry.size - 1)]
-            ud[c] = min(mk._u_of_aw(kt, i, f, min(max(float(rh[c]), 1e-9), 1.0), False), u_top)
+            ud[c] = min(mk.u_of_aw(kt, i, f, min(max(float(rh[c]), 1e-9), 1.0), False), u_top)
         return MixtureState(W=ud * load, mass=load, prev=np.zeros((5, n_cells)),
                             started=np.zeros(n_cells, dtype=np.int64), exchanged=np.zeros(n_cells))
 
