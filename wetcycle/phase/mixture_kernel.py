@@ -108,10 +108,10 @@ def _vloc(v, v0, dlv, nv):
     return j, x - j, False
 
 
-# The helpers below take the tables' arrays one by one, hoisted out of the kernel's loops, and are
-# ordinary (not numba-inlined) functions: numba's own inlining, or a field of the tables' tuple read
-# inside a loop, makes a new reference to an array at every use, and those atomic reference counts
-# took a third of the kernel's time.  LLVM still inlines the calls.
+# Speed: the kernel and its helpers are compiled without reference counting (``_nrt=False``: they
+# allocate nothing), and the helpers (inlined into the kernel) take the tables' arrays one by one,
+# hoisted out of the loops.  With reference counting, every array passed to an inlined helper or read
+# from the tables' tuple inside a loop took an atomic increment and decrement: a third of the time.
 
 @njit(cache=True, inline="always", error_model="numpy", _nrt=False)
 def _lerp(tab, i, j, w):
@@ -202,10 +202,9 @@ def _u_of_aw(u_dry, sa, aw, v0, dlv, i, f, target, uptake):
             lo, hi = 0, ns - 1
             while hi - lo > 1:
                 mid = (lo + hi) // 2
-                if (1.0 - f) * sa[i, mid] + f * sa[i1, mid] >= target:
-                    hi = mid
-                else:
-                    lo = mid
+                up = (1.0 - f) * sa[i, mid] + f * sa[i1, mid] >= target
+                hi = mid if up else hi
+                lo = lo if up else mid
         else:
             # largest j with a(j) <= target
             if (1.0 - f) * sa[i, 0] + f * sa[i1, 0] > target:
@@ -215,10 +214,9 @@ def _u_of_aw(u_dry, sa, aw, v0, dlv, i, f, target, uptake):
             lo, hi = 0, ns - 1
             while hi - lo > 1:
                 mid = (lo + hi) // 2
-                if (1.0 - f) * sa[i, mid] + f * sa[i1, mid] <= target:
-                    lo = mid
-                else:
-                    hi = mid
+                dn = (1.0 - f) * sa[i, mid] + f * sa[i1, mid] <= target
+                lo = mid if dn else lo
+                hi = hi if dn else mid
         al = (1.0 - f) * sa[i, lo] + f * sa[i1, lo]
         ah = (1.0 - f) * sa[i, lo + 1] + f * sa[i1, lo + 1]
         t = (target - al) / (ah - al) if ah > al else (1.0 if uptake else 0.0)
@@ -233,10 +231,9 @@ def _u_of_aw(u_dry, sa, aw, v0, dlv, i, f, target, uptake):
             return ud + v0
         while hi - lo > 1:
             mid = (lo + hi) // 2
-            if (1.0 - f) * aw[i, mid] + f * aw[i1, mid] >= target:
-                hi = mid
-            else:
-                lo = mid
+            up = (1.0 - f) * aw[i, mid] + f * aw[i1, mid] >= target
+            hi = mid if up else hi
+            lo = lo if up else mid
     else:
         # largest j with a(j) <= target
         if a_m > target:
@@ -245,10 +242,9 @@ def _u_of_aw(u_dry, sa, aw, v0, dlv, i, f, target, uptake):
             return ud + v0 * math.exp(dlv * (nv - 1))
         while hi - lo > 1:
             mid = (lo + hi) // 2
-            if (1.0 - f) * aw[i, mid] + f * aw[i1, mid] <= target:
-                lo = mid
-            else:
-                hi = mid
+            dn = (1.0 - f) * aw[i, mid] + f * aw[i1, mid] <= target
+            lo = mid if dn else lo
+            hi = hi if dn else mid
     al = (1.0 - f) * aw[i, lo] + f * aw[i1, lo]
     ah = (1.0 - f) * aw[i, hi] + f * aw[i1, hi]
     t = (target - al) / (ah - al) if ah > al else (1.0 if uptake else 0.0)
