@@ -295,3 +295,49 @@ def test_kernel_gives_the_numbers_of_its_reference(request, tables_name, law):
     # the forcing reached every kind of state (else the comparison would miss a branch)
     seen = set(np.unique(new.phase))
     assert {CRYSTALLINE} < seen and seen & {BRINE, BRINE_WITH_SALT, BRINE_WITH_ICE}
+
+
+def test_run_dataset_mixture_cell_equals_run_series(small_tables):
+    # A mixture goes through run_series and run_dataset as a single salt does (DESIGN decision 1: one path
+    # through the phase model, wetcycle.block.run_cells): a cell of run_dataset equals run_series on that
+    # cell bitwise.  The physics is checked above; here the plumbing, and two outside facts: the brine is
+    # electrically neutral (Na + K = Cl, common practice) and appears near the NaCl-KCl eutonic RH, 72.7 %
+    # (Tang & Munkelwitz 1993, from memory; 0.03: 4 K table spacing and the 1 % ramp step).
+    import xarray as xr
+
+    import wetcycle
+    mix = {"name": "sea salt crust", "mixture": NACL_KCL}
+    t = np.arange(0.0, 48 * 1800.0, 1800.0)
+    T = np.stack([298.0 + 2.0 * np.sin(t / 20000.0), np.full(t.size, 297.0)], axis=1)
+    rh = np.stack([np.linspace(0.60, 0.95, t.size), np.linspace(0.95, 0.60, t.size)], axis=1)
+    forcing = xr.Dataset({"surface_temperature": (("time", "site"), T, {"units": "K"}),
+                          "relative_humidity": (("time", "site"), rh, {"units": "1"})},
+                         coords={"time": ("time", t, {"units": "s"}), "site": ["a", "b"]})
+    ds = wetcycle.run_dataset(forcing.chunk({"site": 1}), [mix, "NaCl"], law="equilibrium", series=True).compute()
+    assert list(ds.salt.values) == ["sea salt crust", "NaCl"] and '"KCl": 0.5' in ds.attrs["mixtures"]
+    for j in range(2):
+        one = wetcycle.run_series(mix, t, T[:, j], rh[:, j], law="equilibrium")
+        cell = ds.sel(salt="sea salt crust").isel(site=j)
+        for k in ("phase_state", "liquid_water", "hydrate_water", "brine_water_activity", "liquid_fraction",
+                  "water_exchanged", "liquid_hours", "wet_events", "longest_liquid_spell_hours"):
+            assert np.array_equal(cell[k].values, one[k].values, equal_nan=True), k
+        wet = one.liquid_water.values > 0
+        assert wet.any() and sorted(one.ion.values) == ["Cl", "K", "Na"]
+        im = one.ion_molality
+        assert np.allclose((im.sel(ion="Na") + im.sel(ion="K") - im.sel(ion="Cl")).values[wet], 0, atol=1e-4)
+        assert np.all(np.isnan(im.values[~wet]))
+    first = int(np.argmax(ds.liquid_water.sel(salt="sea salt crust").isel(site=0).values > 0))
+    assert abs(rh[first, 0] - 0.727) < 0.03
+    assert '"KCl": 0.5' in one.attrs["mixtures"] and "equilibrium states only" in one.attrs["mixture_model"]
+
+
+def test_run_series_refuses_a_bad_mixture_in_one_line():
+    import wetcycle
+    t = np.arange(3.0)
+    for salt, msg in (({"name": "x", "mixture": {"NaCl": 0.5, "KCl": 0.4}}, "salt.mixture: mass fractions add up"),
+                      ({"mixture": NACL_KCL}, "salt.name: None is not allowed"),
+                      ({"name": "x", "mixture": NACL_KCL, "loading": 1.0}, "key 'loading' is not allowed"),
+                      (3.0, "salt: 3.0 is not allowed")):
+        with pytest.raises(ConfigError, match=msg) as e:
+            wetcycle.run_series(salt, t, np.full(3, 280.0), np.full(3, 0.5))
+        assert "\n" not in str(e.value)

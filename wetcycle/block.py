@@ -36,7 +36,7 @@ BLOCK_STEPS = 1024
 
 
 def phase_block(model, state, acc, temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt_s,
-                season_deg, ltst_h):
+                season_deg, ltst_h, ion_molality=False):
     """Step ``state`` of ``model`` through one forcing block and add the block to ``acc``.
 
     Parameters
@@ -55,12 +55,19 @@ def phase_block(model, state, acc, temperature_K, relative_humidity, surface_pre
         Season angle of each step for the season bins (Ls on Mars; zeros without a season).
     ltst_h : array [step, cell]
         Local time [h] for the local-time bins (any value when they are not reported).
+    ion_molality : bool
+        A salt mixture (:class:`wetcycle.phase.mixture_model.MixtureModel`) only: the result also
+        carries its brine's ``ion_molality`` [step, cell, ion].
 
     Returns
     -------
     wetcycle.phase.BlockResult, arrays [step, cell].
     """
-    r = model.step(state, temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt_s)
+    if ion_molality:
+        r = model.step(state, temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt_s,
+                       ion_molality=True)
+    else:
+        r = model.step(state, temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2, dt_s)
     acc.add(r.liquid_fraction, r.phase, r.water_activity, temperature_K, season_deg, ltst_h, r.validity_flag, dt_s,
             r.liquid_water)
     return r
@@ -96,7 +103,7 @@ def run_cells(model, time_s, temperature_K, relative_humidity, surface_pressure_
 
     Parameters
     ----------
-    model : wetcycle.phase.PhaseModel
+    model : wetcycle.phase.PhaseModel or wetcycle.phase.mixture_model.MixtureModel
     time_s : array [step] [s], strictly increasing
     temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2 : arrays [step, cell]
         Already checked by the caller (SI units; see :func:`phase_block`); broadcast together.
@@ -110,7 +117,8 @@ def run_cells(model, time_s, temperature_K, relative_humidity, surface_pressure_
     Returns
     -------
     (stats, series): dicts of arrays, stats [cell] (names from :func:`statistic_names`), series
-    [step, cell] (names :data:`PHASE_KEYS`; float64, states and flags int8) or None.
+    [step, cell] (names :data:`PHASE_KEYS`; float64, states and flags int8) or None.  For a salt
+    mixture the series also hold ``ion_molality`` [step, cell, ion] (ions: ``model.ions``).
     """
     T, relative_humidity, surface_pressure_Pa, frost_kg_m2 = _c_order(temperature_K, relative_humidity,
                                                                       surface_pressure_Pa, frost_kg_m2)
@@ -152,19 +160,22 @@ def advance_cells(model, state, acc, temperature_K, relative_humidity, surface_p
     :func:`phase_block` in blocks of :data:`BLOCK_STEPS`; the state and the accumulators carry
     everything from block to block, so a series cut into consecutive pieces and advanced piece by
     piece gives bitwise what one call gives.  Returns the per-step series (names
-    :data:`PHASE_KEYS`) or None.
+    :data:`PHASE_KEYS`; for a salt mixture also ``ion_molality`` [step, cell, ion]) or None.
     """
     T, rh, P, frost = _c_order(temperature_K, relative_humidity, surface_pressure_Pa, frost_kg_m2)
     dt = np.asarray(dt_s, dtype=np.float64)
     n_steps, n_cells = T.shape
-    parts = {k: [] for k in PHASE_KEYS} if keep_series else None
+    ions = keep_series and getattr(model, "is_mixture", False)
+    parts = {k: [] for k in PHASE_KEYS + (("ion_molality",) if ions else ())} if keep_series else None
     for i0 in range(0, n_steps, BLOCK_STEPS):
         i1 = min(i0 + BLOCK_STEPS, n_steps)
         r = phase_block(model, state, acc, T[i0:i1], rh[i0:i1], P[i0:i1], frost[i0:i1], dt[i0:i1],
-                        np.zeros(i1 - i0), np.zeros((i1 - i0, n_cells)))
+                        np.zeros(i1 - i0), np.zeros((i1 - i0, n_cells)), ion_molality=ions)
         if keep_series:
             for k, v in phase_outputs(r).items():
                 parts[k].append(v)
+            if ions:
+                parts["ion_molality"].append(r.ion_molality)
     if not keep_series:
         return None
     return {k: v[0] if len(v) == 1 else np.concatenate(v) for k, v in parts.items()}

@@ -30,9 +30,9 @@ from .block import PHASE_KEYS, advance_cells, finish_cells, run_cells, start_cel
 from .errors import ConfigError, InputDataError, shown
 from .forcing.prescribed import RANGES
 from .forcing.vapour import relative_humidity_for_salt
-from .output import add_time_bounds, time_attrs
-from .phase import DEFAULTS, PhaseModel
-from .series import check_thresholds, elapsed_seconds, series_attrs
+from .output import add_time_bounds, mixture_attrs, time_attrs
+from .phase import DEFAULTS
+from .series import check_thresholds, elapsed_seconds, phase_model, salt_entry, series_attrs
 from .stats import HABITABILITY_DEFAULTS
 from .vocabulary import attrs
 
@@ -148,7 +148,7 @@ def _cells(T, rh, P, frost, *, model, time_s, loading, thresholds, keep_series, 
     stats, series = run_cells(model, time_s, T, rh, P, frost, loading, keep_series=keep_series, **thresholds)
     out = [np.asarray(v).reshape(shape) for v in stats.values()]
     if keep_series:
-        out += [np.moveaxis(v, 0, -1).reshape(shape + (n_steps,)) for v in series.values()]
+        out += [np.moveaxis(series[k], 0, -1).reshape(shape + (n_steps,)) for k in PHASE_KEYS]
     return tuple(out)
 
 
@@ -166,7 +166,7 @@ def _stream_block(carry, T, rh, P, frost, dt, *, model, loading, thresholds, kee
         state, acc = carry[0].copy(), copy.deepcopy(carry[1])
     series = advance_cells(model, state, acc, T, rh, P, frost, dt, keep_series=keep_series)
     if series is not None:
-        series = {k: np.moveaxis(v, 0, -1).reshape(shape + (T.shape[0],)) for k, v in series.items()}
+        series = {k: np.moveaxis(series[k], 0, -1).reshape(shape + (T.shape[0],)) for k in PHASE_KEYS}
     return (state, acc), series
 
 
@@ -262,8 +262,11 @@ def run_dataset(forcing, salts, *, law=DEFAULTS["law"], loading_kg_m2=DEFAULTS["
         Units come from each variable's ``units`` attribute: K, degC or celsius; Pa, hPa, mbar or
         kPa; 1, '' or % (see :data:`UNITS`); a variable without a ``units`` attribute is taken in
         SI (K, Pa, fraction, kg m-2; time in s).  Other variables are ignored.
-    salts : str or list of str
-        Salt-system names (``wetcycle.salts.names()``); each is an alternative, stepped alone.
+    salts : str, mapping, or a list of them
+        Salt-system names (``wetcycle.salts.names()``) or salt mixtures
+        (``{"name": ..., "mixture": {salt system: mass fraction}, "extrapolate_binaries": False}``, as
+        for :func:`wetcycle.run_series`); each is an alternative, stepped alone.  A mixture's brine
+        ions are not in this result (``run_series`` gives them for one cell).
     law, loading_kg_m2, surface_pressure_Pa, diffusion_length_m, diffusivity_factor,
     liquid_threshold, hydrate_kinetics, min_water_activity, min_temperature_K :
         as for :func:`wetcycle.run_series` (the phase model's one set of defaults,
@@ -296,17 +299,21 @@ def run_dataset(forcing, salts, *, law=DEFAULTS["law"], loading_kg_m2=DEFAULTS["
     """
     if not isinstance(forcing, xr.Dataset):
         raise InputDataError(f"forcing: expected an xarray.Dataset, got {type(forcing).__name__}")
-    names = [salts] if isinstance(salts, str) else list(salts)
+    given = [salts] if isinstance(salts, (str, dict)) else list(salts)
+    entries = [salt_entry(s, f"salts[{i}]" if not isinstance(salts, (str, dict)) else "salts")
+               for i, s in enumerate(given)]
+    names = [e["name"] for e in entries]
     if not names or len(set(names)) != len(names):
-        raise ConfigError(f"salts: {salts!r} is not allowed; allowed: one salt name or a list of distinct names")
+        raise ConfigError(f"salts: {salts!r} is not allowed; allowed: one salt name or mixture, or a list of them "
+                          "with distinct names")
     check_thresholds(min_water_activity, min_temperature_K)
     if not (np.isfinite(surface_pressure_Pa) and surface_pressure_Pa > 0):
         raise ConfigError(f"surface_pressure_Pa: {shown(surface_pressure_Pa)} is not allowed; allowed: a finite "
                           "number > 0")
     if not (np.isfinite(loading_kg_m2) and loading_kg_m2 > 0):
         raise ConfigError(f"loading_kg_m2: {shown(loading_kg_m2)} is not allowed; allowed: a finite number > 0")
-    models = [PhaseModel(s, law=law, diffusion_length_m=diffusion_length_m, diffusivity_factor=diffusivity_factor,
-                         liquid_threshold=liquid_threshold, hydrate_kinetics=hydrate_kinetics) for s in names]
+    models = [phase_model(e, law=law, diffusion_length_m=diffusion_length_m, diffusivity_factor=diffusivity_factor,
+                          liquid_threshold=liquid_threshold, hydrate_kinetics=hydrate_kinetics) for e in entries]
     if "surface_temperature" not in forcing:
         raise InputDataError("forcing: no 'surface_temperature' variable; required: surface_temperature [K] and "
                              "relative_humidity [1] or vapor_pressure [Pa] on time")
@@ -381,5 +388,5 @@ def run_dataset(forcing, salts, *, law=DEFAULTS["law"], loading_kg_m2=DEFAULTS["
     ds = add_time_bounds(ds, t, 0.0, t_attrs)
     ds.attrs.update(series_attrs(models[0], loading_kg_m2, min_water_activity, min_temperature_K))
     ds.attrs.update(title="wetcycle dataset run: " + ", ".join(m.tables.name for m in models),
-                    salt=", ".join(m.tables.name for m in models))
+                    salt=", ".join(m.tables.name for m in models), **mixture_attrs(entries))
     return ds

@@ -62,10 +62,14 @@ def _ion_molality(phase_series):
 
 
 def mixture_attrs(sc):
-    """Global attributes describing the scenario's salt mixtures ({} without any)."""
+    """Global attributes describing the scenario's salt mixtures ({} without any).
+
+    ``sc``: a scenario, or a list of its ``[[salt]]``-like entries (``run_series``, ``run_dataset``).
+    """
+    entries = sc if isinstance(sc, (list, tuple)) else sc.salts
     mixes = {s["name"]: {"composition_mass_fraction": s["mixture"],
                          "extrapolate_binaries": bool(s.get("extrapolate_binaries", False))}
-             for s in sc.salts if s.get("mixture")}
+             for s in entries if s.get("mixture")}
     if not mixes:
         return {}
     from .phase.mixture_model import NOTES

@@ -547,14 +547,9 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
                 if keep:
                     initial_water[j] = states[j].total_water.copy()
             mix = keep and getattr(m, "is_mixture", False)  # a mixture's brine ions are saved with series
-            if mix:
-                r = m.step(states[j], d["salt_temperature"], d["relative_humidity"], d["surface_pressure"], frost,
-                           blk.dt_s, ion_molality=True)
-                acc.add(r.liquid_fraction, r.phase, r.water_activity, d["salt_temperature"],
-                        season[blk.i0:blk.i1], blk.ltst_h, r.validity_flag, blk.dt_s, r.liquid_water)
-            else:
-                r = phase_block(m, states[j], acc, d["salt_temperature"], d["relative_humidity"],
-                                d["surface_pressure"], frost, blk.dt_s, season[blk.i0:blk.i1], blk.ltst_h)
+            r = phase_block(m, states[j], acc, d["salt_temperature"], d["relative_humidity"],
+                            d["surface_pressure"], frost, blk.dt_s, season[blk.i0:blk.i1], blk.ltst_h,
+                            ion_molality=mix)
             if water_cycle:
                 gain = np.maximum(r.exchanged, 0.0)
                 uptake[j] += _sum_steps(gain)

@@ -9,6 +9,8 @@ True
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+
 import numpy as np
 import xarray as xr
 
@@ -16,7 +18,7 @@ from . import __version__
 from .errors import ConfigError, InputDataError, shown
 from .forcing.prescribed import RANGES
 from .block import run_cells
-from .output import CAUTION, add_time_bounds, time_attrs
+from .output import CAUTION, add_time_bounds, mixture_attrs, time_attrs
 from .phase import DEFAULTS, PhaseModel
 from .phase.model import phase_settings_attrs
 from .stats import HABITABILITY_DEFAULTS
@@ -24,6 +26,49 @@ from .vocabulary import attrs
 
 OPTIONS = ("law", "loading_kg_m2", "surface_pressure_Pa", "frost_kg_m2", "diffusion_length_m",
            "diffusivity_factor", "liquid_threshold", "hydrate_kinetics", "min_water_activity", "min_temperature_K")
+
+
+#: Keys of a salt mixture given to ``run_series`` / ``run_dataset`` (those of a scenario's ``[[salt]]``).
+MIXTURE_KEYS = ("name", "mixture", "extrapolate_binaries")
+
+
+def salt_entry(salt, field="salt"):
+    """A salt argument as a ``[[salt]]``-like entry: ``{"name": ...}`` or a mixture's entry.
+
+    ``salt`` is a salt-system name (``wetcycle.salts.names()``) or a mixture, a mapping with
+    ``name`` (its own name), ``mixture`` ({salt system: mass fraction of the anhydrous salts}, adding
+    up to 1) and optionally ``extrapolate_binaries`` (bool), as in a scenario (README, "Salt
+    mixtures in a scenario").  Anything else is a one-line :class:`~wetcycle.errors.ConfigError`.
+    """
+    if isinstance(salt, str):
+        return {"name": salt}
+    if not isinstance(salt, Mapping):
+        raise ConfigError(f"{field}: {shown(salt)} is not allowed; allowed: a salt-system name or a mixture "
+                          "{'name': ..., 'mixture': {salt: mass fraction}}")
+    unknown = [k for k in salt if k not in MIXTURE_KEYS]
+    if unknown:
+        raise ConfigError(f"{field}: key {unknown[0]!r} is not allowed; allowed: {', '.join(MIXTURE_KEYS)}")
+    name = salt.get("name")
+    if not isinstance(name, str) or not name.strip():
+        raise ConfigError(f"{field}.name: {shown(name)} is not allowed; allowed: the mixture's own name (text)")
+    if "mixture" not in salt:
+        raise ConfigError(f"{field}.mixture: missing; allowed: {{salt system: mass fraction, ...}} adding up to 1")
+    from .brines.mixture import parse_mixture
+    comp = parse_mixture(salt["mixture"], f"{field}.mixture")[0]
+    extra = salt.get("extrapolate_binaries", False)
+    if not isinstance(extra, bool):
+        raise ConfigError(f"{field}.extrapolate_binaries: {shown(extra)} is not allowed; allowed: True or False")
+    return {"name": name, "mixture": comp, "extrapolate_binaries": extra}
+
+
+def phase_model(entry, **settings):
+    """The phase model of a :func:`salt_entry`: a :class:`~wetcycle.phase.PhaseModel`, or for a mixture a
+    :class:`~wetcycle.phase.mixture_model.MixtureModel` (its tables built once per process)."""
+    if entry.get("mixture"):
+        from .phase.mixture_model import MixtureModel
+        return MixtureModel(entry["name"], entry["mixture"], extrapolate_binaries=entry["extrapolate_binaries"],
+                            **settings)
+    return PhaseModel(entry["name"], **settings)
 
 
 def elapsed_seconds(times, field="time"):
@@ -85,8 +130,12 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law=DEFAULTS["
 
     Parameters
     ----------
-    salt : str
-        Salt-system name (``wetcycle.salts.names()``).
+    salt : str or mapping
+        Salt-system name (``wetcycle.salts.names()``), or a salt mixture
+        ``{"name": ..., "mixture": {salt system: mass fraction}, "extrapolate_binaries": False}``
+        (:func:`salt_entry`; README, "Salt mixtures in a scenario"): its equilibrium tables are
+        built once per process (tens of seconds), and the result adds ``ion_molality``
+        (time, ion) [mol kg-1] of its brine (NaN without brine).
     time_s : array, strictly increasing
         Seconds [s] since any origin, or dates (``numpy.datetime64``, pandas time stamps or
         cftime dates): dates give the result a CF time coordinate from the first date.
@@ -148,20 +197,27 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law=DEFAULTS["
                              "(a fraction, not %)")
     P = _non_negative("surface_pressure_Pa", surface_pressure_Pa, t.shape, strict=True)
     frost = _non_negative("frost_kg_m2", frost_kg_m2, t.shape)
-    model = PhaseModel(salt, law=law, diffusion_length_m=diffusion_length_m, diffusivity_factor=diffusivity_factor,
-                       liquid_threshold=liquid_threshold, hydrate_kinetics=hydrate_kinetics)
+    entry = salt_entry(salt)
+    model = phase_model(entry, law=law, diffusion_length_m=diffusion_length_m, diffusivity_factor=diffusivity_factor,
+                        liquid_threshold=liquid_threshold, hydrate_kinetics=hydrate_kinetics)
     check_thresholds(min_water_activity, min_temperature_K)
     stats, series = run_cells(model, t, T[:, None], rh[:, None], P[:, None], frost[:, None], loading_kg_m2,
                               min_water_activity=min_water_activity, min_temperature_K=min_temperature_K)
+    ions = series.pop("ion_molality", None)
     data = {k: ("time", v[:, 0], attrs(k)) for k, v in series.items()}
+    coords = {}
+    if ions is not None:
+        data["ion_molality"] = (("time", "ion"), ions[:, 0, :], attrs("ion_molality"))
+        coords["ion"] = ("ion", np.array(model.ions, dtype=object), attrs("ion"))
     data.update(salt_temperature=("time", T, attrs("salt_temperature")),
                 relative_humidity=("time", rh, attrs("relative_humidity")),
                 surface_pressure=("time", np.array(P), attrs("surface_pressure")))
     data.update({k: ((), v[0], attrs(k)) for k, v in stats.items()})
     t_attrs = time_attrs({"start_utc": start} if start else {})
-    ds = xr.Dataset(data, coords={"time": ("time", t, t_attrs)})
+    ds = xr.Dataset(data, coords={"time": ("time", t, t_attrs), **coords})
     ds = add_time_bounds(ds, t, 0.0, t_attrs)
     ds.attrs.update(series_attrs(model, loading_kg_m2, min_water_activity, min_temperature_K))
+    ds.attrs.update(mixture_attrs([entry]))
     return ds
 
 
