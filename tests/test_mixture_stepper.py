@@ -348,3 +348,46 @@ def test_run_series_refuses_a_bad_mixture_in_one_line():
         with pytest.raises(ConfigError, match=msg) as e:
             wetcycle.run_series(salt, t, np.full(3, 280.0), np.full(3, 0.5))
         assert "\n" not in str(e.value)
+
+
+def test_mixture_given_as_ions_equals_it_given_as_salts(nacl_kcl):
+    # The same salts given as ions (moles; only ratios matter) give the same tables: 0.5 kg NaCl + 0.5 kg KCl
+    # is 0.5/M_NaCl mol Na, 0.5/M_KCl mol K and their sum of Cl (molar masses of the ions,
+    # wetcycle.brines.chemistry.IONS: IUPAC atomic weights, from memory).  Scaled by 1000 (mmol): ratios only.
+    from wetcycle.brines import chemistry as ch
+    m_nacl = ch.IONS["Na"][1] + ch.IONS["Cl"][1]
+    m_kcl = ch.IONS["K"][1] + ch.IONS["Cl"][1]
+    ions = {"Na": 500 / m_nacl, "K": 500 / m_kcl, "Cl": 500 / m_nacl + 500 / m_kcl}
+    comp, b = mx.parse_ions(ions)
+    _, b_salts = mx.parse_mixture(NACL_KCL)
+    for ion in b_salts:  # mol per kg of anhydrous salt; 1e-9: the stored mole fractions have 12 digits
+        assert b[ion] == pytest.approx(b_salts[ion], rel=1e-9)
+    tb = mx.mixture_tables({"ions": ions}, name="NaCl-KCl ions", T_range=(294.0, 302.0), dT=2.0)
+    assert tb.composition == comp and sorted(tb.ions) == sorted(nacl_kcl.ions)
+    order = [list(tb.ions).index(i) for i in nacl_kcl.ions]
+    # the equilibrium solver converges to ~1e-10 in ln a_w; the compositions agree to 1e-12
+    assert np.allclose(tb.aw, nacl_kcl.aw, rtol=0, atol=1e-8)
+    assert np.allclose(tb.u_dry, nacl_kcl.u_dry, rtol=1e-6, atol=0)
+    assert np.allclose(tb.mol[:, :, order], nacl_kcl.mol, rtol=1e-6, atol=1e-9)
+
+
+def test_ions_with_a_charge_imbalance_over_one_percent_are_refused_in_one_line():
+    # the brine functions' rule (issue 13: "a charge imbalance over 1 % is refused in one line");
+    # electroneutrality of a salt is common practice
+    with pytest.raises(ConfigError, match=r"ions: charge imbalance -4.88 % .* exceeds 1 %") as e:
+        mx.parse_ions({"Na": 1.0, "Cl": 1.05})
+    assert "\n" not in str(e.value)
+    comp, b = mx.parse_ions({"Na": 1.0, "Cl": 1.005})  # 0.5 %: accepted, made neutral
+    assert comp == {"ions": {"Cl": 0.5, "Na": 0.5}} and b["Na"] == b["Cl"]
+    with pytest.raises(ConfigError, match=r"ion 'Na\+' is not known; allowed: Na, K"):
+        mx.parse_ions({"Na+": 1.0, "Cl": 1.0})
+    doc = scenario_doc(Path("/tmp"), [{"name": "leachate", "ions": {"Mg": 1.0, "ClO4": 1.0}}])
+    with pytest.raises(ConfigError, match=r"salt\[1\].ions: charge imbalance \+66.67 %"):
+        scenario_from_dict(doc)
+    doc = scenario_doc(Path("/tmp"), [{"name": "leachate", "ions": {"Mg": 1.0, "ClO4": 2.0}}])
+    sc = scenario_from_dict(doc)
+    assert sc.salts[0]["mixture"] == {"ions": {"ClO4": pytest.approx(2 / 3, abs=1e-12),
+                                               "Mg": pytest.approx(1 / 3, abs=1e-12)}}
+    doc["salt"][0]["mixture"] = {"NaCl": 1.0}
+    with pytest.raises(ConfigError, match=r"salt\[1\].ions: give a mixture as salts \(mixture\) or as ions"):
+        scenario_from_dict(doc)

@@ -134,6 +134,8 @@ SCHEMA = {
         "loading": (NUM, PHASE_DEFAULTS["loading_kg_m2"], 1e-6, 100.0, "kg m-2 of anhydrous salt"),
         "mixture": (dict, None, None, None, "a salt mixture: salt system = mass fraction of the anhydrous salts "
                     "(adding up to 1)"),
+        "ions": (dict, None, None, None, "a salt mixture given as its ions instead: ion = moles in any one unit "
+                 "(ratios matter; charge-balanced within 1 %); loading is the salts' mass"),
         "extrapolate_binaries": (bool, False, None, None, "mixture: use its binaries below their validity ranges "
                                  "(flagged)"),
     },
@@ -379,6 +381,15 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
     from .salts import load as load_salt
     names = []
     for i, s in enumerate(lists["salt"]):
+        if s["ions"] is not None:
+            if s["mixture"] is not None:
+                raise ConfigError(f"{source}: salt[{i + 1}].ions: give a mixture as salts (mixture) or as ions "
+                                  "(ions), not both")
+            from .brines.mixture import parse_ions
+            try:
+                s["mixture"] = parse_ions(s["ions"], f"salt[{i + 1}].ions")[0]
+            except WetcycleError as exc:
+                raise ConfigError(f"{source}: {exc}") from None
         if s["mixture"] is not None:
             from .brines.mixture import parse_mixture
             try:

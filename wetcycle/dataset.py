@@ -264,8 +264,8 @@ def run_dataset(forcing, salts, *, law=DEFAULTS["law"], loading_kg_m2=DEFAULTS["
         SI (K, Pa, fraction, kg m-2; time in s).  Other variables are ignored.
     salts : str, mapping, or a list of them
         Salt-system names (``wetcycle.salts.names()``) or salt mixtures
-        (``{"name": ..., "mixture": {salt system: mass fraction}, "extrapolate_binaries": False}``, as
-        for :func:`wetcycle.run_series`); each is an alternative, stepped alone.  A mixture's brine
+        (``{"name": ..., "mixture": {salt system: mass fraction}, "extrapolate_binaries": False}``, or
+        ``"ions": {ion: moles}`` in place of ``mixture``, as for :func:`wetcycle.run_series`); each is an alternative, stepped alone.  A mixture's brine
         ions are not in this result (``run_series`` gives them for one cell).
     law, loading_kg_m2, surface_pressure_Pa, diffusion_length_m, diffusivity_factor,
     liquid_threshold, hydrate_kinetics, min_water_activity, min_temperature_K :

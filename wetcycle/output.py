@@ -67,7 +67,8 @@ def mixture_attrs(sc):
     ``sc``: a scenario, or a list of its ``[[salt]]``-like entries (``run_series``, ``run_dataset``).
     """
     entries = sc if isinstance(sc, (list, tuple)) else sc.salts
-    mixes = {s["name"]: {"composition_mass_fraction": s["mixture"],
+    mixes = {s["name"]: {("composition_ion_mole_fraction" if "ions" in s["mixture"] else "composition_mass_fraction"):
+                         s["mixture"].get("ions", s["mixture"]),
                          "extrapolate_binaries": bool(s.get("extrapolate_binaries", False))}
              for s in entries if s.get("mixture")}
     if not mixes:

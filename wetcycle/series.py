@@ -29,7 +29,7 @@ OPTIONS = ("law", "loading_kg_m2", "surface_pressure_Pa", "frost_kg_m2", "diffus
 
 
 #: Keys of a salt mixture given to ``run_series`` / ``run_dataset`` (those of a scenario's ``[[salt]]``).
-MIXTURE_KEYS = ("name", "mixture", "extrapolate_binaries")
+MIXTURE_KEYS = ("name", "mixture", "ions", "extrapolate_binaries")
 
 
 def salt_entry(salt, field="salt"):
@@ -37,8 +37,9 @@ def salt_entry(salt, field="salt"):
 
     ``salt`` is a salt-system name (``wetcycle.salts.names()``) or a mixture, a mapping with
     ``name`` (its own name), ``mixture`` ({salt system: mass fraction of the anhydrous salts}, adding
-    up to 1) and optionally ``extrapolate_binaries`` (bool), as in a scenario (README, "Salt
-    mixtures in a scenario").  Anything else is a one-line :class:`~wetcycle.errors.ConfigError`.
+    up to 1) or ``ions`` ({ion: moles in any one unit}, charge-balanced within 1 %,
+    :func:`wetcycle.brines.mixture.parse_ions`), and optionally ``extrapolate_binaries`` (bool), as
+    in a scenario (README, "Salt mixtures in a scenario").  Anything else is a one-line :class:`~wetcycle.errors.ConfigError`.
     """
     if isinstance(salt, str):
         return {"name": salt}
@@ -51,10 +52,12 @@ def salt_entry(salt, field="salt"):
     name = salt.get("name")
     if not isinstance(name, str) or not name.strip():
         raise ConfigError(f"{field}.name: {shown(name)} is not allowed; allowed: the mixture's own name (text)")
-    if "mixture" not in salt:
-        raise ConfigError(f"{field}.mixture: missing; allowed: {{salt system: mass fraction, ...}} adding up to 1")
-    from .brines.mixture import parse_mixture
-    comp = parse_mixture(salt["mixture"], f"{field}.mixture")[0]
+    if ("mixture" in salt) == ("ions" in salt):
+        raise ConfigError(f"{field}: give 'mixture' ({{salt system: mass fraction}}, adding up to 1) or 'ions' "
+                          "({ion: moles}), one of the two")
+    from .brines.mixture import parse_ions, parse_mixture
+    comp = (parse_mixture(salt["mixture"], f"{field}.mixture") if "mixture" in salt else
+            parse_ions(salt["ions"], f"{field}.ions"))[0]
     extra = salt.get("extrapolate_binaries", False)
     if not isinstance(extra, bool):
         raise ConfigError(f"{field}.extrapolate_binaries: {shown(extra)} is not allowed; allowed: True or False")
@@ -133,7 +136,7 @@ def run_series(salt, time_s, temperature_K, relative_humidity, *, law=DEFAULTS["
     salt : str or mapping
         Salt-system name (``wetcycle.salts.names()``), or a salt mixture
         ``{"name": ..., "mixture": {salt system: mass fraction}, "extrapolate_binaries": False}``
-        (:func:`salt_entry`; README, "Salt mixtures in a scenario"): its equilibrium tables are
+        (or ``"ions": {ion: moles}`` in place of ``mixture``; :func:`salt_entry`; README, "Salt mixtures in a scenario"): its equilibrium tables are
         built once per process (tens of seconds), and the result adds ``ion_molality``
         (time, ion) [mol kg-1] of its brine (NaN without brine).
     time_s : array, strictly increasing

@@ -63,12 +63,59 @@ def _salt_systems():
     return out
 
 
+#: Largest charge imbalance of a mixture given as ions: |sum z n| / (half the sum of |z| n), the rule of
+#: the brine functions (:data:`wetcycle.brines.paths.MAX_IMBALANCE`).
+MAX_IMBALANCE = 0.01
+
+
+def parse_ions(ions, field_name="ions"):
+    """Validate a mixture given as its ions; return ({"ions": {ion: mole fraction}}, {ion: mol per kg salt}).
+
+    ``ions``: ``{ion: amount}``, ion names of :data:`wetcycle.brines.chemistry.IONS` without charge
+    (Na, K, Mg, Ca, Cl, SO4, ClO4), amounts in moles in any one unit (only their ratios matter: mmol
+    per kg of soil from a leachate, mol per m2...); the mixture's loading is the mass of the
+    anhydrous salts these ions make, sum n_i M_i.  A charge imbalance above 1 % is refused in one
+    line (as :func:`wetcycle.brines.freeze` refuses it); a smaller one is removed by scaling the
+    cations and the anions to their mean charge.  The returned mole fractions (of that neutral
+    set, rounded to 12 digits) are the mixture's stored composition.
+    """
+    if not isinstance(ions, dict) or not ions:
+        raise ConfigError(f"{field_name}: expected a table of ion = moles, got {shown(ions)}")
+    vals = {}
+    for k, v in ions.items():
+        if k not in ch.IONS:
+            raise ConfigError(f"{field_name}: ion {k!r} is not known; allowed: {', '.join(ch.IONS)} (names without "
+                              "charge)")
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0:
+            raise ConfigError(f"{field_name}.{k}: {shown(v)} is not allowed; allowed: an amount >= 0 [mol, any unit]")
+        if v > 0:
+            vals[k] = float(v)
+    qp = sum(n * ch.IONS[i][0] for i, n in vals.items() if ch.IONS[i][0] > 0)
+    qn = sum(-n * ch.IONS[i][0] for i, n in vals.items() if ch.IONS[i][0] < 0)
+    if not (qp > 0 and qn > 0):
+        raise ConfigError(f"{field_name}: needs at least one cation and one anion with an amount > 0, got "
+                          f"{sorted(vals)}")
+    imbalance = (qp - qn) / (0.5 * (qp + qn))
+    if abs(imbalance) > MAX_IMBALANCE:
+        raise ConfigError(f"{field_name}: charge imbalance {100 * imbalance:+.2f} % (cations {qp:.6g}, anions "
+                          f"{qn:.6g} equivalents) exceeds 1 %; allowed: a charge-balanced composition")
+    q = 0.5 * (qp + qn)
+    vals = {i: n * (q / qp if ch.IONS[i][0] > 0 else q / qn) for i, n in vals.items()}
+    total = sum(vals.values())
+    frac = {i: round(n / total, 12) for i, n in sorted(vals.items())}
+    mass = sum(x * ch.IONS[i][1] for i, x in frac.items())  # kg of anhydrous salt per mol of ions
+    return {"ions": frac}, {i: x / mass for i, x in frac.items()}
+
+
 def parse_mixture(mixture, field_name="mixture"):
     """Validate ``{salt system: mass fraction}``; return ({canonical name: fraction}, {ion: mol per kg salt}).
 
     One-line :class:`~wetcycle.errors.ConfigError` for an unknown salt, a fraction outside (0, 1],
-    or fractions not adding up to 1 (within 0.001).
+    or fractions not adding up to 1 (within 0.001).  A mixture given as its ions, ``{"ions": {ion:
+    moles}}``, goes to :func:`parse_ions` (with ``ions`` in the field name).
     """
+    if isinstance(mixture, dict) and list(mixture) == ["ions"]:
+        return parse_ions(mixture["ions"], field_name if field_name.endswith("ions") else f"{field_name}.ions")
     systems = _salt_systems()
     if not isinstance(mixture, dict) or not mixture:
         raise ConfigError(f"{field_name}: expected a table of salt = mass fraction, got {shown(mixture)}")
