@@ -67,10 +67,11 @@ def data():
     for p in doc["pair"]:
         pairs[tuple(p["ions"])] = dict(beta=[float(v) for v in p["beta"]], alpha=[float(v) for v in p["alpha"]],
                                        m_max=float(p["m_max"]), source=p.get("source", HMW))
-    null = {tuple(p) for p in doc.get("null_pairs", [])}
-    theta = {tuple(e["ions"]): float(e["value"]) for e in doc.get("theta", [])}
-    psi = {tuple(e["ions"]): float(e["value"]) for e in doc.get("psi", [])}
-    lam = {tuple(e["ions"]): float(e["value"]) for e in doc.get("lambda", [])}
+    mix = doc["mixing"]
+    null = {tuple(p) for p in mix["null_pairs"]}
+    theta = {tuple(e["ions"]): float(e["value"]) for e in mix["theta"]}
+    psi = {tuple(e["ions"]): float(e["value"]) for e in mix["psi"]}
+    lam = {tuple(e["ions"]): float(e["value"]) for e in mix["lambda"]}
     reactions = []
     for r in doc["reaction"]:
         reactions.append(dict(name=r["name"], stoich={k: float(v) for k, v in r["stoich"].items()},
