@@ -240,3 +240,43 @@ def test_cli_open_system_reports_ph(tmp_path, capsys):
     ds = xr.open_dataset(tmp_path / "s_evaporate.nc")
     assert ds.attrs["carbonate_system"] == "open" and "pH" in ds
     ds.close()
+
+
+def test_dic_input_is_the_same_water_as_its_species():
+    # DIC with the alkalinity closing the charge is an exact restatement (common practice: alkalinity =
+    # charge excess of the strong cations); both inputs must give one equilibrium
+    vals, _ = paths.check_composition({"Na": 0.01, "Cl": 0.007, "DIC": 0.004})
+    assert vals["HCO3"] == pytest.approx(0.003) and vals["CO2"] == pytest.approx(0.001) and "CO3" not in vals
+    a = evaporate({"Na": 0.01, "Cl": 0.007, "DIC": 0.004}, temperature_K=T25, concentration_factor_end=1.0)
+    b = evaporate({"Na": 0.01, "Cl": 0.007, "HCO3": 0.003, "CO2": 0.001}, temperature_K=T25,
+                  concentration_factor_end=1.0)
+    assert float(a.pH[0]) == pytest.approx(float(b.pH[0]), abs=1e-9)
+    # the textbook bicarbonate buffer: pH ≈ pK1 + log10(HCO3/CO2) = 6.35 + 0.48 (Henderson-Hasselbalch;
+    # 0.1 for the activity coefficients at I = 0.01)
+    assert float(a.pH[0]) == pytest.approx(6.35 + math.log10(3.0), abs=0.1)
+
+
+@pytest.mark.parametrize("comp, needle", [
+    ({"Na": 0.01, "Cl": 0.007, "DIC": 0.001}, "between 0 and 2 DIC"),
+    ({"Na": 0.01, "Cl": 0.012, "DIC": 0.004}, "between 0 and 2 DIC"),
+    ({"Na": 0.01, "Cl": 0.007, "DIC": 0.004, "HCO3": 0.003}, "either DIC"),
+])
+def test_bad_dic(comp, needle):
+    with pytest.raises(ConfigError, match=needle):
+        paths.check_composition(comp)
+
+
+def test_seawater_ph_and_calcite_supersaturation():
+    # surface seawater at 25 °C (major ions as in the seawater freezing tests; DIC 2.05 mM, carbonate
+    # alkalinity 2.30 meq/kg): pH ≈ 8.2 on the free-proton scale (8.1 on the total scale) and calcite
+    # supersaturated about 5-6 fold (common practice, e.g. Zeebe & Wolf-Gladrow 2001, CO2 in Seawater;
+    # from memory).  Calcite is excluded: the ocean holds it metastably.  Tolerances: 0.2 pH for the
+    # scale and the borate alkalinity the model lacks; a factor 1.5 on the saturation state.
+    sw = {"Na": 0.486, "K": 0.0106, "Mg": 0.0547, "Ca": 0.0107, "Cl": 0.566, "SO4": 0.0293,
+          "HCO3": 0.00180, "CO3": 0.00025}
+    r, m, chem = state(sw, exclude=("calcite",))
+    assert r.ph == pytest.approx(8.2, abs=0.2)
+    ln_iap = sum(math.log(m[i]) + r.ln_gamma[chem.index(i)] for i in ("Ca", "CO3"))
+    omega = math.exp(ln_iap - chem.solid("calcite").ln_k(T25))
+    assert 5.5 / 1.5 <= omega <= 5.5 * 1.5
+    assert m["MgCO3(aq)"] > m["CO3"]   # most carbonate ion is paired with Mg in seawater (common practice)

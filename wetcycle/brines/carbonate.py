@@ -2,8 +2,9 @@
 
 Method
 ------
-Species H+, OH-, HCO3-, CO3 2- and CO2(aq) join the ions of stages 1-2 whenever a composition
-holds inorganic carbon or a CO2 pressure is fixed.  Their Pitzer parameters are those of
+Species H+, OH-, HCO3-, CO3 2- and CO2(aq) (and the neutral ion pairs CaCO3(aq), MgCO3(aq) when
+Ca or Mg is present, as in HMW 1984) join the ions of stages 1-2 whenever a composition holds
+inorganic carbon or a CO2 pressure is fixed.  Their Pitzer parameters are those of
 Harvie, Møller & Weare (1984), Geochim. Cosmochim. Acta 48, 723 (25 °C, recalled: flagged
 "from memory", held constant in T), with the neutral CO2(aq) entering through lambda terms
 (HMW 1984 eq. A8-A10 form).  The homogeneous equilibria (water dissociation; CO2(aq) + H2O =
@@ -39,7 +40,9 @@ PATH = Path(__file__).parent / "data" / "carbonate.toml"
 CARBON_CATIONS = ("H",)
 CARBON_ANIONS = ("OH", "HCO3", "CO3")
 NEUTRALS = ("CO2",)
-SPECIES = CARBON_CATIONS + CARBON_ANIONS + NEUTRALS
+#: neutral ion pairs, present when their cation is
+ION_PAIRS = {"Ca": "CaCO3(aq)", "Mg": "MgCO3(aq)"}
+SPECIES = CARBON_CATIONS + CARBON_ANIONS + NEUTRALS + tuple(ION_PAIRS.values())
 #: Composition keys that switch the carbonate system on (H and OH are set by the model).
 INPUT_SPECIES = ("HCO3", "CO3", "CO2")
 T_VALID = (273.15, 323.15)
@@ -110,7 +113,7 @@ def reaction_columns(chem, T, co2_pressure_Pa=None):
     h[f] water; the extent has no sign constraint.
     """
     d = data()
-    rows = list(d["reactions"])
+    rows = [r for r in d["reactions"] if all(sp in chem.ions for sp in r["stoich"])]
     lnk = [LN10 * log10k_pb(r["coef"], T) for r in rows]
     if co2_pressure_Pa is not None:
         rows.append(d["gas"])
@@ -162,6 +165,12 @@ def seed(chem, b, W):
         b[iCO2] += e
         b[iC] += e
         W += e
+    for cat, pair in ION_PAIRS.items():
+        if pair in chem.ions and b[chem.index(pair)] <= 0.0:
+            e = 1e-3 * min(b[chem.index(cat)], b[iC])
+            b[chem.index(cat)] -= e
+            b[iC] -= e
+            b[chem.index(pair)] += e
     return b, W
 
 
@@ -174,16 +183,16 @@ def ph(chem, molality, ln_gamma):
 
 
 def alkalinity(chem, molality):
-    """Carbonate alkalinity [eq kg-1] = m_HCO3 + 2 m_CO3 + m_OH - m_H (no other weak acids in the model)."""
+    """Carbonate alkalinity [eq kg-1] = m_HCO3 + 2 (m_CO3 + m_CaCO3(aq) + m_MgCO3(aq)) + m_OH - m_H."""
     if "H" not in chem.ions:
         return math.nan
     m = dict(zip(chem.ions, molality))
-    return m["HCO3"] + 2 * m["CO3"] + m["OH"] - m["H"]
+    return m["HCO3"] + 2 * (m["CO3"] + sum(m.get(p, 0.0) for p in ION_PAIRS.values())) + m["OH"] - m["H"]
 
 
 def dic(chem, molality):
-    """Dissolved inorganic carbon [mol kg-1] = m_CO2 + m_HCO3 + m_CO3."""
+    """Dissolved inorganic carbon [mol kg-1] = m_CO2 + m_HCO3 + m_CO3 + the neutral ion pairs."""
     if "H" not in chem.ions:
         return math.nan
     m = dict(zip(chem.ions, molality))
-    return m["CO2"] + m["HCO3"] + m["CO3"]
+    return m["CO2"] + m["HCO3"] + m["CO3"] + sum(m.get(p, 0.0) for p in ION_PAIRS.values())

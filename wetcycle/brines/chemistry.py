@@ -343,7 +343,7 @@ class Chemistry:
 
 def _order(ions):
     """(cations, anions, neutrals) in the model's fixed order; any carbonate species brings all five."""
-    ions = [str(i) for i in ions]
+    ions = [str(i) for i in ions if str(i) not in co.ION_PAIRS.values()]
     for i in ions:
         if i not in IONS and i not in co.SPECIES:
             raise UnknownNameError(f"ion: {i!r} is not known; known ions: {', '.join(ALL_SPECIES)}")
@@ -353,7 +353,7 @@ def _order(ions):
     if any(i in co.SPECIES for i in ions):
         cats += list(co.CARBON_CATIONS)
         ans += list(co.CARBON_ANIONS)
-        neu = list(co.NEUTRALS)
+        neu = list(co.NEUTRALS) + [p for c, p in co.ION_PAIRS.items() if c in cats]
     return tuple(cats), tuple(ans), tuple(neu)
 
 

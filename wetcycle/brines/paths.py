@@ -49,7 +49,7 @@ MDRH_PAIR_LIMIT = 1.25
 
 
 def _ion_list():
-    return ", ".join(tuple(ch.IONS) + co.INPUT_SPECIES)
+    return ", ".join(tuple(ch.IONS) + co.INPUT_SPECIES + ("DIC",))
 
 
 def _charge(ion):
@@ -61,19 +61,24 @@ def check_composition(composition, field="composition"):
 
     Ion names are those of :data:`wetcycle.brines.chemistry.IONS` without charge, plus the
     carbonate system's ``HCO3`` and ``CO3`` (the alkalinity) and ``CO2`` (dissolved CO2, neutral:
-    the inorganic carbon beyond the alkalinity).  Zero entries are dropped.  A charge imbalance above 1 % is refused; a smaller one is removed
-    by scaling cations and anions toward their mean charge (reported by the callers).
+    the inorganic carbon beyond the alkalinity).  Instead of those three, ``DIC`` gives the total
+    inorganic carbon and the carbonate alkalinity closes the charge of the other ions (it must lie
+    between 0 and 2 DIC); the returned table then holds the equivalent HCO3, CO3 and CO2.  Zero
+    entries are dropped.  A charge imbalance above 1 % is refused; a smaller one is removed by
+    scaling cations and anions toward their mean charge (reported by the callers).
     """
     if not isinstance(composition, dict) or not composition:
         raise ConfigError(f"{field}: expected a table of ion = mol/kg water, got {shown(composition)}")
     vals = {}
     for k, v in composition.items():
-        if k not in ch.IONS and k not in co.INPUT_SPECIES:
+        if k not in ch.IONS and k not in co.INPUT_SPECIES and k != "DIC":
             raise ConfigError(f"{field}: ion {k!r} is not known; allowed: {_ion_list()} (names without charge)")
         if isinstance(v, bool) or not isinstance(v, (int, float, np.integer, np.floating)) or not math.isfinite(v) or v < 0:
             raise ConfigError(f"{field}.{k}: {shown(v)} is not allowed; allowed: a molality >= 0 [mol/kg water]")
         if v > 0:
             vals[k] = float(v)
+    if "DIC" in vals:
+        vals = _from_dic(vals, field)
     cats = [i for i in vals if _charge(i) > 0]
     ans = [i for i in vals if _charge(i) < 0]
     if not cats or not ans:
@@ -85,6 +90,27 @@ def check_composition(composition, field="composition"):
         raise ConfigError(f"{field}: charge imbalance {100 * imbalance:+.2f} % (cations {qp:.6g}, anions {qn:.6g} "
                           f"eq/kg) exceeds 1 %; allowed: a charge-balanced composition")
     return vals, imbalance
+
+
+def _from_dic(vals, field):
+    """Replace DIC by HCO3, CO3, CO2 with the carbonate alkalinity closing the other ions' charge."""
+    given = [k for k in co.INPUT_SPECIES if k in vals]
+    if given:
+        raise ConfigError(f"{field}.DIC: given with {', '.join(given)}; allowed: either DIC (the alkalinity then "
+                          "closes the charge) or HCO3/CO3/CO2")
+    dic = vals.pop("DIC")
+    alk = sum(v * _charge(k) for k, v in vals.items())
+    if not -1e-12 * dic <= alk <= 2 * dic * (1 + 1e-12):
+        raise ConfigError(f"{field}.DIC: the other ions leave an alkalinity of {alk:.6g} eq/kg for DIC {dic:.6g} mol/kg; "
+                          "allowed: an alkalinity between 0 and 2 DIC (cations in excess of the strong anions)")
+    alk = min(max(alk, 0.0), 2 * dic)
+    co3 = max(alk - dic, 0.0)
+    hco3 = alk - 2 * co3
+    out = dict(vals)
+    for k, v in (("HCO3", hco3), ("CO3", co3), ("CO2", dic - hco3 - co3)):
+        if v > 1e-15 * dic:
+            out[k] = v
+    return out
 
 
 def _neutral(chem, vals):
