@@ -280,3 +280,35 @@ def test_seawater_ph_and_calcite_supersaturation():
     omega = math.exp(ln_iap - chem.solid("calcite").ln_k(T25))
     assert 5.5 / 1.5 <= omega <= 5.5 * 1.5
     assert m["MgCO3(aq)"] > m["CO3"]   # most carbonate ion is paired with Mg in seawater (common practice)
+
+
+@pytest.mark.parametrize("name, pk", [
+    # 0 °C: pK1 6.58 (Harned & Davis 1943, J. Am. Chem. Soc. 65, 2030), pK2 10.63 (Harned & Scholes 1941,
+    # J. Am. Chem. Soc. 63, 1706), pKw 14.94 (Harned & Robinson 1940); from memory
+    ("CO2 hydration and first dissociation", 6.58),
+    ("bicarbonate dissociation", 10.63),
+    ("water dissociation", 14.94),
+])
+def test_pk_at_0C(name, pk):
+    r = next(x for x in co.data()["reactions"] if x["name"] == name)
+    # 0.02: the recalled values to two decimals, and the fits' own scatter
+    assert -co.log10k_pb(r["coef"], 273.15) == pytest.approx(pk, abs=0.02)
+
+
+def test_calcite_solubility_is_retrograde():
+    # calcite is less soluble in warmer water at a fixed CO2 pressure (common practice; Plummer &
+    # Busenberg 1982): dissolved Ca falls from 5 to 45 °C at pCO2 = 10^-3.5 atm
+    ca = [state({"Ca": 0.01, "CO3": 0.01}, T=T, co2=ATM * 10 ** -3.5)[1]["Ca"] for T in (278.15, 298.15, 318.15)]
+    assert ca[0] > ca[1] > ca[2]
+
+
+@settings(max_examples=8, deadline=None)
+@given(alk=st.floats(1e-4, 0.049), extra_co2=st.floats(1e-4, 0.05), p=st.floats(10.0, 1e5))
+def test_open_system_forgets_its_carbon(alk, extra_co2, p):
+    # in an open system the alkalinity is conserved and the CO2 pressure sets the rest: the same water
+    # with more dissolved CO2 at the start reaches the same state (common practice)
+    base = {"Na": 0.05, "Cl": 0.05 - alk, "HCO3": alk}
+    r1, m1, _ = state(base, co2=p)
+    r2, m2, _ = state(dict(base, CO2=extra_co2), co2=p)
+    assert r1.ph == pytest.approx(r2.ph, abs=1e-7)   # solver tolerance on SI (1e-9) scaled to pH
+    assert m1["HCO3"] == pytest.approx(m2["HCO3"], rel=1e-6)
