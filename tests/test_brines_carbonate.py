@@ -312,3 +312,15 @@ def test_open_system_forgets_its_carbon(alk, extra_co2, p):
     r2, m2, _ = state(dict(base, CO2=extra_co2), co2=p)
     assert r1.ph == pytest.approx(r2.ph, abs=1e-7)   # solver tolerance on SI (1e-9) scaled to pH
     assert m1["HCO3"] == pytest.approx(m2["HCO3"], rel=1e-6)
+
+
+def test_mutual_deliquescence_with_carbonate_salts():
+    # a mixture deliquesces below each of its salts (mutual deliquescence; Tang & Munkelwitz 1993 for the
+    # concept), and calcite, nearly insoluble, leaves NaCl's deliquescence RH as it is (0.753, Greenspan
+    # 1977; the model's own NaCl value to 1e-3, since calcite adds ~0.1 mmol/kg of solutes)
+    from wetcycle.brines import mutual_deliquescence_rh as mdrh
+    nat, nacl = mdrh({"natron": 1}, T25), mdrh({"NaCl": 1}, T25)
+    both = mdrh({"natron": 1, "NaCl": 1}, T25, details=True)
+    assert both["rh"] < min(nat, nacl) - 0.01
+    assert set(both["solids"]) == {"NaCl", "Na2CO3·10H2O"}
+    assert mdrh({"calcite": 1, "NaCl": 1}, T25) == pytest.approx(nacl, abs=1e-3)

@@ -581,7 +581,11 @@ def _solid_ions(chem_all, solids):
             stoich = ((ch.ion_name(s.cation), s.nu_cation), (ch.ion_name(s.anion), s.nu_anion))
         else:
             try:
-                stoich = chem_all.solid(name).stoich
+                try:
+                    stoich = chem_all.solid(name).stoich
+                except Exception:
+                    # carbonate solids (calcite, nahcolite, natron, ...) live in the carbonate chemistry
+                    stoich = ch.load(tuple(ch.IONS) + ("HCO3",), "fitted").solid(name).stoich
             except Exception:
                 raise ConfigError(f"solids: {name!r} is not a salt system or solid; allowed: "
                                   f"{', '.join(sorted(x.name for x in ch.binary_pairs().values()))} or a solid "
@@ -594,7 +598,7 @@ def _solid_ions(chem_all, solids):
 
 
 def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapolate_binaries=False, exclude=(),
-                            details=False):
+                            details=False, co2_pressure_Pa=None):
     """RH (fraction, liquid reference) at which a mixture of salts first forms brine at T.
 
     Method: equilibrium is path-independent, so the first brine to form on wetting is the
@@ -609,6 +613,8 @@ def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapola
     temperature_K : float [K]
     exclude : solids to leave out (a metastable eutonic), as in :func:`freeze`
     details : bool; return a dict (rh, solids at the eutonic, flags) instead of the RH
+    co2_pressure_Pa : float [Pa] or None; with carbonate solids, a fixed CO2 pressure (open system);
+        None: closed (the carbon of the solids is kept)
 
     Returns
     -------
@@ -619,18 +625,19 @@ def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapola
     scale = 1.0 / max(tot.values())
     comp = {k: v * scale for k, v in tot.items()}
     vals, _ = check_composition(comp, "solids")
-    chem = ch.load(tuple(vals), mixing)
+    co2 = check_co2_pressure(co2_pressure_Pa)
+    chem = _load_chem(vals, mixing, co2)
     T = float(temperature_K)
     chk = _Checker(chem, extrapolate_binaries)
     ok, fbit, desc = chk.check(T, np.ones(chem.n))
     if not ok:
         raise ValidityError(f"temperature_K: {T:g} K is outside the {desc} (design decision 9; "
                             "extrapolate_binaries=True gives a flagged value)")
-    b = _neutral(chem, vals)
+    b, _ = _initial(chem, vals)
     exclude = tuple(exclude) + ((ch.ICE,) if T <= ch.T_ICE_MAX else ())
     # bracket: a dilute brine (I ~ 0.5 mol/kg) that holds everything, and a vanishing amount of water
     W_hi = float(np.dot(b, chem.z ** 2)) / (2 * 0.5) / MW
-    r_hi = equilibrate(chem, b, W_hi, T, exclude=exclude)
+    r_hi = equilibrate(chem, b, W_hi, T, exclude=exclude, co2_pressure_Pa=co2)
     if not r_hi.liquid:
         raise ValidityError("solids: no liquid forms even in dilute water; cannot locate the deliquescence point")
     # a liquid holding a pair far beyond its binary's m_max is outside the model (the Pitzer polynomial can
@@ -639,7 +646,7 @@ def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapola
     last = r_hi
     for _ in range(80):
         mid = 0.5 * (lo + hi)
-        r = equilibrate(chem, b, math.exp(mid), T, exclude=exclude, start=_start(chem, last))
+        r = equilibrate(chem, b, math.exp(mid), T, exclude=exclude, start=_start(chem, last), co2_pressure_Pa=co2)
         if r.liquid and r.converged and chem.pair_excess(r.molality) <= MDRH_PAIR_LIMIT:
             lo, last = mid, r
         else:
