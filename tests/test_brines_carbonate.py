@@ -324,3 +324,15 @@ def test_mutual_deliquescence_with_carbonate_salts():
     assert both["rh"] < min(nat, nacl) - 0.01
     assert set(both["solids"]) == {"NaCl", "Na2CO3·10H2O"}
     assert mdrh({"calcite": 1, "NaCl": 1}, T25) == pytest.approx(nacl, abs=1e-3)
+
+
+def test_soda_brine_freezes_natron_first():
+    # a Na-carbonate-chloride brine freezing: natron comes out soon after ice, before hydrohalite (the
+    # winter natron of soda lakes; common practice), and the eutectic lies below NaCl-H2O's -21.2 °C
+    # (Oakes, Bodnar & Simonson 1990, read): extra solutes lower it.  Below 0 °C every step is flagged.
+    comp = {"Na": 0.1, "Cl": 0.05, "HCO3": 0.01, "CO3": 0.02}
+    ds = freeze(comp, step_K=0.5, extrapolate_binaries=True, temperature_end_K=240.0)
+    order = [str(s) for s in ds.event_solid.values]
+    assert order.index("Na2CO3·10H2O") < order.index("NaCl·2H2O")
+    assert 240.0 < ds.attrs["eutectic_temperature_K"] < 273.15 - 21.2
+    assert np.all(ds.validity_flag.values[ds.temperature.values < 273.15] & 1)

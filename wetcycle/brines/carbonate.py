@@ -89,6 +89,7 @@ def data():
         solids.append(dict(name=s["name"], mineral=s["mineral"], stoich=tuple((k, float(v)) for k, v in s["ions"].items()),
                            hydration=float(s["hydration"]), coef=tuple(float(v) for v in s["log10K"]),
                            T_min=float(s["T_min"]), T_max=float(s["T_max"]), narrow=bool(s["narrow"]),
+                           keep_below=bool(s.get("keep_below", False)),
                            source=s["source"], flag=s["flag"]))
     return dict(species=species, pairs=pairs, null=null, theta=theta, psi=psi, lam=lam, reactions=reactions,
                 gas=gas, solids=solids)

@@ -110,6 +110,7 @@ class MixSolid:
     source: str
     flag: str
     narrow: bool = False  # carbonate solids with a 25 °C log K only: left out outside T_min-T_max
+    keep_below: bool = False  # narrow, but kept below T_min (a fitted ln K(T), extrapolated in flagged steps)
 
     def ln_k(self, T):
         """ln K [-] at T [K]; ice: ln a_w,ice(T) (NaN above 273.16 K)."""
@@ -477,7 +478,7 @@ def _build(ions, mixing, mix):
             if all(i in present for i, _ in d["stoich"]):
                 solid_list.append(MixSolid(d["name"], d["mineral"], d["stoich"], d["hydration"],
                                            co.pb_to_tform(d["coef"], T_REF), d["T_min"], d["T_max"], "carbonate",
-                                           d["source"], d["flag"], d["narrow"]))
+                                           d["source"], d["flag"], d["narrow"], d["keep_below"]))
     return Chemistry(ions=order, nc=nc, mixing=mixing, pairs=tuple(pairs), solids=tuple(solid_list),
                      z=z, molar_mass=mm, alpha=alpha, beta_coef=beta, theta_c=thc, theta_a=tha,
                      psi_c=psc, psi_a=psa, nn=len(neu), lam=lam)

@@ -169,7 +169,9 @@ def considered_solids(chem, T, exclude=(), include_double_outside=False):
             if T <= 273.16:
                 keep.append(k)
             continue
-        if (s.origin == "double salt" or s.narrow) and not include_double_outside and not (s.T_min <= T <= s.T_max):
+        below_ok = s.keep_below and T < s.T_min
+        if (s.origin == "double salt" or s.narrow) and not include_double_outside and not below_ok \
+                and not (s.T_min <= T <= s.T_max):
             left.append(s.name)
             continue
         keep.append(k)
