@@ -243,6 +243,9 @@ def _brine_settings(args, recipe, kind):
         opts["extrapolate_binaries"] = True
     if args.mixing:
         opts["mixing"] = args.mixing
+    if args.co2_pressure is not None:
+        from .brines.paths import check_co2_pressure
+        opts["co2_pressure_Pa"] = check_co2_pressure(args.co2_pressure, "--co2-pressure")
     return opts
 
 
@@ -278,6 +281,15 @@ def _brine_report(ds, kind):
         else:
             print("the brine keeps a saturated liquid to the end of the path (last brine water activity "
                   f"{a['last_brine_water_activity']:.3f})")
+    if "pH" in ds:
+        import numpy as np
+        ph = ds["pH"].values
+        ok = np.isfinite(ph)
+        if ok.any():
+            system = (f"open, CO2 pressure {a['co2_pressure_Pa']:g} Pa" if a.get("carbonate_system") == "open"
+                      else "closed")
+            print(f"pH (Pitzer scale; carbonate system {system}): {ph[ok][0]:.2f} at the start, "
+                  f"{ph[ok][-1]:.2f} in the last brine")
     print(f"path ended: {a['stopped_by']}")
     if a.get("binaries_extrapolated"):
         print(f"binaries extrapolated below their validity (flagged steps): {a['binaries_extrapolated']}")
@@ -416,6 +428,8 @@ def build_parser():
                        help="continue below binary systems' validity with flagged steps (default: stop there)")
         q.add_argument("--mixing", choices=("fitted", "start", "none"),
                        help="mixing parameters: fitted (default), recalled 25 °C start values, or none (baseline)")
+        q.add_argument("--co2-pressure", type=float, metavar="PA",
+                       help="fixed CO2 pressure [Pa]: open carbonate system (overrides the file; default closed)")
         if kind == "evaporate":
             q.add_argument("--temperature", type=float, metavar="T_K", help="temperature [K] (overrides the file)")
         q.set_defaults(func=cmd_brine)

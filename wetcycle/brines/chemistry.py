@@ -31,6 +31,7 @@ from .. import salts
 from ..errors import InputDataError, UnknownNameError, ValidityError
 from ..salts.pitzer import MW, T_REF
 from ..water import ice_activity_kernel
+from . import carbonate as co
 from . import efunc
 from . import pitzer as mpz
 
@@ -50,6 +51,8 @@ IONS = {
     "SO4": (-2, 0.0960626),
     "ClO4": (-1, 0.0994513),
 }
+#: Stage 1-2 ions and the carbonate species (stage 3; :mod:`wetcycle.brines.carbonate`).
+ALL_SPECIES = dict(IONS, **co.data()["species"])
 CATIONS = ("Na", "K", "Mg", "Ca")
 ANIONS = ("Cl", "SO4", "ClO4")
 ICE = "ice"
@@ -106,6 +109,8 @@ class MixSolid:
     origin: str
     source: str
     flag: str
+    narrow: bool = False  # carbonate solids with a 25 °C log K only: left out outside T_min-T_max
+    keep_below: bool = False  # narrow, but kept below T_min (a fitted ln K(T), extrapolated in flagged steps)
 
     def ln_k(self, T):
         """ln K [-] at T [K]; ice: ln a_w,ice(T) (NaN above 273.16 K)."""
@@ -214,6 +219,19 @@ class Chemistry:
     theta_a: np.ndarray = field(repr=False, compare=False)
     psi_c: np.ndarray = field(repr=False, compare=False)
     psi_a: np.ndarray = field(repr=False, compare=False)
+    #: number of neutral species (CO2(aq)), last in :attr:`ions`; lam[k, i] their lambda with ion i
+    nn: int = 0
+    lam: np.ndarray = field(default=None, repr=False, compare=False)
+
+    @property
+    def carbon(self):
+        """True when the carbonate system (H, OH, HCO3, CO3, CO2) is part of the model."""
+        return self.nn > 0
+
+    @property
+    def neutral_args(self):
+        """(nn, lam) for :func:`wetcycle.brines.pitzer.activity_full`."""
+        return self.nn, self.lam
 
     # ---- structure -------------------------------------------------------------
     @property
@@ -268,7 +286,7 @@ class Chemistry:
             raise ValidityError(f"molality: expected {self.n} values for ions {', '.join(self.ions)}, got shape {m.shape}")
         lng = np.empty(self.n)
         a = self.at(T)
-        lnaw, phi, ionic = mpz.activity_kernel(m, a[0], *a[1:], lng)
+        lnaw, phi, ionic = mpz.activity_full(m, a[0], *a[1:], self.nn, self.lam, lng)
         return lng, lnaw, phi, ionic
 
     def water_activity(self, m, T):
@@ -325,13 +343,19 @@ class Chemistry:
 
 
 def _order(ions):
-    ions = [str(i) for i in ions]
+    """(cations, anions, neutrals) in the model's fixed order; any carbonate species brings all five."""
+    ions = [str(i) for i in ions if str(i) not in co.ION_PAIRS.values()]
     for i in ions:
-        if i not in IONS:
-            raise UnknownNameError(f"ion: {i!r} is not known; known ions: {', '.join(IONS)}")
+        if i not in IONS and i not in co.SPECIES:
+            raise UnknownNameError(f"ion: {i!r} is not known; known ions: {', '.join(ALL_SPECIES)}")
     cats = [i for i in CATIONS if i in ions]
     ans = [i for i in ANIONS if i in ions]
-    return tuple(cats), tuple(ans)
+    neu = []
+    if any(i in co.SPECIES for i in ions):
+        cats += list(co.CARBON_CATIONS)
+        ans += list(co.CARBON_ANIONS)
+        neu = list(co.NEUTRALS) + [p for c, p in co.ION_PAIRS.items() if c in cats]
+    return tuple(cats), tuple(ans), tuple(neu)
 
 
 def load(ions=tuple(IONS), mixing="fitted"):
@@ -358,13 +382,14 @@ def _load(ions, mixing):
 
 def _build(ions, mixing, mix):
     """Assemble a :class:`Chemistry`; ``mix`` is a parsed mixing file (``mixing="custom"``: its ``c`` values)."""
-    cats, ans = _order(tuple(ions))
+    cats, ans, neu = _order(tuple(ions))
     if not cats or not ans:
         raise ValidityError(f"ions: {list(ions)} need at least one cation and one anion")
-    order = cats + ans
+    order = cats + ans + neu
     nc, na = len(cats), len(ans)
-    z = np.array([float(IONS[i][0]) for i in order])
-    mm = np.array([IONS[i][1] for i in order])
+    z = np.array([float(ALL_SPECIES[i][0]) for i in order])
+    mm = np.array([ALL_SPECIES[i][1] for i in order])
+    cd = co.data() if neu else None
     binaries = binary_pairs()
     alpha = np.zeros((nc, na, 2))
     beta = np.zeros((nc, na, 4, 4))
@@ -372,6 +397,19 @@ def _build(ions, mixing, mix):
     for c, ci in enumerate(cats):
         for a, ai in enumerate(ans):
             s = binaries.get((ci, ai))
+            if s is None and cd is not None and (ci in co.SPECIES or ai in co.SPECIES or (ci, ai) in cd["pairs"]
+                                                 or (ci, ai) in cd["null"]):
+                cp = cd["pairs"].get((ci, ai))
+                if cp is None:
+                    alpha[c, a] = (2.0, 0.0)   # no parameters: beta = C = 0 (see carbonate.toml null_pairs)
+                    continue
+                alpha[c, a] = cp["alpha"]
+                beta[c, a, :, 0] = cp["beta"]
+                zc, za = int(ALL_SPECIES[ci][0]), -int(ALL_SPECIES[ai][0])
+                g = math.gcd(zc, za)
+                pairs.append(Pair(ci, ai, f"{ci}-{ai} (HMW 1984, 25 °C)", cp["alpha"][0], cp["alpha"][1],
+                                  beta[c, a].copy(), co.T_VALID[0], co.T_VALID[1], cp["m_max"], za // g, zc // g))
+                continue
             if s is None:
                 raise UnknownNameError(f"ions: no binary system for the pair {ci}-{ai}; known pairs: "
                                        + ", ".join(f"{k[0]}-{k[1]}" for k in sorted(binaries)))
@@ -398,6 +436,26 @@ def _build(ions, mixing, mix):
             elif i in ans and j in ans and k in cats:
                 psa[ans.index(i), ans.index(j), cats.index(k)] = c
                 psa[ans.index(j), ans.index(i), cats.index(k)] = c
+    lam = np.zeros((len(neu), nc + na))
+    if cd is not None and mixing != "none":
+        for (i, j), v in cd["theta"].items():
+            for grp, arr in ((cats, thc), (ans, tha)):
+                if i in grp and j in grp:
+                    arr[grp.index(i), grp.index(j), 0] = v
+                    arr[grp.index(j), grp.index(i), 0] = v
+        for (i, j, k), v in cd["psi"].items():
+            if i in cats and j in cats and k in ans:
+                psc[cats.index(i), cats.index(j), ans.index(k), 0] = v
+                psc[cats.index(j), cats.index(i), ans.index(k), 0] = v
+            elif i in ans and j in ans and k in cats:
+                psa[ans.index(i), ans.index(j), cats.index(k), 0] = v
+                psa[ans.index(j), ans.index(i), cats.index(k), 0] = v
+    if cd is not None:
+        # lambda is a property of the neutral species, not a mixing term: kept in the theta = psi = 0 baseline
+        ionsx = cats + ans
+        for (nme, ion), v in cd["lam"].items():
+            if nme in neu and ion in ionsx:
+                lam[neu.index(nme), ionsx.index(ion)] = v
     # solids: ice, the binaries' solids, double salts whose ions are all present
     solid_list = [MixSolid(ICE, "", (), 1.0, (0.0, 0.0, 0.0, 0.0), 123.0, T_ICE_MAX, ICE,
                            "ln K = ln(p_ice/p_liquid), Murphy & Koop (2005) Q. J. R. Meteorol. Soc. 131, 1539",
@@ -415,9 +473,15 @@ def _build(ions, mixing, mix):
             solid_list.append(MixSolid(d["name"], d["mineral"], d["stoich"], d["hydration"],
                                        tuple(float(v) for v in lnk), d["T_min"], d["T_max"], "double salt",
                                        d["source"], d["flag"]))
+    if cd is not None:
+        for d in cd["solids"]:
+            if all(i in present for i, _ in d["stoich"]):
+                solid_list.append(MixSolid(d["name"], d["mineral"], d["stoich"], d["hydration"],
+                                           co.pb_to_tform(d["coef"], T_REF), d["T_min"], d["T_max"], "carbonate",
+                                           d["source"], d["flag"], d["narrow"], d["keep_below"]))
     return Chemistry(ions=order, nc=nc, mixing=mixing, pairs=tuple(pairs), solids=tuple(solid_list),
                      z=z, molar_mass=mm, alpha=alpha, beta_coef=beta, theta_c=thc, theta_a=tha,
-                     psi_c=psc, psi_a=psa)
+                     psi_c=psc, psi_a=psa, nn=len(neu), lam=lam)
 
 
 def water_molar_mass():

@@ -39,11 +39,12 @@ from numba import njit
 
 from ..errors import ValidityError
 from ..salts.pitzer import MW
-from .pitzer import activity_kernel
+from . import carbonate as co
+from .pitzer import activity_full
 
 
 @njit(cache=True)
-def _state(x, b, W, A, h, lnK, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta, want_h, lng, H):
+def _state(x, b, W, A, h, lnK, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta, nn, lam, want_h, lng, H):
     """(G, SI, feasible) at x; fills lng and, if want_h, the Hessian H (S, S)."""
     n = b.shape[0]
     S = x.shape[0]
@@ -56,7 +57,7 @@ def _state(x, b, W, A, h, lnK, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ,
         if not (nion[i] > 0.0):
             return math.inf, SI, False
     m = nion / (nw * MW)
-    lnaw, phi, ionic = activity_kernel(m, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta, lng)
+    lnaw, phi, ionic = activity_full(m, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta, nn, lam, lng)
     if lnaw != lnaw:
         return math.inf, SI, False
     mu = np.log(m) + lng
@@ -79,10 +80,10 @@ def _state(x, b, W, A, h, lnK, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ,
         for j in range(n):
             dm = 1e-6 * m[j] + 1e-10
             mp[j] = m[j] + dm
-            activity_kernel(mp, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta, lp)
+            activity_full(mp, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta, nn, lam, lp)
             mp[j] = m[j] - dm if m[j] > dm else m[j]
             lo = mp[j]
-            activity_kernel(mp, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta, lm)
+            activity_full(mp, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta, nn, lam, lm)
             mp[j] = m[j]
             for i in range(n):
                 Gam[i, j] = (lp[i] - lm[i]) / (m[j] + dm - lo)
@@ -136,6 +137,8 @@ class Equilibrium:
     iterations: int
     message: str = ""
     not_considered: tuple = field(default=())
+    co2_from_gas: float = 0.0     # mol of CO2 taken up from the gas (open system; negative: degassed)
+    ph: float = math.nan          # -log10(m_H gamma_H), Pitzer scale (NaN without the carbonate system)
 
     def present(self, tiny=0.0):
         """Names of the solids present (moles above ``tiny``)."""
@@ -166,59 +169,100 @@ def considered_solids(chem, T, exclude=(), include_double_outside=False):
             if T <= 273.16:
                 keep.append(k)
             continue
-        if s.origin == "double salt" and not include_double_outside and not (s.T_min <= T <= s.T_max):
+        below_ok = s.keep_below and T < s.T_min
+        if (s.origin == "double salt" or s.narrow) and not include_double_outside and not below_ok \
+                and not (s.T_min <= T <= s.T_max):
             left.append(s.name)
             continue
         keep.append(k)
     return np.array(keep, dtype=np.int64), tuple(left)
 
 
-def _lp_solids(A, h, lnK, b, W):
-    """Solid-only minimum: min lnK.x, A x = b, h.x = W, x >= 0.  None if infeasible."""
+def _lp_solids(A, h, lnK, b, W, bounds=(0, None)):
+    """Solid-only minimum: min lnK.x, A x = b, h.x = W, x >= 0 (reaction extents free).  None if infeasible."""
     from scipy.optimize import linprog
     Aeq = np.vstack([A, h[None, :]])
     beq = np.concatenate([b, [W]])
     scale = np.maximum(np.abs(beq), 1e-300)
-    res = linprog(lnK, A_eq=Aeq / scale[:, None], b_eq=beq / scale, bounds=(0, None), method="highs")
+    res = linprog(lnK, A_eq=Aeq / scale[:, None], b_eq=beq / scale, bounds=bounds, method="highs")
     if res.status != 0:
         return None
-    x = np.maximum(res.x, 0.0)
+    x = res.x.copy()
+    if not isinstance(bounds, list):
+        x = np.maximum(x, 0.0)
+    else:
+        for k, (lo, _) in enumerate(bounds):
+            if lo is not None:
+                x[k] = max(x[k], 0.0)
     return x
 
 
-def equilibrate(chem, b, W, T, *, exclude=(), start=None, tol=1e-9, max_iter=400):
+def equilibrate(chem, b, W, T, *, exclude=(), start=None, tol=1e-9, max_iter=400, co2_pressure_Pa=None):
     """Stable assemblage of ``b`` mol of each ion (order ``chem.ions``) and ``W`` mol of water at T [K].
 
     Parameters
     ----------
     chem : :class:`~wetcycle.brines.chemistry.Chemistry`
-    b : array (n,) [mol], every entry > 0 and charge-neutral
+    b : array (n,) [mol], every entry > 0 and charge-neutral (with the carbonate system, see
+        :func:`wetcycle.brines.carbonate.seed` for giving H, OH, CO2, HCO3, CO3 positive amounts)
     W : float [mol] > 0
     T : float [K]
     exclude : names or minerals of solids to leave out (metastable equilibrium on request)
     start : dict {solid name: mol} to start from (e.g. the previous step of a path), or None
     tol : float; |SI| below which a present solid counts as saturated [-]
+    co2_pressure_Pa : float [Pa] or None; a fixed CO2 pressure (open system: CO2 exchanges with an
+        unlimited gas); None: closed system.  Needs a chemistry with the carbonate system.
 
     Returns
     -------
     :class:`Equilibrium`; ``converged`` False (with ``message``) when the iteration limit is reached.
+
+    With the carbonate system the homogeneous equilibria (and the gas) are extra columns whose
+    extents have no sign constraint; after each accepted step their extents are folded into the
+    liquid's amounts (b, W), so small amounts such as H+ are carried directly, not as differences.
     """
-    b = np.asarray(b, dtype=float)
+    b = np.array(b, dtype=float)
     if b.shape != (chem.n,) or not np.all(b > 0) or not W > 0:
         raise ValidityError(f"composition: every ion amount and the water must be positive, got {b.tolist()}, {W}")
+    if co2_pressure_Pa is not None and not chem.carbon:
+        raise ValidityError("co2_pressure_Pa: needs the carbonate system (a chemistry with HCO3, CO3 or CO2)")
     cols, left = considered_solids(chem, T, exclude)
     A_all, h_all = chem.stoichiometry
     A = np.ascontiguousarray(A_all[:, cols])
     h = np.ascontiguousarray(h_all[cols])
     lnK = np.ascontiguousarray(chem.ln_k(T)[cols])
     names = tuple(chem.solid_names[k] for k in cols)
-    S = len(cols)
+    Ssol = len(cols)
+    gas_col = -1
+    if chem.carbon:
+        Af, hf, lnKf, fnames = co.reaction_columns(chem, T, co2_pressure_Pa)
+        if co2_pressure_Pa is not None:
+            gas_col = Ssol + len(fnames) - 1
+        A = np.ascontiguousarray(np.hstack([A, Af]))
+        h = np.concatenate([h, hf])
+        lnK = np.concatenate([lnK, lnKf])
+    S = A.shape[1]
+    free = list(range(Ssol, S))
     args = chem.at(T)
+    nn, lam = chem.neutral_args
+    if lam is None:
+        lam = np.zeros((0, chem.n))
     lng = np.empty(chem.n)
     H = np.empty((S, S))
+    cur = dict(b=b, W=float(W), gas=0.0)
 
     def state(x, want_h=False):
-        return _state(x, b, W, A, h, lnK, args[0], *args[1:], want_h, lng, H)
+        return _state(x, cur["b"], cur["W"], A, h, lnK, args[0], *args[1:], nn, lam, want_h, lng, H)
+
+    def fold(x):
+        # fold the extents of the unconstrained reactions into the liquid's amounts
+        if free:
+            y = x[Ssol:].copy()
+            cur["b"] = cur["b"] - A[:, Ssol:] @ y
+            cur["W"] = cur["W"] - h[Ssol:] @ y
+            if gas_col >= 0:
+                cur["gas"] += y[gas_col - Ssol]
+            x[Ssol:] = 0.0
 
     x = np.zeros(S)
     if start:
@@ -231,7 +275,7 @@ def equilibrate(chem, b, W, T, *, exclude=(), start=None, tol=1e-9, max_iter=400
             x *= 0.5
         else:
             x[:] = 0.0
-    active = set(np.flatnonzero(x > 0).tolist())
+    active = set(np.flatnonzero(x[:Ssol] > 0).tolist()) | set(free)
     it = 0
     converged = False
     liquid = True
@@ -242,7 +286,7 @@ def equilibrate(chem, b, W, T, *, exclude=(), start=None, tol=1e-9, max_iter=400
         if not ok:
             message = "liquid state became infeasible"
             break
-        out = [k for k in range(S) if k not in active]
+        out = [k for k in range(Ssol) if k not in active]
         inner = max((abs(SI[k]) for k in active), default=0.0)
         best = max(out, key=lambda k: SI[k]) if out else -1
         smax = SI[best] if out else -math.inf
@@ -257,25 +301,36 @@ def equilibrate(chem, b, W, T, *, exclude=(), start=None, tol=1e-9, max_iter=400
         if not P:
             message = "no solid to add yet unconverged"
             break
-        nion = b - A @ x
-        nw = W - h @ x
+        bb, WW = cur["b"], cur["W"]
+        nion = bb - A @ x
+        nw = WW - h @ x
         null_move = False
         while True:
             HP = H[np.ix_(P, P)]
             gP = SI[P]
-            w, V = np.linalg.eigh(HP)
+            # with the carbonate system the Hessian spans many decades (1/m_H against 1/m_Cl):
+            # Jacobi scaling keeps its null-space test meaningful (without it, unchanged)
+            if free:
+                dg = np.diag(HP)
+                sc = 1.0 / np.sqrt(np.where(dg > 0, dg, 1.0))
+            else:
+                sc = np.ones(len(P))
+            w, V = np.linalg.eigh(HP * np.outer(sc, sc))
+            gs = gP * sc
             wmax = max(w.max(), 1e-300)
-            null = w < 1e-9 * wmax
+            # a reaction among the carbonate species alone can be ~1e-10 of the scaled diagonal
+            # (it cancels H+, whose 1/m_H dominates) yet is never null: a tighter threshold then
+            null = w < (1e-13 if free else 1e-9) * wmax
             if null.any():
-                gn = V[:, null].T @ gP
-                if np.linalg.norm(gn) > 1e-10 * (1.0 + np.linalg.norm(gP)):
+                gn = V[:, null].T @ gs
+                if np.linalg.norm(gn) > 1e-10 * (1.0 + np.linalg.norm(gs)):
                     null_move = True
-                    d = V[:, null] @ gn
+                    d = sc * (V[:, null] @ gn)
                     break
             keep = ~null
-            d = V[:, keep] @ ((V[:, keep].T @ gP) / w[keep])
+            d = sc * (V[:, keep] @ ((V[:, keep].T @ gs) / w[keep]))
             # a solid at zero that the step would make negative leaves the set before the step
-            blocked = [k for j, k in enumerate(P) if x[k] <= 0.0 and d[j] < 0.0]
+            blocked = [k for j, k in enumerate(P) if k < Ssol and x[k] <= 0.0 and d[j] < 0.0]
             if not blocked:
                 break
             for k in blocked:
@@ -290,7 +345,7 @@ def equilibrate(chem, b, W, T, *, exclude=(), start=None, tol=1e-9, max_iter=400
             amax = math.inf
             hit = None
             for j, k in enumerate(P):
-                if d[j] < 0:
+                if k < Ssol and d[j] < 0:
                     a = -x[k] / d[j]
                     if a < amax:
                         amax, hit = a, k
@@ -308,12 +363,13 @@ def equilibrate(chem, b, W, T, *, exclude=(), start=None, tol=1e-9, max_iter=400
             x[P] += amax * d
             x[hit] = 0.0
             active.discard(hit)
-            x[x < 0] = 0.0
+            x[:Ssol][x[:Ssol] < 0] = 0.0
+            fold(x)
             continue
         # ratio test: solids stay >= 0
         amax, hit = 1.0, None
         for j, k in enumerate(P):
-            if d[j] < 0 and x[k] + d[j] < 0:
+            if k < Ssol and d[j] < 0 and x[k] + d[j] < 0:
                 a = -x[k] / d[j]
                 if a < amax:
                     amax, hit = a, k
@@ -335,7 +391,7 @@ def equilibrate(chem, b, W, T, *, exclude=(), start=None, tol=1e-9, max_iter=400
             xt[P] += alpha * d
             if hit is not None and alpha == amax:
                 xt[hit] = 0.0
-            xt[xt < 0] = 0.0
+            xt[:Ssol][xt[:Ssol] < 0] = 0.0
             Gt, _, okt = state(xt)
             if okt and Gt <= G + 1e-4 * alpha * slope + 1e-12 * abs(G):
                 break
@@ -345,35 +401,47 @@ def equilibrate(chem, b, W, T, *, exclude=(), start=None, tol=1e-9, max_iter=400
             message = "line search failed"
             break
         x = xt
+        fold(x)
         if hit is not None:
             active.discard(hit)
-        if (W - h @ x) < 1e-10 * W or np.any(b - A @ x < 1e-14 * b):
+        bb, WW = cur["b"], cur["W"]
+        if (WW - h @ x) < 1e-10 * WW or np.any(bb - A @ x < 1e-14 * bb):
             liquid = False
             break
+    bb, WW = cur["b"], cur["W"]
     if not liquid:
-        xs = _lp_solids(A, h, lnK, b, W)
+        bounds = [(0, None)] * Ssol + [(None, None)] * (S - Ssol)
+        xs = _lp_solids(A, h, lnK, bb, WW, bounds)
         if xs is None:
-            return _result(chem, T, names, x, b, W, A, h, lnK, args, False, it,
+            return _result(chem, T, names, x, bb, WW, A, h, lnK, args, False, it,
                            "the liquid vanishes but no solid assemblage holds this water and these ions "
-                           "(dehydration beyond the model's solids)", left, liquid=False, solid_only=True)
-        return _result(chem, T, names, xs, b, W, A, h, lnK, args, True, it, "", left, liquid=False,
-                       solid_only=True)
+                           "(dehydration beyond the model's solids)", left, liquid=False, solid_only=True,
+                           Ssol=Ssol)
+        return _result(chem, T, names, xs, bb, WW, A, h, lnK, args, True, it, "", left, liquid=False,
+                       solid_only=True, Ssol=Ssol, gas=cur["gas"] + (xs[gas_col] if gas_col >= 0 else 0.0))
     if not converged and not message:
         message = f"no convergence in {max_iter} iterations"
-    return _result(chem, T, names, x, b, W, A, h, lnK, args, converged, it, message, left)
+    return _result(chem, T, names, x, bb, WW, A, h, lnK, args, converged, it, message, left, Ssol=Ssol,
+                   gas=cur["gas"])
 
 
-def _result(chem, T, names, x, b, W, A, h, lnK, args, converged, it, message, left, liquid=True, solid_only=False):
+def _result(chem, T, names, x, b, W, A, h, lnK, args, converged, it, message, left, liquid=True, solid_only=False,
+            Ssol=None, gas=0.0):
     n = chem.n
+    Ssol = len(names) if Ssol is None else Ssol
     if solid_only:
         nan = np.full(n, np.nan)
-        return Equilibrium(T, names, x, np.full(len(names), np.nan), np.zeros(n), 0.0, nan, nan.copy(),
-                           math.nan, math.nan, math.nan, False, converged, it, message, left)
+        return Equilibrium(T, names, x[:Ssol], np.full(len(names), np.nan), np.zeros(n), 0.0, nan, nan.copy(),
+                           math.nan, math.nan, math.nan, False, converged, it, message, left, co2_from_gas=gas)
     nion = b - A @ x
     nw = W - h @ x
     m = nion / (nw * MW)
     lng = np.empty(n)
-    lnaw, phi, ionic = activity_kernel(m, args[0], *args[1:], lng)
+    nn, lam = chem.neutral_args
+    if lam is None:
+        lam = np.zeros((0, n))
+    lnaw, phi, ionic = activity_full(m, args[0], *args[1:], nn, lam, lng)
     mu = np.log(m) + lng
     SI = A.T @ mu + h * lnaw - lnK
-    return Equilibrium(T, names, x, SI, nion, nw, m, lng, lnaw, phi, ionic, True, converged, it, message, left)
+    return Equilibrium(T, names, x[:Ssol].copy(), SI[:Ssol], nion, nw, m, lng, lnaw, phi, ionic, True, converged, it,
+                       message, left, co2_from_gas=gas, ph=co.ph(chem, m, lng))

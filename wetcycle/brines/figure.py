@@ -47,7 +47,7 @@ def path_figure(ds):
         axi.plot(x, ds["ice_mass"].values, color="0.6", ls="--", label="ice")
         axi.set_ylabel("ice [kg per kg initial water] (dashed)")
     for k, ion in enumerate(ds["ion"].values):
-        ax2.plot(x, ds["ion_molality"].values[:, k], label=str(ion))
+        ax2.plot(x, ds["ion_molality"].values[:, k], label=str(ion), ls="-" if k < 10 else "--")
     ax2.set_yscale("log")
     ax2.set_ylabel("brine molality [mol/kg]")
     ax2.set_xlabel(xlabel)
@@ -57,6 +57,9 @@ def path_figure(ds):
     axw.set_ylim(0, 1)
     ax2.legend(fontsize=7, ncol=4, loc="lower left")
     title = ds.attrs.get("title_name", "") or ds.attrs.get("composition", "")
+    if "pH" in ds and np.isfinite(ds["pH"].values).any():
+        ph = ds["pH"].values[np.isfinite(ds["pH"].values)]
+        title += f"; pH {ph[0]:.2f} → {ph[-1]:.2f} ({ds.attrs.get('carbonate_system', '')} CO2)"
     ax1.set_title(f"{ds.attrs.get('path', '')} path: {title}", fontsize=9)
     return fig
 

@@ -33,6 +33,7 @@ import numpy as np
 from .. import __version__
 from ..errors import ConfigError, ValidityError, shown
 from ..salts.pitzer import MW
+from . import carbonate as co
 from . import chemistry as ch
 from .equilibrium import equilibrate
 
@@ -48,32 +49,42 @@ MDRH_PAIR_LIMIT = 1.25
 
 
 def _ion_list():
-    return ", ".join(ch.IONS)
+    return ", ".join(tuple(ch.IONS) + co.INPUT_SPECIES + ("DIC",))
+
+
+def _charge(ion):
+    return ch.ALL_SPECIES[ion][0]
 
 
 def check_composition(composition, field="composition"):
     """Validate ``{ion: mol/kg water}``; return (ions tuple, molalities array, imbalance fraction).
 
-    Ion names are those of :data:`wetcycle.brines.chemistry.IONS` without charge.  Zero
-    entries are dropped.  A charge imbalance above 1 % is refused; a smaller one is removed
-    by scaling cations and anions toward their mean charge (reported by the callers).
+    Ion names are those of :data:`wetcycle.brines.chemistry.IONS` without charge, plus the
+    carbonate system's ``HCO3`` and ``CO3`` (the alkalinity) and ``CO2`` (dissolved CO2, neutral:
+    the inorganic carbon beyond the alkalinity).  Instead of those three, ``DIC`` gives the total
+    inorganic carbon and the carbonate alkalinity closes the charge of the other ions (it must lie
+    between 0 and 2 DIC); the returned table then holds the equivalent HCO3, CO3 and CO2.  Zero
+    entries are dropped.  A charge imbalance above 1 % is refused; a smaller one is removed by
+    scaling cations and anions toward their mean charge (reported by the callers).
     """
     if not isinstance(composition, dict) or not composition:
         raise ConfigError(f"{field}: expected a table of ion = mol/kg water, got {shown(composition)}")
     vals = {}
     for k, v in composition.items():
-        if k not in ch.IONS:
+        if k not in ch.IONS and k not in co.INPUT_SPECIES and k != "DIC":
             raise ConfigError(f"{field}: ion {k!r} is not known; allowed: {_ion_list()} (names without charge)")
         if isinstance(v, bool) or not isinstance(v, (int, float, np.integer, np.floating)) or not math.isfinite(v) or v < 0:
             raise ConfigError(f"{field}.{k}: {shown(v)} is not allowed; allowed: a molality >= 0 [mol/kg water]")
         if v > 0:
             vals[k] = float(v)
-    cats = [i for i in vals if ch.IONS[i][0] > 0]
-    ans = [i for i in vals if ch.IONS[i][0] < 0]
+    if "DIC" in vals:
+        vals = _from_dic(vals, field)
+    cats = [i for i in vals if _charge(i) > 0]
+    ans = [i for i in vals if _charge(i) < 0]
     if not cats or not ans:
         raise ConfigError(f"{field}: needs at least one cation and one anion with a molality > 0, got {sorted(vals)}")
-    qp = sum(vals[i] * ch.IONS[i][0] for i in cats)
-    qn = sum(-vals[i] * ch.IONS[i][0] for i in ans)
+    qp = sum(vals[i] * _charge(i) for i in cats)
+    qn = sum(-vals[i] * _charge(i) for i in ans)
     imbalance = (qp - qn) / (0.5 * (qp + qn))
     if abs(imbalance) > MAX_IMBALANCE:
         raise ConfigError(f"{field}: charge imbalance {100 * imbalance:+.2f} % (cations {qp:.6g}, anions {qn:.6g} "
@@ -81,12 +92,57 @@ def check_composition(composition, field="composition"):
     return vals, imbalance
 
 
+def _from_dic(vals, field):
+    """Replace DIC by HCO3, CO3, CO2 with the carbonate alkalinity closing the other ions' charge."""
+    given = [k for k in co.INPUT_SPECIES if k in vals]
+    if given:
+        raise ConfigError(f"{field}.DIC: given with {', '.join(given)}; allowed: either DIC (the alkalinity then "
+                          "closes the charge) or HCO3/CO3/CO2")
+    dic = vals.pop("DIC")
+    alk = sum(v * _charge(k) for k, v in vals.items())
+    if not -1e-12 * dic <= alk <= 2 * dic * (1 + 1e-12):
+        raise ConfigError(f"{field}.DIC: the other ions leave an alkalinity of {alk:.6g} eq/kg for DIC {dic:.6g} mol/kg; "
+                          "allowed: an alkalinity between 0 and 2 DIC (cations in excess of the strong anions)")
+    alk = min(max(alk, 0.0), 2 * dic)
+    co3 = max(alk - dic, 0.0)
+    hco3 = alk - 2 * co3
+    out = dict(vals)
+    for k, v in (("HCO3", hco3), ("CO3", co3), ("CO2", dic - hco3 - co3)):
+        if v > 1e-15 * dic:
+            out[k] = v
+    return out
+
+
 def _neutral(chem, vals):
-    b = np.array([vals[i] for i in chem.ions])
+    b = np.array([vals.get(i, 0.0) for i in chem.ions])
     qp = float(np.sum(np.where(chem.z > 0, b * chem.z, 0.0)))
     qn = float(np.sum(np.where(chem.z < 0, -b * chem.z, 0.0)))
     q = 0.5 * (qp + qn)
-    return np.where(chem.z > 0, b * q / qp, b * q / qn)
+    return np.where(chem.z > 0, b * q / qp, np.where(chem.z < 0, b * q / qn, b))
+
+
+def _initial(chem, vals):
+    """(b [mol], W [mol]) per kg of initial water; the carbonate species seeded positive when present."""
+    b, W = _neutral(chem, vals), 1.0 / MW
+    if chem.carbon:
+        b, W = co.seed(chem, b, W)
+    return b, W
+
+
+def check_co2_pressure(p, field="co2_pressure_Pa"):
+    """None (closed system) or a CO2 pressure [Pa] in (0, 2e5]."""
+    if p is None:
+        return None
+    if isinstance(p, bool) or not isinstance(p, (int, float, np.integer, np.floating)) or not math.isfinite(p) \
+            or not 0 < p <= co.CO2_PRESSURE_MAX_PA:
+        raise ConfigError(f"{field}: {shown(p)} is not allowed; allowed: a CO2 pressure > 0 and <= "
+                          f"{co.CO2_PRESSURE_MAX_PA:g} Pa (omit it for a closed system)")
+    return float(p)
+
+
+def _load_chem(vals, mixing, co2):
+    ions = tuple(vals) + (("CO2",) if co2 is not None and not any(i in co.INPUT_SPECIES for i in vals) else ())
+    return ch.load(ions, mixing)
 
 
 class _Checker:
@@ -103,6 +159,14 @@ class _Checker:
         low = [p for p in used if T < p.T_min - 1e-9]
         high = [p for p in used if T > p.T_max + 1e-9]
         bad = low + high
+        if not bad and self.chem.carbon:
+            lo, hi = co.T_VALID
+            if not (lo - 1e-9 <= T <= hi + 1e-9):
+                desc = (f"carbonate system (HMW 1984 25 °C parameters held constant) valid {lo:g}-{hi:g} K")
+                if self.extrapolate:
+                    self.extrapolated.add(f"carbonate system ({lo:g}-{hi:g} K)")
+                    return True, 1, desc
+                return False, 0, desc
         if not bad:
             return True, 0, ""
         p = max(low, key=lambda q: q.T_min) if low else min(high, key=lambda q: q.T_max)
@@ -122,9 +186,30 @@ def _flags_for(chem, r, base):
     return f
 
 
+_CARBON = ("HCO3", "CO3")
+
+
 def _divide(chem, solid, m):
-    """(exhausted ion, enriched ion, branch text) when ``solid`` first appears in a brine of molalities m."""
-    if solid.origin == "ice" or len(solid.stoich) != 2:
+    """(exhausted ion, enriched ion, branch text) when ``solid`` first appears in a brine of molalities m.
+
+    A carbonate mineral compares its cation with the carbonate alkalinity (HCO3 + 2 CO3 + OH - H,
+    in equivalents), as Hardie & Eugster (1970) compare Ca with alkalinity at calcite: the cation in
+    excess (in equivalents) is enriched; if alkalinity is in excess the brine takes the alkaline
+    (carbonate) branch.
+    """
+    if solid.origin == "ice":
+        return "", "", ""
+    if chem.carbon and any(i in _CARBON for i, _ in solid.stoich):
+        cats = [(i, nu) for i, nu in solid.stoich if i not in _CARBON]
+        if len(cats) != 1:
+            return "", "", ""
+        cat = cats[0][0]
+        eq_cat = m[chem.index(cat)] * ch.ALL_SPECIES[cat][0]
+        alk = co.alkalinity(chem, m)
+        if eq_cat < alk:
+            return cat, "alkalinity", f"alkaline (carbonate-rich), {cat}-poor"
+        return "alkalinity", cat, f"{cat}-rich, carbonate-poor"
+    if len(solid.stoich) != 2:
         return "", "", ""
     (i1, n1), (i2, n2) = solid.stoich
     r1 = m[chem.index(i1)] / n1
@@ -204,6 +289,21 @@ def _dataset(chem, coord_name, coord, coord_attrs, states, flags, events, attrs,
                 "mineral": ("solid", np.array(minerals, dtype=object)),
                 "ion": ("ion", np.array(chem.ions, dtype=object))},
     )
+    if chem.carbon:
+        ph = np.full(nT, np.nan)
+        alk = np.full(nT, np.nan)
+        dic = np.full(nT, np.nan)
+        for k, r in enumerate(states):
+            if r.liquid:
+                ph[k] = r.ph
+                alk[k] = co.alkalinity(chem, r.molality)
+                dic[k] = co.dic(chem, r.molality)
+        ds["pH"] = ((coord_name,), ph, dict(units="1", long_name="pH of the brine, -log10(m_H gamma_H) on the "
+                                                                  "Pitzer (HMW 1984) single-ion scale"))
+        ds["alkalinity"] = ((coord_name,), alk, dict(units="mol kg-1", long_name="carbonate alkalinity of the brine, "
+                                                                                  "m_HCO3 + 2 m_CO3 + m_OH - m_H (eq kg-1)"))
+        ds["dissolved_inorganic_carbon"] = ((coord_name,), dic, dict(
+            units="mol kg-1", long_name="dissolved inorganic carbon of the brine, m_CO2 + m_HCO3 + m_CO3"))
     for k, v in (extra_coords or {}).items():
         ds = ds.assign_coords({k: v})
     ds.attrs.update(dict(Conventions="CF-1.8", title="wetcycle mixed-brine path", wetcycle_version=__version__,
@@ -218,18 +318,20 @@ def _start(chem, r):
     return {n: x for n, x in zip(r.solids, r.solid_moles) if x > 0}
 
 
-def _solve(chem, b, W, T, exclude, start):
-    return equilibrate(chem, b, W, T, exclude=exclude, start=start)
+def _solve(chem, b, W, T, exclude, start, co2=None):
+    return equilibrate(chem, b, W, T, exclude=exclude, start=start, co2_pressure_Pa=co2)
 
 
 def freeze(composition, *, temperature_start_K=None, temperature_end_K=None, step_K=0.25, mode="equilibrium",
-           exclude=(), mixing="fitted", extrapolate_binaries=False):
+           exclude=(), mixing="fitted", extrapolate_binaries=False, co2_pressure_Pa=None):
     """Equilibrium (or fractional) freezing path of a brine at fixed water.
 
     Parameters
     ----------
     composition : dict {ion: mol/kg water}
-        Ions Na, K, Mg, Ca, Cl, SO4, ClO4 (names without charge).  Charge imbalance <= 1 %.
+        Ions Na, K, Mg, Ca, Cl, SO4, ClO4, HCO3, CO3 (names without charge) and CO2 (dissolved,
+        neutral).  Charge imbalance <= 1 %.  Any of HCO3, CO3, CO2 (or ``co2_pressure_Pa``) brings
+        in the carbonate system: H, OH, HCO3, CO3, CO2(aq), pH, carbonate solids.
     temperature_start_K : float [K], default 273.15 K or the highest temperature every pair allows
     temperature_end_K : float [K], default 150 K; the path ends earlier at the mixture's eutectic
         or (without ``extrapolate_binaries``) at the first binary validity limit
@@ -238,13 +340,15 @@ def freeze(composition, *, temperature_start_K=None, temperature_end_K=None, ste
     exclude : solids (names or minerals) to leave out: a metastable path
     mixing : {"fitted", "start", "none"}; "none" is the theta = psi = 0 baseline
     extrapolate_binaries : bool; continue below binary T_min with flagged steps
+    co2_pressure_Pa : float [Pa] or None; a fixed CO2 pressure (open system) or None (closed)
 
     Returns
     -------
     xarray.Dataset over ``temperature`` [K] with ``solid_moles`` (temperature, solid) [mol per kg
     of initial water], ``ice_mass``, ``liquid_water_mass`` [kg per kg of initial water],
     ``ion_molality`` (temperature, ion), ``water_activity``, ``ionic_strength``,
-    ``validity_flag``, the mineral sequence with its chemical divides on ``event``, and
+    ``validity_flag``, with the carbonate system ``pH``, ``alkalinity`` and
+    ``dissolved_inorganic_carbon``, the mineral sequence with its chemical divides on ``event``, and
     attributes ``eutectic_temperature_K`` (NaN if not reached), ``eutectic_solids``,
     ``stopped_by`` and ``binaries_extrapolated``.
     """
@@ -253,9 +357,9 @@ def freeze(composition, *, temperature_start_K=None, temperature_end_K=None, ste
         raise ConfigError(f"mode: {mode!r} is not allowed; allowed: equilibrium, fractional")
     if not (isinstance(step_K, (int, float)) and step_K > 0 and math.isfinite(step_K)):
         raise ConfigError(f"step_K: {shown(step_K)} is not allowed; allowed: a positive number of kelvin")
-    chem = ch.load(tuple(vals), mixing)
-    b0 = _neutral(chem, vals)
-    W0 = 1.0 / MW
+    co2 = check_co2_pressure(co2_pressure_Pa)
+    chem = _load_chem(vals, mixing, co2)
+    b0, W0 = _initial(chem, vals)
     T_hi = min(p.T_max for p in chem.pairs)
     t0 = min(273.15, T_hi) if temperature_start_K is None else float(temperature_start_K)
     t1 = 150.0 if temperature_end_K is None else float(temperature_end_K)
@@ -277,9 +381,9 @@ def freeze(composition, *, temperature_start_K=None, temperature_end_K=None, ste
         if not ok:
             stopped_by = f"{desc}: path stopped at {temps[-1] if temps else T:g} K (design decision 9)"
             break
-        r = _solve(chem, b, W, T, exclude, _start(chem, prev))
+        r = _solve(chem, b, W, T, exclude, _start(chem, prev), co2)
         if not r.liquid and r.converged and prev is not None and prev.liquid:
-            eut_T, eut_state = _bisect_eutectic(chem, b, W, temps[-1], T, exclude, prev)
+            eut_T, eut_state = _bisect_eutectic(chem, b, W, temps[-1], T, exclude, prev, co2)
             eut_solids = [nm for nm, x in zip(eut_state.solids, eut_state.solid_moles) if x > 0]
         if mode == "fractional":
             _accumulate(chem, r, cum)
@@ -309,7 +413,7 @@ def freeze(composition, *, temperature_start_K=None, temperature_end_K=None, ste
         eutectic_temperature_K=float(eut_T), eutectic_solids=", ".join(eut_solids),
         stopped_by=stopped_by or ("eutectic" if not math.isnan(eut_T) else "end temperature"),
         binaries_extrapolated=", ".join(sorted(chk.extrapolated)), solids_not_considered=", ".join(not_considered),
-        excluded_on_request=", ".join(exclude),
+        excluded_on_request=", ".join(exclude), **_co2_attrs(chem, co2),
     )
     return _dataset(chem, "temperature", temps, dict(units="K", standard_name="temperature",
                                                      long_name="temperature of the system"),
@@ -325,24 +429,31 @@ def _comp_text(vals):
     return ", ".join(f"{k}={v:g}" for k, v in vals.items()) + " mol/kg water"
 
 
-def _bisect_eutectic(chem, b, W, T_liq, T_sol, exclude, prev):
+def _co2_attrs(chem, co2):
+    if not chem.carbon:
+        return {}
+    return dict(carbonate_system="open" if co2 is not None else "closed",
+                co2_pressure_Pa=float(co2) if co2 is not None else math.nan)
+
+
+def _bisect_eutectic(chem, b, W, T_liq, T_sol, exclude, prev, co2=None):
     lo, hi = T_sol, T_liq
     last_liq = prev
     sol = None
     while hi - lo > 1e-3:
         mid = 0.5 * (lo + hi)
-        r = _solve(chem, b, W, mid, exclude, _start(chem, last_liq))
+        r = _solve(chem, b, W, mid, exclude, _start(chem, last_liq), co2)
         if r.liquid:
             hi, last_liq = mid, r
         else:
             lo, sol = mid, r
     if sol is None:
-        sol = _solve(chem, b, W, lo, exclude, None)
+        sol = _solve(chem, b, W, lo, exclude, None, co2)
     return 0.5 * (lo + hi), sol
 
 
 def evaporate(composition, *, temperature_K, step=0.05, concentration_factor_end=1e5, mode="equilibrium",
-              exclude=(), mixing="fitted", extrapolate_binaries=False):
+              exclude=(), mixing="fitted", extrapolate_binaries=False, co2_pressure_Pa=None):
     """Equilibrium (or fractional) evaporation path of a brine at fixed temperature.
 
     Parameters
@@ -351,7 +462,7 @@ def evaporate(composition, *, temperature_K, step=0.05, concentration_factor_end
     temperature_K : float [K]; ice takes part below 273.16 K
     step : float > 0; step in ln(concentration factor), the factor being initial water / remaining water
     concentration_factor_end : float > 1; the path ends earlier when the last liquid dries
-    mode, exclude, mixing, extrapolate_binaries : as :func:`freeze`
+    mode, exclude, mixing, extrapolate_binaries, co2_pressure_Pa : as :func:`freeze`
 
     Returns
     -------
@@ -370,9 +481,9 @@ def evaporate(composition, *, temperature_K, step=0.05, concentration_factor_end
         raise ConfigError(f"temperature_K: {T:g} is not allowed; allowed: 150-373.15 K")
     if not (step > 0 and math.isfinite(step)):
         raise ConfigError(f"step: {shown(step)} is not allowed; allowed: a positive step in ln(concentration factor)")
-    chem = ch.load(tuple(vals), mixing)
-    b0 = _neutral(chem, vals)
-    W0 = 1.0 / MW
+    co2 = check_co2_pressure(co2_pressure_Pa)
+    chem = _load_chem(vals, mixing, co2)
+    b0, W0 = _initial(chem, vals)
     chk = _Checker(chem, extrapolate_binaries)
     ok, fbit, desc = chk.check(T, b0)
     if not ok:
@@ -397,10 +508,10 @@ def evaporate(composition, *, temperature_K, step=0.05, concentration_factor_end
             Wk = Wsys - (W0 * f - removed_total)
             if Wk <= 0:
                 Wk = 0.0
-        r = _solve(chem, b, Wk, T, exclude, _start(chem, prev)) if Wk > 0 else None
+        r = _solve(chem, b, Wk, T, exclude, _start(chem, prev), co2) if Wk > 0 else None
         if r is None or not r.liquid:
             if prev is not None and prev.liquid:
-                dry = _bisect_dry(chem, b, W0, fr[-1], f, T, exclude, prev, mode, Wsys, removed_total)
+                dry = _bisect_dry(chem, b, W0, fr[-1], f, T, exclude, prev, mode, Wsys, removed_total, co2)
             stopped_by = "the last liquid dried" if prev is not None else "no liquid at the start"
             if r is not None and r.converged and mode == "equilibrium":
                 fr.append(f)
@@ -431,14 +542,14 @@ def evaporate(composition, *, temperature_K, step=0.05, concentration_factor_end
         dry_solids=", ".join(dry["solids"]), dry_water_activity=float(dry["aw"]),
         last_brine_water_activity=float(last_aw), stopped_by=stopped_by,
         binaries_extrapolated=", ".join(sorted(chk.extrapolated)), solids_not_considered=", ".join(not_considered),
-        excluded_on_request=", ".join(exclude),
+        excluded_on_request=", ".join(exclude), **_co2_attrs(chem, co2),
     )
     cfc = ("water_removed", 1.0 / (1.0 - fr_arr), dict(units="1", long_name="concentration factor: initial water / remaining water"))
     return _dataset(chem, "water_removed", fr_arr, dict(units="1", long_name="fraction of the initial water removed"),
                     states, flags, events, attrs, extra_coords={"concentration_factor": cfc})
 
 
-def _bisect_dry(chem, b, W0, f_liq, f_dry, T, exclude, prev, mode, Wsys, removed_total):
+def _bisect_dry(chem, b, W0, f_liq, f_dry, T, exclude, prev, mode, Wsys, removed_total, co2=None):
     lo, hi = f_liq, f_dry
     last = prev
     while hi - lo > 1e-6 * max(1.0 - lo, 1e-9):
@@ -447,7 +558,7 @@ def _bisect_dry(chem, b, W0, f_liq, f_dry, T, exclude, prev, mode, Wsys, removed
             Wm = W0 * (1.0 - mid)
         else:
             Wm = Wsys - (W0 * mid - removed_total)
-        r = _solve(chem, b, Wm, T, exclude, _start(chem, last)) if Wm > 0 else None
+        r = _solve(chem, b, Wm, T, exclude, _start(chem, last), co2) if Wm > 0 else None
         if r is not None and r.liquid:
             lo, last = mid, r
         else:
@@ -470,7 +581,11 @@ def _solid_ions(chem_all, solids):
             stoich = ((ch.ion_name(s.cation), s.nu_cation), (ch.ion_name(s.anion), s.nu_anion))
         else:
             try:
-                stoich = chem_all.solid(name).stoich
+                try:
+                    stoich = chem_all.solid(name).stoich
+                except Exception:
+                    # carbonate solids (calcite, nahcolite, natron, ...) live in the carbonate chemistry
+                    stoich = ch.load(tuple(ch.IONS) + ("HCO3",), "fitted").solid(name).stoich
             except Exception:
                 raise ConfigError(f"solids: {name!r} is not a salt system or solid; allowed: "
                                   f"{', '.join(sorted(x.name for x in ch.binary_pairs().values()))} or a solid "
@@ -483,7 +598,7 @@ def _solid_ions(chem_all, solids):
 
 
 def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapolate_binaries=False, exclude=(),
-                            details=False):
+                            details=False, co2_pressure_Pa=None):
     """RH (fraction, liquid reference) at which a mixture of salts first forms brine at T.
 
     Method: equilibrium is path-independent, so the first brine to form on wetting is the
@@ -498,6 +613,8 @@ def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapola
     temperature_K : float [K]
     exclude : solids to leave out (a metastable eutonic), as in :func:`freeze`
     details : bool; return a dict (rh, solids at the eutonic, flags) instead of the RH
+    co2_pressure_Pa : float [Pa] or None; with carbonate solids, a fixed CO2 pressure (open system);
+        None: closed (the carbon of the solids is kept)
 
     Returns
     -------
@@ -508,18 +625,19 @@ def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapola
     scale = 1.0 / max(tot.values())
     comp = {k: v * scale for k, v in tot.items()}
     vals, _ = check_composition(comp, "solids")
-    chem = ch.load(tuple(vals), mixing)
+    co2 = check_co2_pressure(co2_pressure_Pa)
+    chem = _load_chem(vals, mixing, co2)
     T = float(temperature_K)
     chk = _Checker(chem, extrapolate_binaries)
     ok, fbit, desc = chk.check(T, np.ones(chem.n))
     if not ok:
         raise ValidityError(f"temperature_K: {T:g} K is outside the {desc} (design decision 9; "
                             "extrapolate_binaries=True gives a flagged value)")
-    b = _neutral(chem, vals)
+    b, _ = _initial(chem, vals)
     exclude = tuple(exclude) + ((ch.ICE,) if T <= ch.T_ICE_MAX else ())
     # bracket: a dilute brine (I ~ 0.5 mol/kg) that holds everything, and a vanishing amount of water
     W_hi = float(np.dot(b, chem.z ** 2)) / (2 * 0.5) / MW
-    r_hi = equilibrate(chem, b, W_hi, T, exclude=exclude)
+    r_hi = equilibrate(chem, b, W_hi, T, exclude=exclude, co2_pressure_Pa=co2)
     if not r_hi.liquid:
         raise ValidityError("solids: no liquid forms even in dilute water; cannot locate the deliquescence point")
     # a liquid holding a pair far beyond its binary's m_max is outside the model (the Pitzer polynomial can
@@ -528,7 +646,7 @@ def mutual_deliquescence_rh(solids, temperature_K, *, mixing="fitted", extrapola
     last = r_hi
     for _ in range(80):
         mid = 0.5 * (lo + hi)
-        r = equilibrate(chem, b, math.exp(mid), T, exclude=exclude, start=_start(chem, last))
+        r = equilibrate(chem, b, math.exp(mid), T, exclude=exclude, start=_start(chem, last), co2_pressure_Pa=co2)
         if r.liquid and r.converged and chem.pair_excess(r.molality) <= MDRH_PAIR_LIMIT:
             lo, last = mid, r
         else:

@@ -280,3 +280,49 @@ def activity_rows(mrows, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta,
         out[r, 1] = phi
         out[r, 2] = ionic
     return out
+
+
+@njit(cache=True)
+def activity_full(m, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta, nn, lam, lng):
+    """:func:`activity_kernel` extended to ``nn`` neutral species placed last in ``m`` (CO2(aq)).
+
+    Method: Harvie, Møller & Weare (1984) eqs. (A8)-(A10) with the neutral-ion terms only
+    (lambda; the neutral-neutral and zeta terms are zero in this model):
+    ln gamma_N = 2 sum_i m_i lambda_Ni; ln gamma_i gains 2 sum_N m_N lambda_Ni;
+    ln a_w = -M_w [sum_all m + 2 osm_ions + 2 sum_N sum_i m_N m_i lambda_Ni].
+
+    Parameters as :func:`activity_kernel`, plus ``nn`` (int) and ``lam`` (nn, n - nn) [kg mol-1].
+    Returns (ln a_w, phi, I) with phi over all solutes; NaN as :func:`activity_kernel`.
+    """
+    n = m.shape[0]
+    if nn == 0:
+        return activity_kernel(m, T, z, nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta, lng)
+    ni = n - nn
+    lnaw, phi, ionic = activity_kernel(m[:ni], T, z[:ni], nc, alpha, beta, thc, tha, psc, psa, J, DJ, meta,
+                                       lng[:ni])
+    bad = lnaw != lnaw
+    for k in range(nn):
+        if not (m[ni + k] >= 0.0):
+            bad = True
+    if bad:
+        for i in range(n):
+            lng[i] = math.nan
+        return math.nan, math.nan, ionic
+    s_ion = 0.0
+    for i in range(ni):
+        s_ion += m[i]
+    s_n = 0.0
+    cross = 0.0
+    for k in range(nn):
+        mk = m[ni + k]
+        s_n += mk
+        g = 0.0
+        for i in range(ni):
+            g += 2.0 * lam[k, i] * m[i]
+            cross += mk * lam[k, i] * m[i]
+            lng[i] += 2.0 * mk * lam[k, i]
+        lng[ni + k] = g
+    lnaw = lnaw - MW * (s_n + 2.0 * cross)
+    tot = s_ion + s_n
+    phi = -lnaw / (MW * tot) if tot > 0.0 else 1.0
+    return lnaw, phi, ionic

@@ -1,6 +1,7 @@
 """Composition files (TOML) for ``wetcycle brine freeze|evaporate``: reading and validation.
 
-A file holds a name, a ``[composition]`` table of ion = mol per kg of water, and optional
+A file holds a name, a ``[composition]`` table of ion = mol per kg of water (Na, K, Mg, Ca, Cl,
+SO4, ClO4, and for the carbonate system HCO3, CO3 and dissolved CO2), and optional
 ``[freeze]`` and ``[evaporate]`` tables with the settings of :func:`wetcycle.brines.freeze`
 and :func:`wetcycle.brines.evaporate`; ``examples/brines/`` has examples.  Unknown keys,
 bad values and a charge imbalance above 1 % are refused with one line naming the field.
@@ -13,7 +14,7 @@ import tomllib
 from pathlib import Path
 
 from ..errors import ConfigError, InputDataError, shown
-from .paths import check_composition
+from .paths import check_co2_pressure, check_composition
 
 #: allowed keys: name -> (type, check description)
 FREEZE_KEYS = {
@@ -24,6 +25,7 @@ FREEZE_KEYS = {
     "exclude": (list, "a list of solid names or minerals"),
     "extrapolate_binaries": (bool, "true or false"),
     "mixing": (str, "fitted, start or none"),
+    "co2_pressure_Pa": (float, "a CO2 pressure > 0 and <= 2e5 Pa (open system); omit it for a closed system"),
 }
 EVAPORATE_KEYS = {
     "temperature_K": (float, "150-373.15 K"),
@@ -33,6 +35,7 @@ EVAPORATE_KEYS = {
     "exclude": (list, "a list of solid names or minerals"),
     "extrapolate_binaries": (bool, "true or false"),
     "mixing": (str, "fitted, start or none"),
+    "co2_pressure_Pa": (float, "a CO2 pressure > 0 and <= 2e5 Pa (open system); omit it for a closed system"),
 }
 TOP_KEYS = ("name", "description", "composition", "freeze", "evaporate")
 
@@ -84,4 +87,6 @@ def read(path):
         if not isinstance(t, dict):
             raise ConfigError(f"{sect}: expected a table, got {shown(t)}")
         out[sect] = _typed(t, sect, keys)
+        if "co2_pressure_Pa" in out[sect]:
+            check_co2_pressure(out[sect]["co2_pressure_Pa"], f"{sect}.co2_pressure_Pa")
     return out
