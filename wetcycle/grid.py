@@ -476,8 +476,10 @@ def assemble(sc, store, hashes=None):
         habitability_min_temperature_K=float(hab["min_temperature"]),
         **phase_settings_attrs(sc["phase"]),
     )
-    from .output import mixture_attrs
+    from .output import mixture_attrs, spinup_attrs
     ds.attrs.update(mixture_attrs(sc))
+    if sc["forcing"]["kind"] == "energy_balance" and int(sc["clock"]["spinup_max_years"]) > 0:
+        ds.attrs.update(spinup_attrs(sc))
     note_short_run(ds, years, planet)
     if sc["forcing"]["kind"] == "energy_balance":     # what the humidity rested on
         from .output import WATER_CAUTION
