@@ -10,8 +10,8 @@ STEPS steps per sol with backward Euler, then SETTLE sols at the run's step; STE
 own step; YEARS replaces ``spinup_max_years``, ``*`` keeps the scenario's).  ``--cells`` builds a site scenario from the
 grid benchmark's settings (uniform albedo 0.22, thermal inertia 250, elevation -2000 m, 48 steps
 per sol, three salts, equilibrium law, spin-up of exactly YEARS years as grid tiles do) at
-latitudes 89 S to 89 N; ``--reference N`` adds a full-step spin-up of N years as the yardstick of
-a periodic state.  Printed per site, between a variant and the base (or the reference): the
+latitudes 89 S to 89 N; ``--reference N`` adds a full-step spin-up of exactly N years (no early
+stop) as the yardstick of a periodic state.  Printed per site, between a variant and the base (or the reference): the
 largest change over the counted year of the daily minimum and maximum surface temperature [K]
 (and on how many sols it exceeds 1 K), the first and last sol with CO2 frost (at any step), the
 largest |ln| ratio of the daily-mean vapour pressure at the salt, and per salt the hours of
@@ -109,7 +109,7 @@ def main():
         print(f"  base (spin-up at the run's step): {tb:.0f} CPU-s, {base.attrs['spinup_years']} spin-up years", flush=True)
         ref = None
         if a.reference:
-            ref, tr = run(doc, source, 0, a.reference, None, fixed)
+            ref, tr = run(doc, source, 0, a.reference, None, True)
             print(f"  reference ({a.reference} full-step years): {tr:.0f} CPU-s", flush=True)
             compare(base, ref, "base vs reference (a / b)")
         for v in a.variants:

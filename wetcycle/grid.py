@@ -18,7 +18,8 @@ scheduler), ``workers > 1`` starts a local cluster of that many worker processes
 cluster.  Salts reach the workers as their phase tables, never by name.
 
 Tile independence: grid runs spin the surface energy balance up for exactly
-``clock.spinup_max_years`` (no early stop, which would depend on the slowest cell of a tile), the
+``clock.spinup_max_years`` (no early stop, which would depend on the slowest cell of a tile; the
+spin-up's steps per sol and settling sols come from the scenario, never from a tile's cells), the
 energy kernel converges its Newton iteration per cell, and per-cell reductions sum each cell's
 values in a fixed order, so the statistics are bitwise identical whatever the tile size, worker
 count or scheduler (``tests/test_grid.py`` compares every statistic).

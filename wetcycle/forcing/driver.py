@@ -26,7 +26,8 @@ Recipe for one block of steps (a sol by default), all cells of a chunk at once:
 The state (:class:`ForcingState`: the column state and the position in the
 clock) is carried explicitly: :func:`forcing_block` takes one and returns the
 next, so runs can be restarted and chained.  :func:`spin_up` repeats the year
-that ends at the clock's start until each cell's annual cycle is periodic.
+that ends at the clock's start until each cell's annual cycle is periodic (optionally
+at fewer steps per sol, then settling sols at the run's step).
 Outputs are plain arrays ``[step, cell]``; this module imports nothing from
 the phase kernel or the salt modules.
 """
