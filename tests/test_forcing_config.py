@@ -85,3 +85,23 @@ def test_too_few_steps_for_the_surface_layer_are_refused_with_the_number_needed(
     tau = surface_time_constant(m.energy.columns, cells.emissivity)[0]
     x = largest_time_step(m.energy.columns, cells.emissivity)[0] / tau
     assert (1 - 0.5 * x) / (1 + 0.5 * x) == pytest.approx(-0.9, rel=1e-12)
+
+
+def test_backward_euler_has_no_zigzag_step_limit():
+    # theta method amplification A = (1 - (1 - theta) x) / (1 + theta x) (Press et al. 2007,
+    # Numerical Recipes, sec. 20.2): for theta = 1, A = 1 / (1 + x) lies in (0, 1] at any step,
+    # so no step makes the surface zig-zag; the coarse spin-up relies on it
+    from wetcycle.clock import make_clock
+    from wetcycle.forcing import driver as dr
+    from wetcycle.forcing.energy import largest_time_step
+    cells = dr.make_cells([20.0], [0.0], thermal_inertia=250.0)
+    m = dr.prepare_forcing(cells, make_clock("mars", steps_per_sol=24, n_sols=1, start_ls=90.0))
+    assert np.isinf(largest_time_step(m.energy.columns, cells.emissivity, theta=1.0)).all()
+    assert np.isfinite(largest_time_step(m.energy.columns, cells.emissivity, theta=0.5)).all()
+
+
+def test_spinup_steps_per_sol_above_the_run_step_is_one_clear_error():
+    doc = _doc()
+    doc["clock"].update(steps_per_sol=24, spinup_steps_per_sol=48)
+    with pytest.raises(ConfigError, match=r"clock.spinup_steps_per_sol: 48 is more than steps_per_sol \(24\)"):
+        scenario_from_dict(doc, base_dir=DEMO.parent, source="t.toml")

@@ -77,6 +77,23 @@ def test_statistics_do_not_depend_on_tiling(tmp_path, reference, chunk_cells):
     same(run_grid(scenario_from_dict(grid_doc(tmp_path, chunk_cells=chunk_cells))), reference)
 
 
+def test_coarse_spinup_keeps_tile_independence(tmp_path, reference):
+    # spin-up years at 6 steps per sol (backward Euler) and 5 settling sols at the run's 24: still
+    # bitwise-identical statistics whatever the tiling (one cell per tile against 9), and not the
+    # full-step spin-up's numbers (the option reaches the tiles)
+    def doc(chunk):
+        (tmp_path / f"c{chunk}").mkdir()
+        d = grid_doc(tmp_path / f"c{chunk}", chunk_cells=chunk)
+        d["clock"].update(spinup_steps_per_sol=6, spinup_settle_sols=5)
+        return d
+    a = run_grid(scenario_from_dict(doc(1)))
+    same(a, run_grid(scenario_from_dict(doc(9))))
+    assert a.attrs["spinup_steps_per_sol"] == 6 and a.attrs["spinup_settle_sols"] == 5
+    assert reference.attrs["spinup_steps_per_sol"] == 24 and "spinup_settle_sols" not in reference.attrs
+    names = [k for k in a.data_vars if "lat" in a[k].dims]
+    assert any(not np.array_equal(a[k].values, reference[k].values, equal_nan=True) for k in names)
+
+
 def test_local_cluster_gives_the_same_statistics(tmp_path, reference):
     # The same tile function on a local dask cluster of two worker processes, other tiles.
     same(run_grid(scenario_from_dict(grid_doc(tmp_path, chunk_cells=2)), workers=2), reference)

@@ -49,6 +49,10 @@ SCHEMA = {
         "step_s": (NUM, 60.0, 1e-3, 1e5, "seconds per step (chamber forcing)"),
         "spinup_max_years": (int, 10, 0, 60, "cap on energy-balance spin-up years: 0 (none) or 2-60"),
         "spinup_tolerance_K": (NUM, 0.2, 1e-4, 10.0, "periodicity tolerance of the spin-up"),
+        "spinup_steps_per_sol": (int, 0, 0, 2000, "steps per sol of the spin-up years: 0 (the run's own) or "
+                                 "fewer (backward Euler), then spinup_settle_sols at the run's step"),
+        "spinup_settle_sols": (int, 300, 1, 668, "sols before the start run again at the run's step after a "
+                               "spin-up at fewer steps"),
     },
     "site": {
         "name": (str, REQUIRED, None, None, ""),
@@ -370,6 +374,11 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
     if sols is not None and sols != int(sols):
         raise ConfigError(f"{source}: clock.sols: {shown(sols)} is not a whole number; allowed: whole sols "
                           f"(the clock runs whole sols), e.g. {int(sols) or 1} or {int(sols) + 1}")
+    c = tables["clock"]
+    if c["spinup_steps_per_sol"] > c["steps_per_sol"]:
+        raise ConfigError(f"{source}: clock.spinup_steps_per_sol: {c['spinup_steps_per_sol']} is more than "
+                          f"steps_per_sol ({c['steps_per_sol']}); allowed 0 (the run's own step) or 1 to "
+                          f"{c['steps_per_sol']}")
     if tables["clock"]["spinup_max_years"] == 1:
         raise ConfigError(f"{source}: clock.spinup_max_years: 1 is not allowed; 0 (no spin-up) or 2-60 "
                           "(periodicity needs two years to compare)")

@@ -18,7 +18,8 @@ scheduler), ``workers > 1`` starts a local cluster of that many worker processes
 cluster.  Salts reach the workers as their phase tables, never by name.
 
 Tile independence: grid runs spin the surface energy balance up for exactly
-``clock.spinup_max_years`` (no early stop, which would depend on the slowest cell of a tile), the
+``clock.spinup_max_years`` (no early stop, which would depend on the slowest cell of a tile; the
+spin-up's steps per sol and settling sols come from the scenario, never from a tile's cells), the
 energy kernel converges its Newton iteration per cell, and per-cell reductions sum each cell's
 values in a fixed order, so the statistics are bitwise identical whatever the tile size, worker
 count or scheduler (``tests/test_grid.py`` compares every statistic).
@@ -476,8 +477,10 @@ def assemble(sc, store, hashes=None):
         habitability_min_temperature_K=float(hab["min_temperature"]),
         **phase_settings_attrs(sc["phase"]),
     )
-    from .output import mixture_attrs
+    from .output import mixture_attrs, spinup_attrs
     ds.attrs.update(mixture_attrs(sc))
+    if sc["forcing"]["kind"] == "energy_balance" and int(sc["clock"]["spinup_max_years"]) > 0:
+        ds.attrs.update(spinup_attrs(sc))
     note_short_run(ds, years, planet)
     if sc["forcing"]["kind"] == "energy_balance":     # what the humidity rested on
         from .output import WATER_CAUTION

@@ -158,6 +158,8 @@ def build_dataset(sc, src, stats, series=None, phase_series=None):
             ds.attrs[key] = str(src.info[key])
     if src.info.get("forcing") == "energy_balance":
         ds.attrs["spinup_converged"] = int(bool(src.info.get("spinup_converged")))
+        if int(sc["clock"]["spinup_max_years"]) > 0:
+            ds.attrs.update(spinup_attrs(sc))
     if sc["forcing"]["kind"] != "chamber":
         note_short_run(ds, float(src.years), planet)
     return ds
@@ -184,6 +186,17 @@ def frame_statistics(ds, sc, coverage):
 
 PER_YEAR = ("liquid_hours_per_year", "liquid_water_hours_per_year", "habitable_hours_per_year", "wet_events_per_year",
             "liquid_hours_by_local_time")
+
+
+def spinup_attrs(sc):
+    """Global attributes of an energy-balance spin-up's discretisation (the steps per sol of its
+    years and, when fewer than the run's, the sols run again at the run's step)."""
+    c = sc["clock"]
+    n = int(c["spinup_steps_per_sol"]) or int(c["steps_per_sol"])
+    out = {"spinup_steps_per_sol": n}
+    if n < int(c["steps_per_sol"]):
+        out["spinup_settle_sols"] = int(c["spinup_settle_sols"])
+    return out
 
 
 def note_short_run(ds, years, planet):

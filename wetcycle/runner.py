@@ -199,7 +199,9 @@ def _energy_source(sc, clock, planet, progress):
         if progress:
             print(f"spin-up of the surface energy balance and water (up to {c['spinup_max_years']} years)...",
                   flush=True)
-        su = driver.spin_up(model, clock, tol_k=c["spinup_tolerance_K"], max_years=c["spinup_max_years"])
+        su = driver.spin_up(model, clock, tol_k=c["spinup_tolerance_K"], max_years=c["spinup_max_years"],
+                            coarse_steps_per_sol=c["spinup_steps_per_sol"] or None,
+                            settle_sols=c["spinup_settle_sols"])
         state = su.state
         info.update(spinup_years=su.years, spinup_converged=bool(su.converged))
     else:

@@ -26,7 +26,8 @@ Recipe for one block of steps (a sol by default), all cells of a chunk at once:
 The state (:class:`ForcingState`: the column state and the position in the
 clock) is carried explicitly: :func:`forcing_block` takes one and returns the
 next, so runs can be restarted and chained.  :func:`spin_up` repeats the year
-that ends at the clock's start until each cell's annual cycle is periodic.
+that ends at the clock's start until each cell's annual cycle is periodic (optionally
+at fewer steps per sol, then settling sols at the run's step).
 Outputs are plain arrays ``[step, cell]``; this module imports nothing from
 the phase kernel or the salt modules.
 """
@@ -480,6 +481,10 @@ def iter_forcing(model, state, clock, block_steps=None):
         yield start, state, out
 
 
+#: Sols run at the clock's own step at the end of a coarse-step spin-up (see :func:`spin_up`).
+SETTLE_SOLS = 30
+
+
 @dataclass(frozen=True)
 class SpinUp:
     """Result of :func:`spin_up`.
@@ -497,9 +502,10 @@ class SpinUp:
     cell_converged: np.ndarray = None
 
 
-def _year(model, cstate, yclock, block_sols):
+def _year(model, cstate, yclock, block_sols, snap_sol=None):
     """Run one year; per-sol min/mean/max surface temperature and mean surface vapour density,
-    and the annual means of the surface and bottom temperatures."""
+    the annual means of the surface and bottom temperatures, and (``snap_sol``) the column
+    state at the start of sol ``snap_sol`` (else None)."""
     spd = yclock.steps_per_sol
     n_sols = yclock.n_sols
     nc = model.cells.n_cells
@@ -508,8 +514,13 @@ def _year(model, cstate, yclock, block_sols):
     bot_sum = np.zeros(nc)
     n_blocks = 0
     st = ForcingState(cstate, 0)
-    for s0 in range(0, n_sols, block_sols):
-        s1 = min(s0 + block_sols, n_sols)
+    snap = None
+    starts = list(range(0, n_sols, block_sols))
+    if snap_sol is not None and 0 < snap_sol < n_sols and snap_sol not in starts:
+        starts = sorted(starts + [snap_sol])    # (blocks cut anywhere give the same numbers)
+    for s0, s1 in zip(starts, starts[1:] + [n_sols]):
+        if s0 == snap_sol:
+            snap = st.column.copy()
         col, out = _advance(model, st, yclock, s0 * spd, s1 * spd)
         st = ForcingState(col, s1 * spd)
         ts = out["surface_temperature"].reshape(s1 - s0, spd, -1)
@@ -525,11 +536,11 @@ def _year(model, cstate, yclock, block_sols):
         # its annual mean
         bot_sum += col.temperature[-1]
         n_blocks += 1
-    return st.column, stats, ts_sum / (n_sols * spd), bot_sum / n_blocks
+    return st.column, stats, ts_sum / (n_sols * spd), bot_sum / n_blocks, snap
 
 
 def spin_up(model, clock, state=None, *, tol_k=0.1, max_years=30, lead_sols=5,
-            accelerate=True, block_sols=10):
+            accelerate=True, block_sols=10, coarse_steps_per_sol=None, settle_sols=SETTLE_SOLS):
     """Repeat the year ending at the clock's start until each cell's annual cycle is periodic.
 
     Method: (i) ``lead_sols`` repetitions of the first sol of that year settle the diurnal
@@ -544,6 +555,16 @@ def spin_up(model, clock, state=None, *, tol_k=0.1, max_years=30, lead_sols=5,
     state with constant conductivities the annual-mean profile is exactly linear with that
     gradient: common practice), removing the slow deep transient.
 
+    With ``coarse_steps_per_sol`` (fewer than the clock's), steps (i) and (ii) run at that
+    coarser step with backward Euler for the heat (theta = 1, which damps every mode at any
+    step, so the step is not limited by the surface node's relaxation time; the run's own
+    Crank-Nicolson is limited, see :func:`~wetcycle.forcing.energy.largest_time_step`), and
+    the last ``settle_sols`` sols of the final year are run again at the clock's step and
+    theta from the coarse state at that sol, so the diurnal layer, the air and the pore
+    water start the run in the run's own discretisation.  Periodicity is judged on the
+    coarse years.  The deep, annual part of the state is what the years build; ``scripts/
+    compare_spinup.py`` measures how far the counted year moves from the full-step spin-up.
+
     Parameters
     ----------
     model : ForcingModel
@@ -557,6 +578,10 @@ def spin_up(model, clock, state=None, *, tol_k=0.1, max_years=30, lead_sols=5,
     accelerate : bool
     block_sols : int
         Sols per kernel call (memory ~ 150 bytes x steps x cells per call).
+    coarse_steps_per_sol : int, optional
+        1 <= n < clock.steps_per_sol; None (or the clock's own) for full-step years.
+    settle_sols : int, 1 <= n < year sols
+        Sols run at the clock's step after coarse years.
 
     Returns
     -------
@@ -570,23 +595,39 @@ def spin_up(model, clock, state=None, *, tol_k=0.1, max_years=30, lead_sols=5,
     state = initial_state(model, clock) if state is None else state
     spd = clock.steps_per_sol
     n_year = int(round(model.planet.year_sols))
-    yclock = make_clock(model.planet, steps_per_sol=spd, n_sols=n_year,
-                        start_jd_tt=float(clock.jd_tt[0]) - n_year * model.planet.sol_s / 86400.0,
+    start_year = float(clock.jd_tt[0]) - n_year * model.planet.sol_s / 86400.0
+    yclock = make_clock(model.planet, steps_per_sol=spd, n_sols=n_year, start_jd_tt=start_year,
                         align_to_midnight=False)
+    coarse = coarse_steps_per_sol is not None and int(coarse_steps_per_sol) != spd
+    snap_sol = None
+    smodel, sclock = model, yclock
+    if coarse:
+        cspd = coarse_steps_per_sol
+        if not (isinstance(cspd, (int, np.integer)) and 1 <= cspd < spd):
+            raise ConfigError(f"clock.spinup_steps_per_sol: {cspd!r} not allowed; allowed a whole number "
+                              f"from 1 to the run's steps_per_sol ({spd})")
+        if not (isinstance(settle_sols, (int, np.integer)) and 1 <= settle_sols < n_year):
+            raise ConfigError(f"settle_sols: {settle_sols!r} not allowed; allowed 1 to {n_year - 1}")
+        sclock = make_clock(model.planet, steps_per_sol=int(cspd), n_sols=n_year, start_jd_tt=start_year,
+                            align_to_midnight=False)
+        smodel = prepare_forcing(model.cells, sclock, dataclasses.replace(model.options, theta=1.0))
+        snap_sol = n_year - int(settle_sols)
+    sspd = sclock.steps_per_sol
     cols = model.energy.columns
     geo_offset = model.options.geothermal_flux * np.sum(1.0 / cols.conductance[:-1], axis=0)
     cs = state.column.copy()
     for _ in range(lead_sols):
-        cs, _ = _advance(model, ForcingState(cs, 0), yclock, 0, spd)
+        cs, _ = _advance(smodel, ForcingState(cs, 0), sclock, 0, sspd)
     nc = model.cells.n_cells
     prev = None
     changes = []
     done = np.zeros(nc, dtype=bool)
     cell_years = np.zeros(nc, dtype=int)
     kept = None
+    kept_snap = None
     years = 0
     for years in range(1, max_years + 1):
-        cs, stats, ts_mean, bot_mean = _year(model, cs, yclock, block_sols)
+        cs, stats, ts_mean, bot_mean, snap = _year(smodel, cs, sclock, block_sols, snap_sol)
         cell_years[~done] = years
         if prev is not None:
             d = np.abs(stats - prev)
@@ -595,6 +636,8 @@ def spin_up(model, clock, state=None, *, tol_k=0.1, max_years=30, lead_sols=5,
             now = (per_cell < tol_k) & ~done
             if np.any(now):
                 kept = _keep(kept, cs, now)
+                if coarse:
+                    kept_snap = _keep(kept_snap, snap, now)
                 done |= now
             if done.all():
                 break
@@ -602,7 +645,19 @@ def spin_up(model, clock, state=None, *, tol_k=0.1, max_years=30, lead_sols=5,
         if accelerate:
             shift = np.where(done, 0.0, ts_mean + geo_offset - bot_mean)
             cs = dataclasses.replace(cs, temperature=cs.temperature + shift[None, :])
-    final = _keep(kept, cs, ~done) if kept is not None else cs
+            if coarse:
+                snap = dataclasses.replace(snap, temperature=snap.temperature + shift[None, :])
+    if coarse:
+        # the last settle_sols sols of the year again, at the run's step, from the coarse state
+        start = _keep(kept_snap, snap, ~done) if kept_snap is not None else snap
+        st = ForcingState(start, snap_sol * spd)
+        for s0 in range(snap_sol, n_year, block_sols):
+            s1 = min(s0 + block_sols, n_year)
+            col, _ = _advance(model, st, yclock, s0 * spd, s1 * spd)
+            st = ForcingState(col, s1 * spd)
+        final = st.column
+    else:
+        final = _keep(kept, cs, ~done) if kept is not None else cs
     return SpinUp(ForcingState(final, 0), int(cell_years.max()), bool(done.all()), tuple(changes),
                   cell_years, done)
 

@@ -99,9 +99,11 @@ def largest_time_step(columns, emissivity, theta=0.5, max_amplification=MAX_AMPL
     ndarray [s] per cell (inf when any step is allowed)
     """
     tau = surface_time_constant(columns, emissivity)
+    if theta >= 1.0:             # backward Euler: A = 1 / (1 + x) in (0, 1], never negative
+        return np.full(tau.shape, np.inf)
     den = theta - (1.0 - theta) * max_amplification
     if den <= 0.0:
-        return np.full(tau.shape, np.inf) if theta >= 1.0 else tau * 0.0
+        return tau * 0.0
     return tau * (1.0 + max_amplification) / den
 
 
