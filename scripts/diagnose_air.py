@@ -33,6 +33,7 @@ def main(argv=None):
     from wetcycle.forcing.atmosphere import CP_AIR_MARS
     from wetcycle.forcing.column import WaterSettings
     from wetcycle.forcing.surface_layer import GUST_BETA
+    from wetcycle.orbit import MARS
 
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("result", nargs="?", default=str(ROOT / "runs" / "validation" / "out" / "landers.nc"))
@@ -47,11 +48,11 @@ def main(argv=None):
     if "site_name" in ds:
         names = [str(x) for x in ds["site_name"].values]
     if a.site not in names:
-        raise SystemExit(f"--site: {a.site!r} not in the result; sites: {', '.join(names)}")
+        ap.error(f"--site: {a.site!r} not in the result; sites: {', '.join(names)}")
     i = names.index(a.site)
     w = WaterSettings()
-    g = 3.71                                          # Mars surface gravity [m s-2]
-    r_air = 8.314462618 / 0.04334                     # CO2-N2-Ar air [J kg-1 K-1]
+    g = MARS.gravity_m_s2
+    r_air = 8.314462618 / MARS.molar_mass_air_kg_mol
     ls, sol = ds["solar_longitude"].values, ds["sol"].values
     sel = (ls >= a.ls[0]) & (ls < a.ls[1])
     get = {k: np.asarray(ds[k].isel(site=i).values, dtype=float)
@@ -69,7 +70,7 @@ def main(argv=None):
         ri = g * w.sensor_height_m * (ta - ts) / (0.5 * (ta + ts) * ueff ** 2)
         rows.append((ts, ta, ts - ta, h, rho * CP_AIR_MARS, chu, wst, ueff, ri))
     if not rows:
-        raise SystemExit(f"--ls: no sols of the result in Ls {a.ls[0]:g}-{a.ls[1]:g}")
+        ap.error(f"--ls: no sols of the result in Ls {a.ls[0]:g}-{a.ls[1]:g}")
     ts, ta, dt, h, rcp, chu, wst, ueff, ri = np.mean(rows, axis=0)
     print(f"{a.site}, Ls {a.ls[0]:g}-{a.ls[1]:g}, {len(rows)} sols, at each sol's largest H:")
     print(f"  ground {ts:.1f} K, air at {w.sensor_height_m:g} m {ta:.1f} K, difference {dt:.1f} K")
