@@ -56,6 +56,25 @@ def _sol_stats(ds, var, site, ls_lo, ls_hi, salt=None):
     return float(np.mean(mins)), float(np.mean(maxs))
 
 
+def _noon_exchange(ds, site, ls_lo, ls_hi):
+    """Mean over the sols in [ls_lo, ls_hi), at each sol's largest sensible heat flux, of the
+    ground-air temperature difference [K] and the transfer velocity C_H U = H / (rho c_p dT)
+    [m s-1] (scripts/diagnose_air.py prints more)."""
+    from wetcycle.forcing.atmosphere import CP_AIR_MARS
+    ls, sol = ds["solar_longitude"].values, ds["sol"].values
+    sel = (ls >= ls_lo) & (ls < ls_hi)
+    ts, ta, h, p = (np.asarray(ds[v].isel(site=site).values, dtype=float)
+                    for v in ("surface_temperature", "air_temperature", "sensible_heat_flux", "surface_pressure"))
+    dts, chus = [], []
+    for s in np.unique(sol[sel]):
+        m = np.flatnonzero(sel & (sol == s))
+        k = m[np.argmax(h[m])]
+        rho = p[k] * 0.04334 / (8.314462618 * ta[k])
+        dts.append(ts[k] - ta[k])
+        chus.append(h[k] / (rho * CP_AIR_MARS * (ts[k] - ta[k])))
+    return float(np.mean(dts)), float(np.mean(chus))
+
+
 def _season(ds, var, site, threshold):
     """(first Ls, last Ls) of the longest stretch of sols whose daily max exceeds threshold."""
     ls = ds["solar_longitude"].values
@@ -136,8 +155,11 @@ def lander_rows(ds):
     rows.append(("Viking 1 mean surface pressure", "765 Pa", "Hess et al. 1976 (read)", f"{pv:.0f} Pa", "Ls 97-100",
                  abs(pv / 765 - 1) <= 0.03, "3 %"))
     _, hmax = _sol_stats(ds, "sensible_heat_flux", v1, 97, 117)
-    rows.append(("Viking 1 noon sensible heat flux", "15-20 W m-2", "Sutton, Leovy & Tillman 1978 (read)",
-                 f"{hmax:.0f} W m-2", "Ls 97-117, daily max", 7 <= hmax <= 40, "factor 2"))
+    dtn, chu = _noon_exchange(ds, v1, 97, 117)
+    rows.append(("Viking 1 noon sensible heat flux", "15-20 W m-2 (ground-air 20-30 K)",
+                 "Sutton, Leovy & Tillman 1978 (read)",
+                 f"{hmax:.0f} W m-2 (ground-air {dtn:.0f} K, C_H U {100 * chu:.1f} cm/s)", "Ls 97-117, daily max",
+                 7 <= hmax <= 40, "factor 2"))
     # Viking Lander 2
     tmin, tmax = _sol_stats(ds, "air_temperature", v2, 118, 140)
     rows.append(("Viking 2 air temperature at 1.6 m", "191-241 K", "Hess et al. 1976 (read)", f"{tmin:.0f}-{tmax:.0f} K",
@@ -152,7 +174,9 @@ def lander_rows(ds):
                  "Fischer et al. 2019; Savijarvi et al. 2020 (read)", f"{emin:.3f} / {emax:.2f} Pa", "Ls 100-110",
                  0.015 <= emin <= 0.1 and 0.15 <= emax <= 2.0, "factor 2"))
     tmin, tmax = _sol_stats(ds, "air_temperature", px, 82, 86)
-    rows.append(("Phoenix air temperature", "191-247 K", "NASA sol-17 report (read)", f"{tmin:.0f}-{tmax:.0f} K",
+    _, tgmax = _sol_stats(ds, "surface_temperature", px, 82, 86)
+    rows.append(("Phoenix air temperature", "191-247 K", "NASA sol-17 report (read)",
+                 f"{tmin:.0f}-{tmax:.0f} K (ground max {tgmax:.0f} K)",
                  "Ls 82-86", abs(tmin - 191) <= 10 and abs(tmax - 247) <= 10, "10 K"))
     fr = _season(ds, "water_frost", px, 1e-3)
     frs = "none" if fr is None else f"from Ls {fr[0]:.0f}"

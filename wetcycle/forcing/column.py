@@ -856,7 +856,13 @@ class WaterSettings:
     * ``air_layer_m`` 50 m, ``air_relaxation_s`` 2 h (ground warmer than the air) and
       ``air_relaxation_night_s`` 30 h: the one-node air layer, fitted by this project to
       published 1.6-m air temperature ranges at Gale, Viking 1 and 2 and Phoenix (rms ~7 K;
-      ``scripts/validate_mars.py`` shows each).
+      ``scripts/validate_mars.py`` shows each).  The node's budget also fixes the sensible heat,
+      ``H ~ rho c_p air_layer_m (dT_a/dt + (T_a - mean T_a) / tau)``: ~3.5 W m-2 at Viking 1's noon
+      against the 15-20 W m-2 Sutton, Leovy & Tillman (1978, read) derived, whatever the transfer
+      law (which gives their flux at their ground-air difference and friction velocity,
+      ``tests/test_surface_layer.py``).  A deeper or leakier layer raises H and lowers the noon
+      air together: the model's noon ground is 10-15 K colder than those published numbers need
+      (README, "Reading the Viking 1 flux and Phoenix air rows"; ``scripts/diagnose_air.py``).
     * ``day_layer_m`` 4 km: Gale's well-mixed daytime layer (Savijarvi et al. 2015, read; 4-6 km
       over low terrain, Hinson et al. 2008, read); ``night_layer_m`` 200 m: the depleted night
       layer at Phoenix (Savijarvi et al. 2020, read).

@@ -34,6 +34,30 @@ is left out.)
 The wind is given at the sensor height (a setting) and carried to the
 reference height by the neutral logarithmic law.
 
+The air at the sensor height by similarity
+------------------------------------------
+Between the ground and an air temperature higher up, Monin-Obukhov
+similarity gives the temperature at any height ``z`` of the surface layer
+from the flux (:func:`sensor_temperature`):
+
+    T(z) = T_s - (Q / (kappa u*)) [ln(z / z0h) - psi_h(z / L) + psi_h(z0h / L)]
+
+with the kinematic heat flux ``Q = H / (rho c_p)``, the Obukhov length
+``L = -u*^3 T / (kappa g Q)`` and the Businger-Dyer profile functions
+(Dyer, A. J. (1974), Boundary-Layer Meteorol. 7, 363-372; integrated form of
+Paulson, C. A. (1970), J. Appl. Meteorol. 9, 857-861; both from memory):
+
+    unstable (L < 0):  psi_h = 2 ln((1 + x) / 2),  x = (1 - 16 z / L)**(1/2)
+    stable   (L > 0):  psi_h = -5 z / L  (z / L capped at 1, the range of the fits)
+
+This is the relation by which Sutton, Leovy & Tillman (1978, J. Atmos. Sci.
+35, 2346) derived the Viking landers' heat flux from the ground-air
+temperature difference and the wind.  The column kernel does not use it
+yet: there the air at the sensor height is the one-node air layer
+(:class:`wetcycle.forcing.column.WaterSettings` says why its noon flux is
+~4x below Sutton et al.'s); the tests check the surface layer's constants
+against their published numbers through it.
+
 Validity: reference height 0.5-100 m, roughness 1e-5 to 0.5 m (below the
 reference height), wind 0.1-50 m s-1, temperatures 100-400 K.
 """
@@ -52,6 +76,11 @@ LOUIS_C = 5.0
 LOUIS_D = 5.0
 #: Gustiness factor beta (Beljaars 1995, from memory).
 GUST_BETA = 1.0
+#: Businger-Dyer constants: unstable gamma_h = 16, stable beta_h = 5 (Dyer 1974, from memory),
+#: and the largest z / L the stable form is used at (its fits span z / L <= ~1).
+DYER_GAMMA = 16.0
+DYER_BETA = 5.0
+STABLE_ZETA_MAX = 1.0
 
 
 @njit(cache=True, fastmath=True, inline="always")
@@ -119,3 +148,38 @@ def convective_velocity(h_flux, rho, cp, t_a, g, depth):
     if h_flux <= 0.0:
         return 0.0
     return (g * depth * h_flux / (rho * cp * t_a)) ** (1.0 / 3.0)
+
+
+@njit(cache=True, fastmath=True, inline="always")
+def sensor_temperature(t_s, t_layer, q_kin, u_star, g, z_s, z0h, ln_s):
+    """Air temperature [K] at the sensor height ``z_s`` by Monin-Obukhov similarity.
+
+    Parameters
+    ----------
+    t_s : float [K]            ground skin temperature
+    t_layer : float [K]        mean temperature of the near-surface air layer (bounds the result)
+    q_kin : float [K m s-1]    kinematic sensible heat flux H / (rho c_p), upward positive
+    u_star : float [m s-1]     friction velocity (> 0)
+    g : float [m s-2]
+    z_s, z0h : float [m]       sensor height, thermal roughness length (z0h < z_s)
+    ln_s : float [-]           ``ln(z_s / z0h)``
+
+    Method: the Businger-Dyer profile of the module notes (Dyer 1974; Paulson 1970; from
+    memory), with the Obukhov length from the flux and ``u*``.  The fits span about
+    -2 <= z / L <= 1; stable z / L is capped at 1.  Far into free convection (-z / L >> 1) the
+    form keeps phi_h ~ (-16 z / L)^(-1/2), so the temperature excess falls as z^(-1/2), steeper
+    than the z^(-1/3) of free-convection scaling (Priestley 1954, from memory).  The result is
+    held between ``t_s`` and ``t_layer`` (a monotonic profile).  Branch-free (one logarithm).
+    """
+    ref = 0.5 * (t_s + t_layer)
+    inv_l = -KARMAN * g * q_kin / (u_star * u_star * u_star * ref)
+    zs = z_s * inv_l
+    z0 = z0h * inv_l
+    xs = math.sqrt(1.0 - DYER_GAMMA * min(zs, 0.0))
+    x0 = math.sqrt(1.0 - DYER_GAMMA * min(z0, 0.0))
+    dpsi = (2.0 * math.log((1.0 + xs) / (1.0 + x0))
+            - DYER_BETA * (min(max(zs, 0.0), STABLE_ZETA_MAX) - min(max(z0, 0.0), STABLE_ZETA_MAX)))
+    t = t_s - q_kin * (ln_s - dpsi) / (KARMAN * u_star)
+    lo = min(t_s, t_layer)
+    hi = max(t_s, t_layer)
+    return min(max(t, lo), hi)
