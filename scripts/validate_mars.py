@@ -142,10 +142,13 @@ def lander_rows(ds):
     tmin, tmax = _sol_stats(ds, "air_temperature", v2, 118, 140)
     rows.append(("Viking 2 air temperature at 1.6 m", "191-241 K", "Hess et al. 1976 (read)", f"{tmin:.0f}-{tmax:.0f} K",
                  "Ls 118-140", abs(tmin - 191) <= 10 and abs(tmax - 241) <= 10, "10 K"))
+    # Threshold 1 g m-2 = 1.1 um of solid ice: below the "few microns" of the published maximum (Wall &
+    # Jones 1980) and the "couple thousandths of a centimetre" of the 1979 frost (NSSDC P-21841 caption)
     fr = _season(ds, "water_frost", v2, 1e-3)
     frs = "none" if fr is None else f"Ls {fr[0]:.0f}-{fr[1]:.0f}"
-    rows.append(("Viking 2 water frost season", "~250 sols around the winter solstice (Ls ~270)", "Wall & Jones 1980 (read)",
-                 frs, "daily max frost > 1 g m-2", fr is not None and _ls_diff(fr[0], 230) < 60 and fr[1] == fr[1], "qualitative"))
+    rows.append(("Viking 2 water frost season", "Ls 230 to 16 (249 sols); at most a few um thick",
+                 "Wall 1981, Icarus; Wall & Jones 1980 (read)", frs, "daily max frost > 1 g m-2 (1.1 um of ice)",
+                 fr is not None and abs(_ls_diff(fr[0], 230)) <= 30 and abs(_ls_diff(fr[1], 16)) <= 30, "30 deg Ls"))
     # Phoenix
     emin, emax = _sol_stats(ds, "air_vapor_pressure", px, 100, 110)
     rows.append(("Phoenix near-surface vapour, night / day", "0.03-0.05 / 0.3-1 Pa",
@@ -172,6 +175,9 @@ def lander_rows(ds):
 #: Ls ~287 (Beish, Cralle & Parker 1990, 6.2-6.7 sols per degree, read), interpolated.
 CAP_END = {60: 351.0, 65: 16.0, 70: 41.0, 75: 56.0, 80: 70.0, 85: 88.0,
            -60: 185.0, -65: 205.0, -70: 224.0, -75: 244.0, -80: 263.0, -85: 283.0}
+#: Latitudes whose end dates the default CO2 frost settings were fitted to (wetcycle.forcing.driver,
+#: FROST_*); the others are held out of that fit.
+CAP_FIT = (65, 75, 85, -65, -75, -85)
 #: Observed onset (first CO2 frost) from memory only (orbital cap-edge studies), +-20 deg Ls.
 CAP_START = {60: 222.0, 65: 210.0, 70: 200.0, 75: 190.0, 80: 180.0, 85: 170.0,
              -60: 50.0, -65: 38.0, -70: 30.0, -75: 20.0, -80: 10.0, -85: 5.0}
@@ -191,7 +197,8 @@ def cap_rows(ds):
         points.append((lat, s[0], s[1]))
         rows.append((f"Seasonal CO2 frost at {lat:+d} deg", f"Ls {CAP_START[lat]:.0f} (recalled) to {CAP_END[lat]:.0f}",
                      "Feldman 2002; Acharya 2023; Beish 1990 (read); onsets from memory",
-                     f"Ls {s[0]:.0f} to {s[1]:.0f} ({d_start:+.0f} / {d_end:+.0f})", "uniform surface, albedo 0.25",
+                     f"Ls {s[0]:.0f} to {s[1]:.0f} ({d_start:+.0f} / {d_end:+.0f})",
+                     "uniform surface, albedo 0.25; " + ("end fitted" if lat in CAP_FIT else "held out of the fit"),
                      abs(d_end) <= 15 and abs(d_start) <= 20, "15 deg Ls (end), 20 (start)"))
     return rows, points
 
