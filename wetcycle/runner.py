@@ -156,7 +156,7 @@ def energy_balance_options(sc):
     supply = supply.scaled(f["water_column_scale"])
     dust = (DustSeason(f["dust_optical_depth"], scale_with_pressure=False) if f["dust_optical_depth"] is not None
             else DustSeason())
-    a_dark = max(f["frost_albedo"], f["frost_albedo"] if f["frost_albedo_south"] is None else f["frost_albedo_south"])
+    a_dark = max(f["frost_albedo"], f["frost_albedo_south"])
     if f["frost_albedo_max"] < a_dark:
         raise ConfigError(f"{sc.source}: forcing.frost_albedo_max: {f['frost_albedo_max']!r} is below the frost "
                           f"albedo without sunlight; allowed {a_dark} to 1")

@@ -159,19 +159,21 @@ MONOLAYER_MASS_KG_M2 = 2.8e-7
 #: CO2 frost radiative properties (defaults of :class:`ForcingOptions`).  The form -- frost that
 #: brightens with the sunlight it receives -- is published (Paige 1985, LPI Terrestrial Planets,
 #: read as an abstract; Kieffer, Titus et al. 2000, J. Geophys. Res. 105, 9653, from memory); its
-#: published coefficients could not be read.  The emissivities follow what the caps' thermal
-#: spectra show: the north seasonal cap outside the polar night is mostly slab ice with a
-#: spectrum close to a blackbody (Titus, Kieffer, Mullins & Christensen 2001, J. Geophys. Res.
-#: 106, 23181, read as an abstract), while low-emissivity surface deposits and CO2 clouds lower
-#: the south cap's emissivity (Hayne et al. 2012, J. Geophys. Res. 117, E08014, read as an
-#: abstract).  The four numbers are this project's fit to the end dates of the seasonal frost at
-#: 65, 75 and 85 deg N and S (scripts/validate_mars.py; 60, 70 and 80 deg held out of the fit,
-#: see the README), one albedo law for both hemispheres.
+#: published coefficients could not be read.  The north cap's emissivity is near 1 because its
+#: frost outside the polar night is mostly slab ice with a spectrum close to a blackbody (Titus,
+#: Kieffer, Mullins & Christensen 2001, J. Geophys. Res. 106, 23181, read as an abstract);
+#: low-emissivity deposits and CO2 clouds lower the south cap's (Hayne et al. 2012, J. Geophys.
+#: Res. 117, E08014, read as an abstract).  The numbers are this project's fit: the end dates of
+#: the seasonal frost at 65, 75 and 85 deg N and S (scripts/validate_mars.py; 60, 70 and 80 deg
+#: held out, see the README) and, for the south emissivity, the seasonal caps' masses at their
+#: maxima, (3.8 +- 0.4)e15 kg north and (6.3 +- 0.6)e15 kg south (Litvak et al. 2005, Adv. Space
+#: Res., neutron spectroscopy, read as an abstract): with 0.7 the south cap came out 30 % light.
 FROST_ALBEDO_DARK = 0.12
+FROST_ALBEDO_DARK_SOUTH = 0.0
 FROST_ALBEDO_SLOPE = 0.0022      # W-1 m2
 FROST_ALBEDO_MAX = 0.85
 FROST_EMISSIVITY_NORTH = 0.95
-FROST_EMISSIVITY_SOUTH = 0.7
+FROST_EMISSIVITY_SOUTH = 0.9
 
 
 @dataclass(frozen=True)
@@ -201,9 +203,10 @@ class ForcingOptions:
     frost_albedo, frost_albedo_slope, frost_albedo_max : CO2 frost albedo law
                                          ``min(A_0 + B Q, A_max)`` in the daily-mean insolation Q
                                          (:func:`~wetcycle.forcing.energy.frost_albedo_law`):
-                                         A_0 [-] (``frost_albedo_south``: A_0 south of the equator,
-                                         None: the same), B [W-1 m2], A_max [-]; defaults
-                                         :data:`FROST_ALBEDO_DARK`, :data:`FROST_ALBEDO_SLOPE`,
+                                         A_0 [-] at latitudes >= 0 (``frost_albedo_south``: A_0
+                                         at latitudes < 0, None: the same), B [W-1 m2], A_max [-];
+                                         defaults :data:`FROST_ALBEDO_DARK`,
+                                         :data:`FROST_ALBEDO_DARK_SOUTH`, :data:`FROST_ALBEDO_SLOPE`,
                                          :data:`FROST_ALBEDO_MAX` (see there for their basis)
     frost_emissivity, frost_emissivity_south : float [-]   CO2 frost emissivity at latitudes
                                          >= 0 and < 0: :data:`FROST_EMISSIVITY_NORTH`,
@@ -228,7 +231,7 @@ class ForcingOptions:
     geothermal_flux: float = 0.0
     frost_albedo: float = FROST_ALBEDO_DARK
     frost_emissivity: float = FROST_EMISSIVITY_NORTH
-    frost_albedo_south: float | None = None
+    frost_albedo_south: float | None = FROST_ALBEDO_DARK_SOUTH
     frost_emissivity_south: float = FROST_EMISSIVITY_SOUTH
     frost_albedo_slope: float = FROST_ALBEDO_SLOPE
     frost_albedo_max: float = FROST_ALBEDO_MAX
