@@ -140,3 +140,13 @@ def test_north_cap_mass_matches_the_neutron_estimate(caps_year):
         hi = np.radians(la + 2.5 if la < 85 else 90.0)
         total = total + out["co2_frost"][:, i] * 2 * np.pi * r ** 2 * (np.sin(hi) - np.sin(np.radians(la - 2.5)))
     assert abs(total.max() / 3.8e15 - 1.0) <= 0.2
+
+
+def test_dry_kernel_refuses_an_albedo_slope_it_would_ignore():
+    # the dry reference kernel has a constant frost albedo: a slope must not be dropped silently
+    from wetcycle.forcing.energy import energy_block
+    cols = build_columns(np.array([250.0]), np.array([1500.0]), np.array([800.0]), 88775.0, 5.9e7)
+    m = prepare_energy(cols, 3700.0, latitude_deg=70.0, longitude_deg=0.0, albedo=0.25, emissivity=0.95,
+                       frost_albedo_slope=0.002)
+    with pytest.raises(ValidityError, match="frost_albedo_slope: received 0.002"):
+        energy_block(m, m.initial_state(200.0), np.zeros(2), np.full(2, 1.5), np.zeros(2), 0.3, 600.0)
