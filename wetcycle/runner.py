@@ -156,6 +156,10 @@ def energy_balance_options(sc):
     supply = supply.scaled(f["water_column_scale"])
     dust = (DustSeason(f["dust_optical_depth"], scale_with_pressure=False) if f["dust_optical_depth"] is not None
             else DustSeason())
+    a_dark = max(f["frost_albedo"], f["frost_albedo_south"])
+    if f["frost_albedo_max"] < a_dark:
+        raise ConfigError(f"{sc.source}: forcing.frost_albedo_max: {f['frost_albedo_max']!r} is below the frost "
+                          f"albedo without sunlight; allowed {a_dark} to 1")
     base = driver.ForcingOptions()
     water = dataclasses.replace(
         base.water, wind_m_s=f["wind_speed"], sensor_height_m=f["sensor_height"],
@@ -168,7 +172,9 @@ def energy_balance_options(sc):
         lapse_rate_k_m=f["lapse_rate"], co2_emissivity=f["co2_emissivity"],
         dust_ir_ratio=f["dust_infrared_ratio"], specific_surface_area_m2_kg=f["specific_surface_area"],
         water=water, n_layers=f["layers"], co2_frost=f["co2_frost"], frost_albedo=f["frost_albedo"],
-        frost_emissivity=f["frost_emissivity"])
+        frost_emissivity=f["frost_emissivity"], frost_albedo_south=f["frost_albedo_south"],
+        frost_emissivity_south=f["frost_emissivity_south"], frost_albedo_slope=f["frost_albedo_slope"],
+        frost_albedo_max=f["frost_albedo_max"])
     sup = supply
     info = {"water_supply": sup.name, "dust_model": dust.name,
             "pressure_model": opts.pressure.name + ("" if f["seasonal_pressure_cycle"] else ", annual mean only")}

@@ -49,7 +49,7 @@ from numba import njit
 from ..errors import ConfigError, ValidityError
 from .atmosphere import CP_AIR_MARS, DUST_SINGLE_SCATTERING_ALBEDO
 from .energy import (CO2_PRESSURE_RANGE, LATENT_HEAT_CO2, NEWTON_MAXIT, NEWTON_TOL,
-                     STEFAN_BOLTZMANN, _cellarray, exp_neg)
+                     STEFAN_BOLTZMANN, _cellarray, daily_mean_insolation, exp_neg, frost_albedo_law)
 from .insolation import top_of_atmosphere_flux
 from .regolith import CELL_BLOCK, factorize, from_blocks, probe_weights, to_blocks
 from .regolith_vapour import (ICE_CAPACITY, R_GAS, R_VAPOUR, RHO_SAT_DT, RHO_SAT_T0, RHO_SAT_TABLE,
@@ -70,7 +70,9 @@ N_VAP = 8
 #: scalar parameters ``par[...]``
 (P_DT, P_THETA, P_DIFFUSE, P_OMEGA, P_CP, P_RAIR, P_G, P_HAIR, P_TAUAIR, P_SOL, P_HDAY,
  P_HNIGHT, P_TGROW, P_TMIX, P_ZREF, P_TAUNIGHT, P_QCONST, P_LAPSE, P_EPSW, P_SPD, P_TMIXST) = range(21)
-N_PAR = 21
+#: CO2 frost albedo law (energy.frost_albedo_law): slope [W-1 m2] and cap [-]
+P_FROST_SLOPE, P_FROST_AMAX = 21, 22
+N_PAR = 23
 #: rows of the output array ``[row, step, cell]``
 OUTPUTS = ("surface_temperature", "salt_temperature", "co2_frost", "water_frost",
            "vapor_pressure", "surface_vapor_pressure", "air_temperature", "air_vapor_pressure",
@@ -290,6 +292,8 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
     nc = out.shape[2]
     sigma = STEFAN_BOLTZMANN
     lat_heat = LATENT_HEAT_CO2
+    frost_slope = par[P_FROST_SLOPE]
+    frost_amax = par[P_FROST_AMAX]
     dt = par[P_DT]
     idt = 1.0 / dt
     theta = par[P_THETA]
@@ -324,6 +328,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
     tw = np.zeros((nn, _N_TW, COLUMN_BLOCK))
     vw = np.zeros((nv + 2, _N_VW, COLUMN_BLOCK))
     pidx = np.zeros(COLUMN_BLOCK, dtype=np.int64)
+    a_fr = np.empty(COLUMN_BLOCK)                 # this step's CO2 frost albedo
     for b in range(nb):
         o = b * cb
         ou = np.uint64(o)
@@ -395,6 +400,11 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 ta = cw[_C_ATM + A_TAIR, c]
                 rho = cw[_C_IN + IN_PRESSURE, c] / (r_air * ta)
                 cw[_C_WST, c] = _cube_root(g * cw[_C_ATM + A_DEPTH, c] * hfl / (rho * cp * ta))
+            for c in range(cb):        # CO2 frost albedo from the daily-mean insolation (own loop:
+                # acos is a library call, which would keep the next loop from SIMD code)
+                a_fr[c] = frost_albedo_law(cw[_C_CELLP + 11, c], frost_slope, frost_amax,
+                                           daily_mean_insolation(cw[_C_CELLP + 0, c], cw[_C_CELLP + 1, c],
+                                                                 sd, cd, fl))
             for c in range(cb):        # geometry, radiation, turbulence, surface equation
                 slat, clat = cw[_C_CELLP + 0, c], cw[_C_CELLP + 1, c]
                 slon, clon = cw[_C_CELLP + 2, c], cw[_C_CELLP + 3, c]
@@ -411,7 +421,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 diff_h = diffuse_fraction * ext
                 fr = cw[_C_CO2, c] > 0.0
                 # (both values loaded first: a select of two loads would become a gather)
-                a_bare, a_frost = cw[_C_CELLP + 9, c], cw[_C_CELLP + 11, c]
+                a_bare, a_frost = cw[_C_CELLP + 9, c], a_fr[c]
                 e_bare, e_frost = cw[_C_CELLP + 10, c], cw[_C_CELLP + 12, c]
                 alb = a_frost if fr else a_bare
                 eps = e_frost if fr else e_bare
@@ -1023,6 +1033,8 @@ def _par(model):
     par[P_TMIX] = s.mixing_time_s
     par[P_TMIXST] = s.stable_mixing_time_s
     par[P_ZREF] = s.sensor_height_m
+    par[P_FROST_SLOPE] = em.frost_albedo_slope
+    par[P_FROST_AMAX] = em.frost_albedo_max
     return par
 
 

@@ -157,6 +157,26 @@ def make_cells(latitude_deg, longitude_deg, *, elevation_m=0.0, albedo=0.25,
 MONOLAYER_MASS_KG_M2 = 2.8e-7
 
 
+#: CO2 frost radiative properties (defaults of :class:`ForcingOptions`).  The form -- frost that
+#: brightens with the sunlight it receives -- is published (Paige 1985, LPI Terrestrial Planets,
+#: read as an abstract; Kieffer, Titus et al. 2000, J. Geophys. Res. 105, 9653, from memory); its
+#: published coefficients could not be read.  The north cap's emissivity is near 1 because its
+#: frost outside the polar night is mostly slab ice with a spectrum close to a blackbody (Titus,
+#: Kieffer, Mullins & Christensen 2001, J. Geophys. Res. 106, 23181, read as an abstract);
+#: low-emissivity deposits and CO2 clouds lower the south cap's (Hayne et al. 2012, J. Geophys.
+#: Res. 117, E08014, read as an abstract).  The numbers are this project's fit: the end dates of
+#: the seasonal frost at 65, 75 and 85 deg N and S (scripts/validate_mars.py; 60, 70 and 80 deg
+#: held out, see the README) and, for the south emissivity, the seasonal caps' masses at their
+#: maxima, (3.8 +- 0.4)e15 kg north and (6.3 +- 0.6)e15 kg south (Litvak et al. 2005, Adv. Space
+#: Res., neutron spectroscopy, read as an abstract): with 0.7 the south cap came out 30 % light.
+FROST_ALBEDO_DARK = 0.12
+FROST_ALBEDO_DARK_SOUTH = 0.0
+FROST_ALBEDO_SLOPE = 0.0022      # W-1 m2
+FROST_ALBEDO_MAX = 0.85
+FROST_EMISSIVITY_NORTH = 0.95
+FROST_EMISSIVITY_SOUTH = 0.9
+
+
 @dataclass(frozen=True)
 class ForcingOptions:
     """Settings of the forcing (all SI).  Defaults are for present-day Mars; each names its
@@ -181,12 +201,17 @@ class ForcingOptions:
     theta : float [-]                    0.5 Crank-Nicolson ... 1 backward Euler (heat)
     first_layer_fraction, stretch, annual_depths, n_layers : grid (see regolith.build_columns)
     geothermal_flux : float [W m-2]
-    frost_albedo, frost_emissivity : float [-]   CO2 frost radiative properties: 0.5 and 0.8,
-                                         representative seasonal-cap values recalled from the
-                                         orbital thermal mapping of the caps (Kieffer, Titus et
-                                         al. 2000, J. Geophys. Res. 105, 9653; Kieffer & Titus 2001,
-                                         Icarus 154, 162; from memory); chosen among those so
-                                         that cap-edge recession dates match (scripts/validate_mars.py)
+    frost_albedo, frost_albedo_slope, frost_albedo_max : CO2 frost albedo law
+                                         ``min(A_0 + B Q, A_max)`` in the daily-mean insolation Q
+                                         (:func:`~wetcycle.forcing.energy.frost_albedo_law`):
+                                         A_0 [-] at latitudes >= 0 (``frost_albedo_south``: A_0
+                                         at latitudes < 0, None: the same), B [W-1 m2], A_max [-];
+                                         defaults :data:`FROST_ALBEDO_DARK`,
+                                         :data:`FROST_ALBEDO_DARK_SOUTH`, :data:`FROST_ALBEDO_SLOPE`,
+                                         :data:`FROST_ALBEDO_MAX` (see there for their basis)
+    frost_emissivity, frost_emissivity_south : float [-]   CO2 frost emissivity at latitudes
+                                         >= 0 and < 0: :data:`FROST_EMISSIVITY_NORTH`,
+                                         :data:`FROST_EMISSIVITY_SOUTH`
     diffuse_fraction : float [-]         see insolation
     co2_frost : bool
     """
@@ -205,8 +230,12 @@ class ForcingOptions:
     annual_depths: float = 3.0
     n_layers: int | None = None
     geothermal_flux: float = 0.0
-    frost_albedo: float = 0.5
-    frost_emissivity: float = 0.8
+    frost_albedo: float = FROST_ALBEDO_DARK
+    frost_emissivity: float = FROST_EMISSIVITY_NORTH
+    frost_albedo_south: float | None = FROST_ALBEDO_DARK_SOUTH
+    frost_emissivity_south: float = FROST_EMISSIVITY_SOUTH
+    frost_albedo_slope: float = FROST_ALBEDO_SLOPE
+    frost_albedo_max: float = FROST_ALBEDO_MAX
     diffuse_fraction: float = 0.5
     co2_frost: bool = True
 
@@ -274,7 +303,9 @@ def prepare_forcing(cells, clock, options=ForcingOptions()):
         albedo=cells.albedo, emissivity=cells.emissivity, slope_deg=cells.slope_deg,
         slope_azimuth_deg=cells.slope_azimuth_deg, probe_depth=cells.salt_depth_m,
         theta=options.theta, geothermal_flux=options.geothermal_flux,
-        frost_albedo=options.frost_albedo, frost_emissivity=options.frost_emissivity,
+        frost_albedo=_by_hemisphere(cells, options.frost_albedo, options.frost_albedo_south),
+        frost_emissivity=_by_hemisphere(cells, options.frost_emissivity, options.frost_emissivity_south),
+        frost_albedo_slope=options.frost_albedo_slope, frost_albedo_max=options.frost_albedo_max,
         diffuse_fraction=options.diffuse_fraction, ir_fraction=1.0, co2_frost=options.co2_frost)
     dt_max = largest_time_step(cols, cells.emissivity, options.theta)
     if np.any(clock.dt_s > dt_max):
@@ -296,6 +327,11 @@ def prepare_forcing(cells, clock, options=ForcingOptions()):
     dust = options.dust if isinstance(options.dust, DustSeason) else DustSeason(options.dust)
     return ForcingModel(cells, options, planet, float(clock.dt_s), int(clock.steps_per_sol), column,
                         supply, dust)
+
+
+def _by_hemisphere(cells, north, south):
+    """Per-cell value: ``north`` at latitudes >= 0, ``south`` (``None``: as north) below."""
+    return np.where(cells.latitude_deg >= 0.0, north, north if south is None else south)
 
 
 def _check_clock(model, clock):

@@ -41,6 +41,7 @@ range); temperatures 50-400 K.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -131,6 +132,39 @@ def co2_frost_point(pressure):
     if not np.all(ok):
         raise ValidityError(f"surface_pressure: received {p[~ok].ravel()[0]} Pa; allowed {lo} to {hi} Pa")
     return 3167.8 / (23.23 - np.log(0.01 * p))
+
+
+@njit(cache=True, fastmath=True, error_model="numpy", inline="always")
+def daily_mean_insolation(sin_lat, cos_lat, sin_dec, cos_dec, flux):
+    """Daily-mean solar flux on a horizontal surface at the top of the atmosphere [W m-2].
+
+    ``Q = (F / pi) (h0 sin(lat) sin(dec) + cos(lat) cos(dec) sin(h0))`` with the sunset
+    hour angle ``cos(h0) = -tan(lat) tan(dec)`` (clamped to [-1, 1]: polar day and night);
+    the textbook result for a body rotating in a fixed sun direction (e.g. Liou 2002, An
+    Introduction to Atmospheric Radiation, eq. 2.2.21; common practice).  ``flux`` [W m-2] is
+    the solar flux at the planet's distance; all angles as sines and cosines.  Valid for any
+    latitude and declination; the declination is held for the sol.
+    """
+    den = max(cos_lat * cos_dec, 1e-12)
+    x = min(max(-(sin_lat * sin_dec) / den, -1.0), 1.0)
+    h0 = math.acos(x)
+    return flux * (1.0 / math.pi) * (h0 * sin_lat * sin_dec + cos_lat * cos_dec * math.sqrt(1.0 - x * x))
+
+
+@njit(cache=True, fastmath=True, error_model="numpy", inline="always")
+def frost_albedo_law(albedo_dark, slope, albedo_max, insolation):
+    """Albedo of CO2 frost that brightens with the sunlight it receives [-].
+
+    ``A = min(A_0 + B Q, A_max)``: linear in the daily-mean insolation ``Q`` [W m-2], the form
+    found in the orbital records of the seasonal caps (frost brightens as insolation grows:
+    Paige 1985, LPI Terrestrial Planets, read as an abstract, explained by dust sinking into the
+    frost at a rate set by the solar flux; Kieffer, Titus et al. 2000, J. Geophys. Res. 105, 9653
+    and Kieffer & Titus 2001, Icarus 154, 162, from memory).  ``A_0`` [-] the albedo without
+    sunlight, ``B`` [W-1 m2] the slope, ``A_max`` [-] the cap; the coefficients are this
+    project's (see :class:`wetcycle.forcing.driver.ForcingOptions`).  ``B = 0`` gives a
+    constant albedo ``min(A_0, A_max)``.
+    """
+    return min(albedo_dark + slope * insolation, albedo_max)
 
 
 @njit(cache=True, fastmath=True, error_model="numpy", inline="always")
@@ -330,6 +364,8 @@ class EnergyModel:
     ir_fraction: float
     co2_on: bool
     geothermal_flux: np.ndarray
+    frost_albedo_slope: float = 0.0
+    frost_albedo_max: float = 1.0
     _blocked: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     @property
@@ -354,7 +390,8 @@ def _cellarray(name, value, n, lo, hi):
 def prepare_energy(columns, dt, *, latitude_deg, longitude_deg, albedo, emissivity,
                    slope_deg=0.0, slope_azimuth_deg=0.0, probe_depth=0.0, theta=0.5,
                    geothermal_flux=0.0, frost_albedo=0.6, frost_emissivity=0.9,
-                   diffuse_fraction=0.5, ir_fraction=0.04, co2_frost=True):
+                   diffuse_fraction=0.5, ir_fraction=0.04, co2_frost=True, frost_albedo_slope=0.0,
+                   frost_albedo_max=1.0):
     """Validate surface properties and precompute the conduction factors.
 
     Parameters
@@ -376,7 +413,14 @@ def prepare_energy(columns, dt, *, latitude_deg, longitude_deg, albedo, emissivi
     frost_albedo, frost_emissivity : array [cell] [-]
         Radiative properties while CO2 frost covers the surface (defaults of this
         low-level function 0.6 and 0.9; the Mars driver passes its own, see
-        :class:`wetcycle.forcing.driver.ForcingOptions`).
+        :class:`wetcycle.forcing.driver.ForcingOptions`); ``frost_albedo`` is the albedo
+        without sunlight, ``A_0`` of :func:`frost_albedo_law`.
+    frost_albedo_slope : float [W-1 m2], 0-0.01
+        ``B`` of :func:`frost_albedo_law` (0: a constant frost albedo).  Only the coupled
+        column (:mod:`wetcycle.forcing.column`) applies it; :func:`energy_block` refuses a
+        non-zero slope.
+    frost_albedo_max : float [-], 0-1, at least every cell's ``frost_albedo``
+        ``A_max`` of :func:`frost_albedo_law`.
     diffuse_fraction, ir_fraction : float [-]
         See :mod:`wetcycle.forcing.insolation`.
     co2_frost : bool
@@ -404,7 +448,17 @@ def prepare_energy(columns, dt, *, latitude_deg, longitude_deg, albedo, emissivi
         ir_fraction=float(_cellarray("ir_fraction", ir_fraction, 1, 0, 1)[0]),
         co2_on=bool(co2_frost),
         geothermal_flux=_cellarray("geothermal_flux", geothermal_flux, n, 0, 1),
+        frost_albedo_slope=float(_cellarray("frost_albedo_slope", frost_albedo_slope, 1, 0, 0.01)[0]),
+        frost_albedo_max=_frost_albedo_max(frost_albedo_max, frost_albedo),
     )
+
+
+def _frost_albedo_max(albedo_max, albedo_dark):
+    amax = float(_cellarray("frost_albedo_max", albedo_max, 1, 0, 1)[0])
+    low = float(np.max(albedo_dark))
+    if amax < low:
+        raise ValidityError(f"frost_albedo_max: received {amax}; allowed {low} (the largest frost_albedo) to 1")
+    return amax
 
 
 def _step_inputs(model, declination_rad, distance_au, hour_angle0_rad, tau, pressure):
@@ -501,6 +555,9 @@ def energy_block(model, state, declination_rad, distance_au, hour_angle0_rad, ta
         ``surface_temperature`` [K], ``probe_temperature`` [K] (at the salt
         depth), ``co2_frost`` [kg m-2], at the end of each step, plus fluxes.
     """
+    if model.frost_albedo_slope != 0.0:
+        raise ValidityError(f"frost_albedo_slope: received {model.frost_albedo_slope}; this kernel has a "
+                            "constant frost albedo, allowed 0 (the coupled column applies the slope)")
     dec = np.ascontiguousarray(declination_rad, dtype=float)
     ns, nc = dec.size, model.n_cells
     flux = np.ascontiguousarray(top_of_atmosphere_flux(distance_au) * np.ones(ns))
