@@ -336,3 +336,18 @@ def test_soda_brine_freezes_natron_first():
     assert order.index("Na2CO3·10H2O") < order.index("NaCl·2H2O")
     assert 240.0 < ds.attrs["eutectic_temperature_K"] < 273.15 - 21.2
     assert np.all(ds.validity_flag.values[ds.temperature.values < 273.15] & 1)
+
+
+def test_a_key_outside_its_table_in_the_carbonate_data_is_refused():
+    # TOML puts a key written after a [[pair]] header into that pair (TOML v1.0.0, "Array of
+    # Tables"): a mixing value placed there must be refused, not silently ignored
+    import tomllib
+    from wetcycle.brines import carbonate
+    from wetcycle.errors import InputDataError
+    doc = tomllib.loads(carbonate.PATH.read_text(encoding="utf-8"))
+    carbonate.check_keys(doc)                        # the shipped file passes
+    doc["pair"][-1]["theta"] = 0.1
+    with pytest.raises(InputDataError, match=r"^carbonate.toml: \[\[pair\]\] entry \d+: key 'theta' is not allowed"):
+        carbonate.check_keys(doc)
+    with pytest.raises(InputDataError, match="top-level key 'extra'"):
+        carbonate.check_keys({**tomllib.loads(carbonate.PATH.read_text(encoding="utf-8")), "extra": 1})

@@ -58,6 +58,42 @@ def log10k_pb(coef, T):
     return a + b * T + c / T + d * math.log10(T) + e / (T * T)
 
 
+#: The keys each table of ``data/carbonate.toml`` may hold.  A key outside its table's set is
+#: refused: in TOML a key written after an array-of-tables header silently belongs to that
+#: header's last entry (a mixing value placed after a ``[[pair]]`` would be ignored).
+ALLOWED_KEYS = {
+    "": {"species", "pair", "mixing", "reaction", "gas", "solid", "solubility"},
+    "solubility": {"solid", "T_K", "molality", "source", "use"},
+    "species": {"name", "charge", "molar_mass", "source"},
+    "pair": {"ions", "beta", "alpha", "m_max", "source"},
+    "mixing": {"null_pairs", "theta", "psi", "lambda", "source"},
+    "reaction": {"name", "stoich", "hydration", "log10K", "T_min", "T_max", "source"},
+    "gas": {"name", "stoich", "log10K", "T_min", "T_max", "source"},
+    "solid": {"name", "mineral", "ions", "hydration", "log10K", "T_min", "T_max", "narrow", "keep_below", "source",
+              "flag"},
+}
+
+
+def check_keys(doc, name=None):
+    """Refuse a key of ``data/carbonate.toml`` outside :data:`ALLOWED_KEYS` in one line."""
+    name = name or PATH.name
+    def bad(table, entries):
+        for i, e in enumerate(entries):
+            extra = sorted(set(e) - ALLOWED_KEYS[table])
+            if extra:
+                where = f"[[{table}]] entry {i + 1}" if isinstance(doc.get(table), list) else f"[{table}]"
+                raise InputDataError(f"{name}: {where}: key {extra[0]!r} is not allowed; allowed: "
+                                     f"{', '.join(sorted(ALLOWED_KEYS[table]))}")
+    top = sorted(set(doc) - ALLOWED_KEYS[""])
+    if top:
+        raise InputDataError(f"{name}: top-level key {top[0]!r} is not allowed; allowed: "
+                             f"{', '.join(sorted(ALLOWED_KEYS['']))}")
+    for table in ALLOWED_KEYS:
+        if table and table in doc:
+            v = doc[table]
+            bad(table, v if isinstance(v, list) else [v])
+
+
 @lru_cache(maxsize=None)
 def data():
     """The parsed ``data/carbonate.toml``."""
@@ -65,6 +101,7 @@ def data():
         doc = tomllib.loads(PATH.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as exc:
         raise InputDataError(f"{PATH.name}: not valid TOML: {exc}") from None
+    check_keys(doc)
     species = {s["name"]: (int(s["charge"]), float(s["molar_mass"])) for s in doc["species"]}
     pairs = {}
     for p in doc["pair"]:
