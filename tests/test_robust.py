@@ -37,8 +37,12 @@ def _wait_for(proc, text, stream_path, timeout=120):
 def test_ctrl_c_stops_in_one_line_with_status_130(tmp_path):
     err, out = tmp_path / "err.txt", tmp_path / "out.txt"
     with open(err, "w") as fh, open(out, "w") as fo:
+        # the child starts with Ctrl-C at its default, as from a terminal: a process inherits an
+        # ignored SIGINT, and the test process was seen with it ignored after other tests ran
+        # (source not found), which made the child finish the run with status 0
         proc = subprocess.Popen([sys.executable, "-m", "wetcycle.cli", "run", str(DEMO), "-o", str(tmp_path / "d.nc")],
-                                stdout=fo, stderr=fh)
+                                stdout=fo, stderr=fh,
+                                preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
         try:
             assert _wait_for(proc, "spin-up", out), "the run ended before it could be interrupted"
             proc.send_signal(signal.SIGINT)
