@@ -5,6 +5,11 @@ gives the same numbers as this one on random forcing: the speed-up changed how t
 tables (no reference counting, arrays hoisted out of the loops, ...), not what it computes.  Do not
 edit it to follow a physics change of the kernel: a deliberate change of results replaces this file
 (and says so in the commit).
+
+Source of the check it serves: an invariant, not a published value -- a rewrite for speed must
+not change what the kernel computes; the physics behind both kernels is checked against published
+data in ``tests/test_mixture_stepper.py`` (Greenspan 1977; Tang & Munkelwitz 1993; Gough et al.
+2014).
 """
 
 from __future__ import annotations
