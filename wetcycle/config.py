@@ -26,6 +26,7 @@ ENERGY_BALANCE_FIELDS = ("dust_optical_depth", "water_column", "water_column_var
                          "vapour_mixing_ratio", "seasonal_pressure_cycle", "pressure_scale_height", "layers",
                          "co2_frost", "frost_albedo", "frost_emissivity", "frost_albedo_south",
                          "frost_emissivity_south", "frost_albedo_slope", "frost_albedo_max", "co2_emissivity", "dust_infrared_ratio",
+                         "dust_single_scattering_albedo", "dust_asymmetry",
                          "lapse_rate", "wind_speed", "sensor_height", "roughness_length", "adsorption_constant",
                          "adsorption_heat", "specific_surface_area", "water_column_depth")
 
@@ -88,13 +89,15 @@ SCHEMA = {
         "co2_frost": (bool, True, None, None, ""),
         "frost_albedo": (NUM, 0.12, 0.0, 1.0, "CO2 frost albedo without sunlight (A_0), latitudes >= 0"),
         "frost_albedo_south": (NUM, 0.0, 0.0, 1.0, "CO2 frost albedo without sunlight (A_0), latitudes < 0"),
-        "frost_albedo_slope": (NUM, 0.0022, 0.0, 0.01, "W-1 m2, CO2 frost albedo gained per W m-2 of daily-mean "
+        "frost_albedo_slope": (NUM, 0.0028, 0.0, 0.01, "W-1 m2, CO2 frost albedo gained per W m-2 of daily-mean "
                                                        "insolation"),
         "frost_albedo_max": (NUM, 0.85, 0.0, 1.0, "largest CO2 frost albedo"),
         "frost_emissivity": (NUM, 0.95, 0.5, 1.0, "CO2 frost emissivity, latitudes >= 0"),
         "frost_emissivity_south": (NUM, 0.9, 0.5, 1.0, "CO2 frost emissivity, latitudes < 0"),
         "co2_emissivity": (NUM, 0.17, 0.0, 0.99, "clear CO2 column infrared emissivity at 610 Pa"),
         "dust_infrared_ratio": (NUM, 0.25, 0.0, 2.0, "dust infrared absorption / visible extinction"),
+        "dust_single_scattering_albedo": (NUM, 0.93, 0.0, 0.999, "of the dust in sunlight (delta-Eddington layer)"),
+        "dust_asymmetry": (NUM, 0.68, 0.0, 0.99, "asymmetry parameter of the dust in sunlight"),
         "lapse_rate": (NUM, 0.0025, 0.0005, 0.009, "K m-1, background atmosphere (water's vertical distribution)"),
         "wind_speed": (NUM, 3.0, 0.1, 50.0, "m s-1 at the sensor height"),
         "sensor_height": (NUM, 1.6, 0.5, 100.0, "m, height of the air temperature and humidity outputs"),

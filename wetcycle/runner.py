@@ -165,7 +165,13 @@ def energy_balance_options(sc):
         base.water, wind_m_s=f["wind_speed"], sensor_height_m=f["sensor_height"],
         roughness_m=f["roughness_length"], thermal_roughness_m=f["roughness_length"],
         langmuir_k_ref_pa=f["adsorption_constant"], adsorption_heat_j_mol=f["adsorption_heat"],
-        vapour_depth_m=f["water_column_depth"])
+        vapour_depth_m=f["water_column_depth"], dust_omega=f["dust_single_scattering_albedo"],
+        dust_asymmetry=f["dust_asymmetry"])
+    from .forcing.scattering import layer_constants
+    try:
+        layer_constants(water.dust_omega, water.dust_asymmetry)
+    except ConfigError as exc:
+        raise ConfigError(f"{sc.source}: {exc}") from None
     opts = driver.ForcingOptions(
         dust=dust, water_supply=supply,
         pressure=LanderPressureCycle(f["pressure_scale_height"], seasonal=f["seasonal_pressure_cycle"]),

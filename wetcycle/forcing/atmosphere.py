@@ -20,8 +20,9 @@ each carried per cell from step to step (:mod:`wetcycle.forcing.column`):
 * ``T_a`` -- the air at the sensor height, a layer of thermal depth ``h_a`` heated by
   the sensible heat flux from the ground (:mod:`wetcycle.forcing.surface_layer`) and
   relaxing towards its own running sol-mean temperature ``<T_a>`` (the residual air
-  above the surface layer), with one time constant while the ground is warmer than the
-  air and another, longer one when it is colder:
+  above the surface layer), with one depth and time constant while the ground is warmer
+  than the air (a deep convective layer takes the heat) and another pair when it is
+  colder (a shallow stable layer cools against the ground):
 
       rho c_p h_a dT_a/dt = H + rho c_p h_a (<T_a> - T_a) / tau_a
 
@@ -30,13 +31,25 @@ each carried per cell from step to step (:mod:`wetcycle.forcing.column`):
   constants stand for what a one-node air layer cannot resolve (radiative cooling of
   the air, mixing with the layers above); the project chose them by comparing the
   model's 1.6-m air temperature ranges with published lander records (Gale, Viking 1
-  and 2, Phoenix; rms ~7 K, every case shown by ``scripts/validate_mars.py``).  The
-  sensible heat flux this gives at noon is ~4x below Viking's (a stated limitation).
+  and 2, Phoenix, every case shown by ``scripts/validate_mars.py``) and Viking 1's noon
+  sensible heat flux, which comes out about half the published value (a stated
+  limitation; 120 m by day and 20 m at night: see
+  :class:`~wetcycle.forcing.column.WaterSettings`).
 
-Downwelling infrared at the ground: ``L = eps_a sigma T_atm**4`` (times the
-sky-view fraction of a slope).  Infrared emissivity of the dusty CO2
-atmosphere, effective-emissivity form with the dust in parallel to the
-15-um CO2 band (common practice):
+Downwelling infrared at the ground (times the sky-view fraction of a slope):
+
+    L = eps_CO2 sigma T_a**4 + (eps_a - eps_CO2) sigma T_atm**4
+
+The 15-um CO2 band is opaque within tens of metres at its centre, so the part of the
+sky's emission it carries comes from the air just above the ground, at the air's
+temperature ``T_a``: warm by day, when the convective layer is heated from below,
+cold at night (Savijarvi 1991's emissivity scheme puts most of the clear-sky downward
+flux in the lowest few hundred metres, from memory).  The dust is spread over a scale
+height of ~11 km (Lemmon et al. 2004, read) and emits at the grey layer's temperature
+``T_atm``.  The grey layer pays for both parts of the downward emission (the air node's
+own budget is its relaxation, which hands its heat to the grey layer).  Infrared
+emissivity of the dusty CO2 atmosphere, effective-emissivity form with the dust in
+parallel to the 15-um CO2 band (common practice):
 
     eps_a = 1 - (1 - eps_CO2) exp(-D tau_IR),   eps_CO2 = eps_0 (p / 610 Pa)**0.5,
 
@@ -45,9 +58,8 @@ with ``r = 0.25`` (:data:`DUST_IR_TO_VISIBLE`: broadband infrared absorption per
 visible extinction), and a clear CO2 column
 emissivity ``eps_0 = 0.17`` at 610 Pa with square-root pressure scaling
 (order of magnitude of the 15-um band of a 6-8 hPa CO2 column, from memory;
-a setting).  Dust absorbs the fraction ``1 - omega`` of the sunlight it
-removes from the direct beam; ``omega = 0.9`` (a band-averaged single
-scattering albedo of Mars dust, from memory; a setting).
+a setting).  The sunlight the dust absorbs, in the air and after a bounce off the
+ground, comes from the delta-Eddington layer of :mod:`wetcycle.forcing.scattering`.
 
 Validity: surface pressure 10-2e5 Pa, optical depth 0-10, temperatures
 100-400 K.
@@ -68,12 +80,13 @@ DIFFUSIVITY_FACTOR = 1.66
 #: optical depth: 0.25 = a broadband infrared/visible extinction ratio of ~0.45 times an infrared
 #: co-albedo of ~0.5 (both from memory), below the 9-um band-peak values (extinction ratio
 #: 1 / (2.0 +- 0.2), Lemmon et al. 2004, Science 306, 1753, read; absorption-only 1 / 2.6 used by
-#: orbital dust climatologies, from memory).  Emission goes with absorption.  A setting.
+#: orbital dust climatologies, from memory).  Emission goes with absorption.  A setting.  (0.18,
+#: half the band-peak absorption ratio, brought Gale's ground within 8 K of the rover's in
+#: southern spring but moved the southern cap's end 10-20 deg of Ls later than observed at
+#: 75-85 deg S with the frost albedo law as fitted: scripts/validate_mars.py.)
 DUST_IR_TO_VISIBLE = 0.25
 #: Clear-sky CO2 infrared emissivity of the whole column at 610 Pa (from memory; a setting).
 CO2_EMISSIVITY_610PA = 0.17
-#: Band-averaged single-scattering albedo of Mars dust in sunlight (from memory; a setting).
-DUST_SINGLE_SCATTERING_ALBEDO = 0.9
 
 
 def column_ir_emissivity(tau_visible, pressure_pa, co2_emissivity_610=CO2_EMISSIVITY_610PA,
@@ -95,8 +108,8 @@ def column_ir_emissivity(tau_visible, pressure_pa, co2_emissivity_610=CO2_EMISSI
     --------
     >>> round(float(column_ir_emissivity(0.0, 610.0)), 3)
     0.17
-    >>> round(float(column_ir_emissivity(0.5, 610.0)), 3)   # 1 - 0.83 exp(-0.415)
-    0.452
+    >>> round(float(column_ir_emissivity(0.5, 610.0)), 3)   # 1 - 0.83 exp(-1.66 * 0.25 * 0.5)
+    0.326
     """
     tau = np.asarray(tau_visible, dtype=float)
     p = np.asarray(pressure_pa, dtype=float)

@@ -3,8 +3,12 @@
 One numba kernel advances, for a block of steps and a chunk of cells, every
 process of the site column together, in this order within each step:
 
-1. sunlight on the (sloped) ground and in the dusty atmosphere
-   (:mod:`wetcycle.forcing.insolation`);
+1. sunlight on the (sloped) ground and in the dusty atmosphere (geometry:
+   :mod:`wetcycle.forcing.insolation`; the dust's scattering and absorption, bounces
+   between ground and sky included: the delta-Eddington layer of
+   :mod:`wetcycle.forcing.scattering`); the sky's infrared, its CO2 band from the
+   near-surface air and its dust from the grey atmosphere
+   (:mod:`wetcycle.forcing.atmosphere`);
 2. the ground's energy balance -- absorbed sunlight, downwelling infrared from
    the atmosphere, thermal emission, conduction into the layered regolith,
    sensible heat to the air, CO2 frost -- solved implicitly together with the
@@ -47,10 +51,12 @@ import numpy as np
 from numba import njit
 
 from ..errors import ConfigError, ValidityError
-from .atmosphere import CP_AIR_MARS, DUST_SINGLE_SCATTERING_ALBEDO
+from .atmosphere import CO2_EMISSIVITY_610PA, CP_AIR_MARS
 from .energy import (CO2_PRESSURE_RANGE, LATENT_HEAT_CO2, NEWTON_MAXIT, NEWTON_TOL,
                      STEFAN_BOLTZMANN, _cellarray, daily_mean_insolation, exp_neg, frost_albedo_law)
 from .insolation import top_of_atmosphere_flux
+from .scattering import (DUST_SOLAR_ASYMMETRY, DUST_SOLAR_SINGLE_SCATTERING_ALBEDO, beam_layer_kernel,
+                         diffuse_layer_kernel, layer_constants)
 from .regolith import CELL_BLOCK, factorize, from_blocks, probe_weights, to_blocks
 from .regolith_vapour import (ICE_CAPACITY, R_GAS, R_VAPOUR, RHO_SAT_DT, RHO_SAT_T0, RHO_SAT_TABLE,
                               TABLE_T, effective_diffusivity, water_tables)
@@ -72,7 +78,14 @@ N_VAP = 8
  P_HNIGHT, P_TGROW, P_TMIX, P_ZREF, P_TAUNIGHT, P_QCONST, P_LAPSE, P_EPSW, P_SPD, P_TMIXST) = range(21)
 #: CO2 frost albedo law (energy.frost_albedo_law): slope [W-1 m2] and cap [-]
 P_FROST_SLOPE, P_FROST_AMAX = 21, 22
-N_PAR = 23
+#: delta-Eddington constants of the dust layer (scattering.layer_constants): omega', g', the
+#: optical-depth scale, gamma_1, gamma_2, k; and the clear CO2 column emissivity at 610 Pa
+P_DE_W, P_DE_G, P_DE_S, P_DE_G1, P_DE_G2, P_DE_K, P_ECO2 = range(23, 30)
+#: share of the air's departure from its sol mean at the CO2 band's emitting height [-]
+P_WCO2 = 30
+#: depth of the air node while the ground is colder than the air (stable, night) [m]
+P_HAIRN = 31
+N_PAR = 32
 #: rows of the output array ``[row, step, cell]``
 OUTPUTS = ("surface_temperature", "salt_temperature", "co2_frost", "water_frost",
            "vapor_pressure", "surface_vapor_pressure", "air_temperature", "air_vapor_pressure",
@@ -116,7 +129,8 @@ _C_IN = 31                                       # N_IN rows, this step's inputs
  _C_QQ, _C_PP, _C_RF, _C_HOLD, _C_RHS, _C_TN, _C_ACT, _C_HFLUX, _C_GNET, _C_RFREE, _C_XCH,
  _C_WTOP, _C_G0V, _C_RA0, _C_FS, _C_FSKEEP, _C_XAKEEP, _C_TAKE, _C_DONE, _C_BAD, _C_FOG,
  _C_PWI, _C_PWJ, _C_PSI, _C_PKI, _C_PSJ, _C_PKJ, _C_PTI, _C_PTJ) = range(36, 76)
-_C_OUT = 76                                      # len(OUTPUTS) rows, this step's outputs
+_C_HAIR = 76                                     # this step's air-node depth [m]
+_C_OUT = 77                                      # len(OUTPUTS) rows, this step's outputs
 _N_CW = _C_OUT + len(OUTPUTS)
 #: thermal node rows: temperature, the elimination factors, the upward sweep's e
 _T_T, _T_FA, _T_FD, _T_FF, _T_FG, _T_E = range(6)
@@ -299,12 +313,15 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
     theta = par[P_THETA]
     om = 1.0 - theta
     r = om / theta
-    diffuse_fraction = par[P_DIFFUSE]
-    omega = par[P_OMEGA]
+    de_w, de_g, de_s = par[P_DE_W], par[P_DE_G], par[P_DE_S]
+    de_g1, de_g2, de_k = par[P_DE_G1], par[P_DE_G2], par[P_DE_K]
+    eco2_610 = par[P_ECO2]
+    w_co2 = par[P_WCO2]
     cp = par[P_CP]
     r_air = par[P_RAIR]
     g = par[P_G]
-    h_air = par[P_HAIR]
+    h_air_day = par[P_HAIR]
+    h_air_night = par[P_HAIRN]
     tau_air = par[P_TAUAIR]
     tau_night = par[P_TAUNIGHT]
     fmean = par[P_DT] / par[P_SOL]
@@ -413,12 +430,15 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 u = slat * sd + clat * cd * ch
                 cosi = (-cd * sh * cw[_C_CELLP + 4, c] + (clat * sd - slat * cd * ch) * cw[_C_CELLP + 5, c]
                         + u * cw[_C_CELLP + 6, c])
-                tau = cw[_C_IN + IN_TAU, c]
-                tr = exp_neg(-tau / max(u, 1e-6))
+                # sunlight through the dust: delta-Eddington layer over the ground (scattering)
+                tau = cw[_C_IN + IN_TAU, c] * de_s
+                ud = max(u, 1e-6)
+                tr = exp_neg(-tau / ud)
+                ek = exp_neg(-de_k * tau)
+                refl, tdif = beam_layer_kernel(ud, tr, ek, de_w, de_g, de_g1, de_g2, de_k)
+                rd, td = diffuse_layer_kernel(ek, de_g1, de_g2, de_k)
                 uu = max(u, 0.0)
                 beam = fl * tr
-                ext = fl * uu * (1.0 - tr)
-                diff_h = diffuse_fraction * ext
                 fr = cw[_C_CO2, c] > 0.0
                 # (both values loaded first: a select of two loads would become a gather)
                 a_bare, a_frost = cw[_C_CELLP + 9, c], a_fr[c]
@@ -426,15 +446,24 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 alb = a_frost if fr else a_bare
                 eps = e_frost if fr else e_bare
                 cw[_C_EPS, c] = eps
+                down = fl * uu * (tr + tdif) / (1.0 - alb * rd)     # at the ground, bounces included
+                diff_h = down - beam * uu
                 cs = cw[_C_CELLP + 7, c]
                 sww = (beam * max(cosi, 0.0)
-                       + 0.5 * (diff_h * (1.0 + cs) + alb * (beam * uu + diff_h) * (1.0 - cs)))
+                       + 0.5 * (diff_h * (1.0 + cs) + alb * down * (1.0 - cs)))
                 sww = sww if u > 0.0 else 0.0
                 cw[_C_SW, c] = sww
-                cw[_C_ATMSW, c] = (1.0 - omega) * ext if u > 0.0 else 0.0
+                atsw = fl * uu * (1.0 - refl - tr - tdif) + alb * down * (1.0 - rd - td)
+                cw[_C_ATMSW, c] = atsw if u > 0.0 else 0.0
+                # sky infrared: the CO2 band from the near-surface air, the dust from the
+                # atmosphere's grey layer (atmosphere module notes)
                 tatm = cw[_C_ATM + A_TATM, c]
                 t4 = tatm * tatm
-                ld = cw[_C_IN + IN_EPS_ATM, c] * sigma * t4 * t4
+                tmn = cw[_C_ATM + A_TMEAN, c]
+                tair = tmn + w_co2 * (cw[_C_ATM + A_TAIR, c] - tmn)
+                ta4 = tair * tair
+                ec = min(eco2_610 * math.sqrt(cw[_C_IN + IN_PRESSURE, c] * (1.0 / 610.0)), 0.99)
+                ld = ec * sigma * ta4 * ta4 + (cw[_C_IN + IN_EPS_ATM, c] - ec) * sigma * t4 * t4
                 cw[_C_LDW, c] = ld
                 s_abs = (1.0 - alb) * sww + eps * ld * cw[_C_CELLP + 8, c]
                 cw[_C_SIN, c] = s_abs
@@ -448,11 +477,14 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 cw[_C_WTR, c] = w
                 cwc = rho * cp * w
                 cw[_C_CW, c] = cwc
-                tau_a = tau_air if t0 > ta else tau_night
+                unstable = t0 > ta
+                tau_a = tau_air if unstable else tau_night
+                h_air = h_air_day if unstable else h_air_night
                 dd = 1.0 + dt * w / h_air + dt / tau_a
                 al = (dt * w / h_air) / dd
                 b0 = (ta + dt * cw[_C_ATM + A_TMEAN, c] / tau_a) / dd
                 cw[_C_TAUR, c] = tau_a
+                cw[_C_HAIR, c] = h_air
                 cw[_C_ALPHA, c] = al
                 cw[_C_BETA0, c] = b0
                 q = theta * eps * sigma
@@ -512,9 +544,13 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 tatm = cw[_C_ATM + A_TATM, c]
                 ea = cw[_C_IN + IN_EPS_ATM, c]
                 e_in = (ea * cw[_C_EPS, c] * sigma * tnew * tnew * tnew * tnew + cw[_C_ATMSW, c]
-                        + rho * cp * h_air * (ta_new - cw[_C_ATM + A_TMEAN, c]) / cw[_C_TAUR, c])
+                        + rho * cp * cw[_C_HAIR, c] * (ta_new - cw[_C_ATM + A_TMEAN, c]) / cw[_C_TAUR, c])
+                # emission up (eps_a sigma T_atm^4) and down (the sky infrared of this step, whose
+                # CO2 part the near-surface air emits at its temperature)
                 t3 = tatm * tatm * tatm
-                tatm_new = tatm + dt * (e_in - 2.0 * ea * sigma * t3 * tatm) / (cp * p / g + dt * 8.0 * ea * sigma * t3)
+                ec = min(eco2_610 * math.sqrt(p * (1.0 / 610.0)), 0.99)
+                tatm_new = tatm + dt * (e_in - ea * sigma * t3 * tatm - cw[_C_LDW, c]) / (
+                    cp * p / g + dt * 4.0 * (2.0 * ea - ec) * sigma * t3)
                 cw[_C_ATM + A_TATM, c] = max(tatm_new, tf if tf > 0.0 else 100.0)
                 cw[_C_ATM + A_TAIR, c] = ta_new
                 cw[_C_ATM + A_HFLUX, c] = hf
@@ -863,23 +899,34 @@ class WaterSettings:
     * ``roughness_m`` 1 cm, likely ~1 cm at Viking Lander 2 (Tillman et al. 1994, read);
       ``thermal_roughness_m`` equal (common practice).
     * ``sensor_height_m`` 1.6 m: the Viking and Curiosity sensors.
-    * ``air_layer_m`` 50 m, ``air_relaxation_s`` 2 h (ground warmer than the air) and
-      ``air_relaxation_night_s`` 30 h: the one-node air layer, fitted by this project to
-      published 1.6-m air temperature ranges at Gale, Viking 1 and 2 and Phoenix (rms ~7 K;
-      ``scripts/validate_mars.py`` shows each).  The node's budget also fixes the sensible heat,
-      ``H ~ rho c_p air_layer_m (dT_a/dt + (T_a - mean T_a) / tau)``: ~3.5 W m-2 at Viking 1's noon
-      against the 15-20 W m-2 Sutton, Leovy & Tillman (1978, read) derived, whatever the transfer
-      law (which gives their flux at their ground-air difference and friction velocity,
-      ``tests/test_surface_layer.py``).  A deeper or leakier layer raises H and lowers the noon
-      air together: the model's noon ground is 10-15 K colder than those published numbers need
-      (README, "Reading the Viking 1 flux and Phoenix air rows"; ``scripts/diagnose_air.py``).
+    * ``air_layer_m`` 120 m while the ground is warmer than the air (day), ``air_layer_night_m``
+      20 m while it is colder (night), ``air_relaxation_s`` 2 h and ``air_relaxation_night_s``
+      30 h: the one-node air layer.  By day the ground heats a deep convective layer, at night
+      only a shallow stable one cools against the ground; the four values were chosen by this
+      project by comparing the model's 1.6-m air temperature ranges, Viking 1's noon sensible
+      heat flux and Gale's night humidity with published lander records
+      (``scripts/validate_mars.py`` shows each).  The node's budget fixes the sensible heat,
+      ``H ~ rho c_p air_layer_m (dT_a/dt + (T_a - mean T_a) / tau)``: ~8 W m-2 at Viking 1's noon
+      with a ground-air difference of ~21 K, against the 15-20 W m-2 and 20-30 K Sutton, Leovy &
+      Tillman (1978, read) derived (a 50-m layer for day and night, with the earlier sunlight
+      and sky infrared, gave 3.5 W m-2 at 12 K).
     * ``day_layer_m`` 4 km: Gale's well-mixed daytime layer (Savijarvi et al. 2015, read; 4-6 km
       over low terrain, Hinson et al. 2008, read); ``night_layer_m`` 200 m: the depleted night
       layer at Phoenix (Savijarvi et al. 2020, read).
     * ``growth_time_s`` 3 h (the day layer reached by late morning), ``mixing_time_s`` 1 h
       (convective turnover of the day layer) and ``stable_mixing_time_s`` 10 sols (slow exchange
       of a stable layer with the air above): order-of-magnitude choices of this project.
-    * ``dust_omega`` 0.9, ``cp_air``: see :mod:`~wetcycle.forcing.atmosphere`.
+    * ``dust_omega`` 0.93 and ``dust_asymmetry`` 0.68 (the dust in sunlight): see
+      :mod:`~wetcycle.forcing.scattering`; ``cp_air``, ``co2_emissivity_610`` (set from the
+      forcing options): see :mod:`~wetcycle.forcing.atmosphere`.
+    * ``co2_band_air_share`` 0.5: the CO2 band of the sky's infrared is emitted at
+      ``<T_a> + 0.5 (T_a - <T_a>)``, the sensor-height air's sol mean plus half its departure
+      from it: the band's emission comes from the lowest few hundred metres, where the diurnal
+      swing of the air temperature is about half that at 1.6 m (order of magnitude of published
+      1-D boundary-layer models, e.g. Savijarvi's, from memory; this project's choice).  With
+      1 (the 1.6-m air itself) Gale's noon sky infrared came out ~53 W m-2 and its noon ground
+      within a kelvin of the rover's in southern autumn but 13-20 K above it in spring and
+      summer.
     * ``tortuosity`` 2 (1.5-3 measured in Mars soil simulants, Hudson et al. 2007, from memory),
       ``pore_radius_m`` 5 um (fine-grained regolith, from memory); together with porosity 0.35
       they give 1.3 cm2 s-1, within the 1.74 +- 0.70 measured for JSC Mars-1 (Chevrier et al.
@@ -899,7 +946,8 @@ class WaterSettings:
     roughness_m: float = 0.01
     thermal_roughness_m: float = 0.01
     sensor_height_m: float = 1.6
-    air_layer_m: float = 50.0
+    air_layer_m: float = 120.0
+    air_layer_night_m: float = 20.0
     air_relaxation_s: float = 2.0 * 3600.0
     air_relaxation_night_s: float = 30.0 * 3600.0
     sol_s: float = 88775.244
@@ -911,7 +959,10 @@ class WaterSettings:
     growth_time_s: float = 3.0 * 3600.0
     mixing_time_s: float = 3600.0
     stable_mixing_time_s: float = 10.0 * 88775.244
-    dust_omega: float = DUST_SINGLE_SCATTERING_ALBEDO
+    dust_omega: float = DUST_SOLAR_SINGLE_SCATTERING_ALBEDO
+    dust_asymmetry: float = DUST_SOLAR_ASYMMETRY
+    co2_emissivity_610: float = CO2_EMISSIVITY_610PA
+    co2_band_air_share: float = 0.5
     cp_air: float = CP_AIR_MARS
     tortuosity: float = 2.0
     pore_radius_m: float = 5e-6
@@ -963,13 +1014,15 @@ def prepare_column(energy_model, settings, porosity, *, gravity, molar_mass_air,
     checks = (("wind_speed", s.wind_m_s, 0.1, 50.0), ("roughness_length", s.roughness_m, 1e-5, 0.5),
               ("thermal_roughness_length", s.thermal_roughness_m, 1e-7, 0.5),
               ("sensor_height", s.sensor_height_m, 0.5, 100.0), ("air_layer_depth", s.air_layer_m, 0.1, 1000.0),
+              ("air_layer_depth_night", s.air_layer_night_m, 0.1, 1000.0),
               ("air_relaxation_time", s.air_relaxation_s, 60.0, 1e7),
               ("air_relaxation_time_night", s.air_relaxation_night_s, 60.0, 1e7),
               ("sol", s.sol_s, 3600.0, 1e6),
               ("day_layer_depth", s.day_layer_m, 10.0, 20000.0), ("night_layer_depth", s.night_layer_m, 1.0, 5000.0),
               ("layer_growth_time", s.growth_time_s, 60.0, 1e6), ("mixing_time", s.mixing_time_s, 60.0, 1e7),
               ("stable_mixing_time", s.stable_mixing_time_s, 60.0, 1e9),
-              ("dust_single_scattering_albedo", s.dust_omega, 0.0, 1.0), ("tortuosity", s.tortuosity, 1.0, 10.0),
+              ("dust_single_scattering_albedo", s.dust_omega, 0.0, 0.999),
+              ("dust_asymmetry", s.dust_asymmetry, 0.0, 0.99), ("tortuosity", s.tortuosity, 1.0, 10.0),
               ("pore_radius", s.pore_radius_m, 1e-8, 1e-3),
               ("langmuir_constant", s.langmuir_k_ref_pa, 1e-6, 1e6),
               ("langmuir_reference_temperature", s.langmuir_t_ref_k, 100.0, 350.0),
@@ -1014,12 +1067,17 @@ def _par(model):
     par = np.empty(N_PAR)
     par[P_DT] = em.factors.dt
     par[P_THETA] = em.factors.theta
-    par[P_DIFFUSE] = em.diffuse_fraction
+    par[P_DIFFUSE] = 0.0        # (unused: the dust layer's own scattering, below)
     par[P_OMEGA] = s.dust_omega
+    (par[P_DE_W], par[P_DE_G], par[P_DE_S], par[P_DE_G1], par[P_DE_G2],
+     par[P_DE_K]) = layer_constants(s.dust_omega, s.dust_asymmetry)
+    par[P_ECO2] = s.co2_emissivity_610
+    par[P_WCO2] = s.co2_band_air_share
     par[P_CP] = s.cp_air
     par[P_RAIR] = model.r_air
     par[P_G] = model.gravity
     par[P_HAIR] = s.air_layer_m
+    par[P_HAIRN] = s.air_layer_night_m
     par[P_TAUAIR] = s.air_relaxation_s
     par[P_TAUNIGHT] = s.air_relaxation_night_s
     par[P_SOL] = s.sol_s

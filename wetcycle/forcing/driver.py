@@ -171,7 +171,7 @@ MONOLAYER_MASS_KG_M2 = 2.8e-7
 #: Res., neutron spectroscopy, read as an abstract): with 0.7 the south cap came out 30 % light.
 FROST_ALBEDO_DARK = 0.12
 FROST_ALBEDO_DARK_SOUTH = 0.0
-FROST_ALBEDO_SLOPE = 0.0022      # W-1 m2
+FROST_ALBEDO_SLOPE = 0.0028      # W-1 m2 (0.0022 before the delta-Eddington sunlight and the air-emitted sky infrared)
 FROST_ALBEDO_MAX = 0.85
 FROST_EMISSIVITY_NORTH = 0.95
 FROST_EMISSIVITY_SOUTH = 0.9
@@ -320,7 +320,7 @@ def prepare_forcing(cells, clock, options=ForcingOptions()):
     supply = options.water_supply if options.water_supply is not None else default_climatology()
     eps = MOLAR_MASS_WATER / planet.molar_mass_air_kg_mol
     settings = dataclasses.replace(options.water, sol_s=planet.sol_s, steps_per_sol=int(clock.steps_per_sol),
-                                   lapse_rate_k_m=options.lapse_rate_k_m,
+                                   lapse_rate_k_m=options.lapse_rate_k_m, co2_emissivity_610=options.co2_emissivity,
                                    constant_mixing_ratio=-1.0 if supply.vmr is None else supply.vmr * eps)
     column = prepare_column(energy, settings, cells.porosity, gravity=planet.gravity_m_s2,
                             molar_mass_air=planet.molar_mass_air_kg_mol, monolayer_kg_m3=capacity)

@@ -19,7 +19,10 @@ Method
   beam reaches the ground as isotropic sky light,
   ``D_h = f_d F mu0 (1 - exp(-tau / mu0))``; ``f_d = 0.5`` (half of the
   scattered light goes down, conservative single scattering) is common
-  practice.  A slope sees the fraction ``(1 + cos beta) / 2`` of an isotropic
+  practice.  (The coupled Mars column, :mod:`wetcycle.forcing.column`, replaces this rule
+  with the delta-Eddington dust layer of :mod:`wetcycle.forcing.scattering`, which puts
+  most of the forward-scattered light on the ground; the rule remains for the dry reference
+  kernel and its tests.)  A slope sees the fraction ``(1 + cos beta) / 2`` of an isotropic
   sky and ``(1 - cos beta) / 2`` of the surrounding flat ground, which
   reflects the global horizontal flux with the local albedo (isotropic-sky
   transposition of Liu, B. Y. H. and Jordan, R. C. (1960), "The
