@@ -396,7 +396,8 @@ def figure(landers, caps_points, summary, transect, path):
     for salt, s in summary.items():
         d.plot(lat, 100 * s["by_lat"], marker=".", label=salt)
     d.axhline(2.0, color="k", ls="--", lw=0.8)
-    d.text(-85, 2.2, "'a few %' (Rivera-Valentin 2020)", fontsize=7)
+    d.set_ylim(top=max(d.get_ylim()[1], 2.6))
+    d.text(-85, 2.15, "'a few %' (Rivera-Valentin 2020)", fontsize=7)
     d.set(xlabel="latitude [deg]", ylabel="liquid brine [% of the year]", title="Pole-to-pole transect, default settings")
     d.legend(fontsize=7)
     fig.suptitle("wetcycle against published observations (scripts/validate_mars.py)")

@@ -145,7 +145,7 @@ def test_scenario_errors_are_one_line(tmp_path):
 
 
 def test_cli_bad_scenario_exit_2_and_nothing_written(tmp_path, capsys):
-    text = DEMO.read_text().replace("latitude = 42.0", "latitude = 142.0")
+    text = DEMO.read_text().replace("latitude = 58.0", "latitude = 142.0")
     p = tmp_path / "bad.toml"
     p.write_text(text)
     code = cli.main(["run", str(p), "-o", str(tmp_path / "out.nc"), "-q"])

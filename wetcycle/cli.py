@@ -162,7 +162,7 @@ def cmd_run(args):
 def cmd_demo(args):
     """The built-in demo: the demo scenario (invented site), then its table."""
     path, output = _demo_path()
-    print(f"wetcycle demo: {path.name}, one Mars year at an invented mid-latitude site\n")
+    print(f"wetcycle demo: {path.name}, one Mars year at an invented high-latitude site\n")
     return cmd_run(argparse.Namespace(scenario=path, output=output, quiet=args.quiet, workers=1, fresh=False))
 
 
