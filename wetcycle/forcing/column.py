@@ -130,7 +130,8 @@ _C_IN = 31                                       # N_IN rows, this step's inputs
  _C_WTOP, _C_G0V, _C_RA0, _C_FS, _C_FSKEEP, _C_XAKEEP, _C_TAKE, _C_DONE, _C_BAD, _C_FOG,
  _C_PWI, _C_PWJ, _C_PSI, _C_PKI, _C_PSJ, _C_PKJ, _C_PTI, _C_PTJ) = range(36, 76)
 _C_HAIR = 76                                     # this step's air-node depth [m]
-_C_OUT = 77                                      # len(OUTPUTS) rows, this step's outputs
+_C_ECO2 = 77                                     # this step's CO2 band emissivity [-]
+_C_OUT = 78                                      # len(OUTPUTS) rows, this step's outputs
 _N_CW = _C_OUT + len(OUTPUTS)
 #: thermal node rows: temperature, the elimination factors, the upward sweep's e
 _T_T, _T_FA, _T_FD, _T_FF, _T_FG, _T_E = range(6)
@@ -463,6 +464,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 tair = tmn + w_co2 * (cw[_C_ATM + A_TAIR, c] - tmn)
                 ta4 = tair * tair
                 ec = min(eco2_610 * math.sqrt(cw[_C_IN + IN_PRESSURE, c] * (1.0 / 610.0)), 0.99)
+                cw[_C_ECO2, c] = ec
                 ld = ec * sigma * ta4 * ta4 + (cw[_C_IN + IN_EPS_ATM, c] - ec) * sigma * t4 * t4
                 cw[_C_LDW, c] = ld
                 s_abs = (1.0 - alb) * sww + eps * ld * cw[_C_CELLP + 8, c]
@@ -548,7 +550,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 # emission up (eps_a sigma T_atm^4) and down (the sky infrared of this step, whose
                 # CO2 part the near-surface air emits at its temperature)
                 t3 = tatm * tatm * tatm
-                ec = min(eco2_610 * math.sqrt(p * (1.0 / 610.0)), 0.99)
+                ec = cw[_C_ECO2, c]
                 tatm_new = tatm + dt * (e_in - ea * sigma * t3 * tatm - cw[_C_LDW, c]) / (
                     cp * p / g + dt * 4.0 * (2.0 * ea - ec) * sigma * t3)
                 cw[_C_ATM + A_TATM, c] = max(tatm_new, tf if tf > 0.0 else 100.0)

@@ -98,8 +98,8 @@ def layer_constants(omega, g):
 def diffuse_layer_kernel(e, g1, g2, k):
     """Diffuse reflectance and transmittance ``(r_d, t_d)`` of the layer, ``e = exp(-k tau')``."""
     a = g1 + k
-    det = g2 * g2 * e * e - a * a
-    return g2 * a * (e * e - 1.0) / det, e * (g2 * g2 - a * a) / det
+    idet = 1.0 / (g2 * g2 * e * e - a * a)
+    return g2 * a * (e * e - 1.0) * idet, e * (g2 * g2 - a * a) * idet
 
 
 @njit(cache=True, fastmath=True, error_model="numpy", inline="always")
@@ -115,15 +115,15 @@ def beam_layer_kernel(mu0, t_dir, e, w, gp, g1, g2, k):
     g4 = 1.0 - g3
     im = 1.0 / m
     # particular solution (Z1 up, Z2 down) of the beam source, per unit flux normal to the beam
-    dp = im * im - k * k
-    z1 = w * ((im - g1) * g3 - g2 * g4) / dp
-    z2 = w * (-(g1 + im) * g4 - g2 * g3) / dp
+    wdp = w / (im * im - k * k)
+    z1 = ((im - g1) * g3 - g2 * g4) * wdp
+    z2 = (-(g1 + im) * g4 - g2 * g3) * wdp
     # homogeneous parts C1 (g1 + k, g2) exp(-k (tau' - t)) + C2 (g2, g1 + k) exp(-k t):
     # no diffuse light down at the top, none up at the (black) bottom
     a = g1 + k
-    det = g2 * g2 * e * e - a * a
-    c1 = (a * z1 * t_dir - g2 * e * z2) / det
-    c2 = (a * z2 - g2 * e * z1 * t_dir) / det
+    idet = 1.0 / (g2 * g2 * e * e - a * a)
+    c1 = (a * z1 * t_dir - g2 * e * z2) * idet
+    c2 = (a * z2 - g2 * e * z1 * t_dir) * idet
     refl = c1 * a * e + c2 * g2 + z1
     tdif = c1 * g2 + c2 * a * e + z2 * t_dir
     return refl * im, tdif * im
