@@ -136,3 +136,20 @@ def test_refuses_values_outside_validity():
         layer_constants(0.9, 1.0)
     with pytest.raises(ConfigError, match="negative light"):
         layer_constants(0.2, 0.0)
+
+
+def test_scenario_fields_reach_the_column_and_bad_pairs_are_refused():
+    # [forcing] dust_single_scattering_albedo and dust_asymmetry are carried to the column's
+    # settings; a pair outside the Eddington closure's validity is one line naming the field
+    from test_forcing_config import DEMO, _doc
+    from wetcycle.config import scenario_from_dict
+    from wetcycle.runner import energy_balance_options
+    sc = scenario_from_dict(_doc(dust_single_scattering_albedo=0.9, dust_asymmetry=0.6), base_dir=DEMO.parent,
+                            source="t.toml")
+    opts, _ = energy_balance_options(sc)
+    assert (opts.water.dust_omega, opts.water.dust_asymmetry) == (0.9, 0.6)
+    sc = scenario_from_dict(_doc(dust_single_scattering_albedo=0.3, dust_asymmetry=0.9), base_dir=DEMO.parent,
+                            source="t.toml")
+    with pytest.raises(ConfigError, match="t.toml: forcing.dust_single_scattering_albedo") as exc:
+        energy_balance_options(sc)
+    assert "\n" not in str(exc.value)
