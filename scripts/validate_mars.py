@@ -143,6 +143,13 @@ def lander_rows(ds):
         rows.append((f"Gale ground temperature, Ls {lo}-{hi}", f"{omin}-{omax} K",
                      "REMS daily records, MY32 (open data)", f"{tmin:.0f}-{tmax:.0f} K", "daily min/max, sol mean",
                      abs(tmin - omin) <= 8 and abs(tmax - omax) <= 8, "8 K"))
+    # the sky's infrared at Gale in the clear season: the rover's surface energy budget (Martinez et
+    # al. 2021, JGR Planets 126, e2020JE006804: numbers recalled, not read), +-30 % for the model-data
+    # gap published at Jezero (Martinez et al. 2023, read)
+    lmin, lmax = _sol_stats(ds, "downwelling_longwave", g, 72, 112)
+    rows.append(("Gale sky infrared at the ground, night / noon", "20-35 / 40-60 W m-2",
+                 "Martinez et al. 2021 (recalled)", f"{lmin:.0f} / {lmax:.0f} W m-2", "Ls 72-112, daily min/max",
+                 14 <= lmin <= 45 and 28 <= lmax <= 78, "30 %"))
     pg = ds["surface_pressure"].isel(site=g).values
     rows.append(("Gale surface pressure, annual min / max", "735 / 924 Pa", "rover team's daily reports, MY32 (open data)",
                  f"{pg.min():.0f} / {pg.max():.0f} Pa", "site elevation -4.4 km",
