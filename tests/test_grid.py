@@ -122,6 +122,18 @@ def test_local_cluster_binds_localhost_only_and_serves_no_dashboard():
         grid._close(client, cluster)
 
 
+def test_local_cluster_workers_keep_freed_memory_for_reuse():
+    # dask's default MALLOC_TRIM_THRESHOLD_ of 64 KiB makes glibc map and page-fault every array over
+    # 128 KiB afresh (a third more CPU time per tile, README "Performance"): the local workers start
+    # with wetcycle's settings instead (glibc's environment variables: mallopt(3), common practice).
+    client, cluster = grid.dask_client(None, 1)
+    try:
+        seen = client.run(lambda: {k: os.environ.get(k) for k in grid.WORKER_MALLOC_ENV})
+        assert list(seen.values()) == [{k: str(v) for k, v in grid.WORKER_MALLOC_ENV.items()}]
+    finally:
+        grid._close(client, cluster)
+
+
 def _write_toml(doc, path):
     lines = []
     for table, body in doc.items():
