@@ -106,6 +106,21 @@ def test_clock_invariants(steps, n_sols, ls, lon):
         c.time_s[0] = 1.0  # read-only arrays
 
 
+@settings(max_examples=20, deadline=None)
+@given(i0=st.integers(0, 200), n=st.integers(0, 150), lon=st.lists(st.floats(-180.0, 360.0), min_size=1, max_size=5))
+def test_local_times_slices_equal_the_whole(i0, n, lon):
+    # Invariant, no outside source (the whole series is checked against orbit's functions above):
+    # the on-demand local times a streamed run slices by blocks equal the whole series bit for bit.
+    c = make_clock("mars", steps_per_sol=48, n_sols=4, start_ls=100.0, year=35)
+    whole = c.local_true_solar_time(np.array(lon))
+    lt = c.local_times(lon)
+    assert lt.shape == whole.shape and len(lt) == c.n_steps
+    np.testing.assert_array_equal(lt[i0:i0 + n], whole[i0:i0 + n])
+    np.testing.assert_array_equal(np.asarray(lt), whole)
+    with pytest.raises(TypeError, match="slice"):
+        lt[[0, 2]]
+
+
 def test_clock_series_equal_single_functions():
     # Consistency, no outside source (orbit's outside checks are in test_orbit.py): the clock's
     # one-pass series must equal the single-quantity functions exactly (same formulas), so no

@@ -56,7 +56,7 @@ class ForcingSource:
     time_s: np.ndarray
     sol: np.ndarray
     ls_deg: np.ndarray
-    ltst_h: np.ndarray
+    ltst_h: np.ndarray     # [step, site]; or a clock.LocalTimes, sliced by the blocks
     years: float
     steps_per_sol: int
     blocks: object
@@ -117,7 +117,7 @@ def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None, sa
                 relative_humidity=rh, relative_humidity_ice=rhi, surface_pressure=P,
                 water_frost=np.zeros_like(T) if frost is None else frost, co2_frost=np.zeros_like(T))
     lon = _sites(sc)("longitude")
-    ltst = clock.local_true_solar_time(lon)
+    ltst = clock.local_times(lon)     # each block's own steps, computed as they stream
     spd = clock.steps_per_sol
 
     def blocks():
@@ -218,7 +218,7 @@ def _energy_source(sc, clock, planet, progress):
         info.update(spinup_years=su.years, spinup_converged=bool(su.converged))
     else:
         state = driver.initial_state(model, clock)
-    ltst = clock.local_true_solar_time(g("longitude"))
+    ltst = clock.local_times(g("longitude"))     # each block's own steps, computed as they stream
 
     def blocks():
         for i0, _, out in driver.iter_forcing(model, state, clock):
