@@ -130,6 +130,11 @@ def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None, sa
                          spd, blocks(), {"forcing": "series"})
 
 
+#: Sols of energy-balance forcing computed per call of the forcing driver in a run (the phase
+#: model still receives one sol at a time): memory ~ 19 arrays x steps x cells x 8 bytes.
+FORCING_BLOCK_SOLS = 10
+
+
 def energy_balance_options(sc):
     """The forcing options and their description for an energy-balance scenario.
 
@@ -220,11 +225,17 @@ def _energy_source(sc, clock, planet, progress):
         state = driver.initial_state(model, clock)
     ltst = clock.local_times(g("longitude"))     # each block's own steps, computed as they stream
 
+    spd = clock.steps_per_sol
+
     def blocks():
-        for i0, _, out in driver.iter_forcing(model, state, clock):
-            i1 = i0 + out["surface_temperature"].shape[0]
-            yield Block(i0, i1, {k: out[k] for k in FORCING_KEYS + WATER_CYCLE_KEYS},
-                        clock.ls_deg[i0:i1], ltst[i0:i1], np.full(i1 - i0, clock.dt_s))
+        # the forcing in blocks of FORCING_BLOCK_SOLS sols (its Python set-up paid once per block;
+        # the kernel's numbers do not depend on where blocks are cut), handed on one sol at a time
+        for b0, _, out in driver.iter_forcing(model, state, clock, FORCING_BLOCK_SOLS * spd):
+            n = out["surface_temperature"].shape[0]
+            for j0 in range(0, n, spd):
+                i0, i1 = b0 + j0, b0 + min(j0 + spd, n)
+                yield Block(i0, i1, {k: out[k][j0:j0 + spd] for k in FORCING_KEYS + WATER_CYCLE_KEYS},
+                            clock.ls_deg[i0:i1], ltst[i0:i1], np.full(i1 - i0, clock.dt_s))
     years = clock.n_steps * clock.dt_s / (planet.year_sols * planet.sol_s)
     return ForcingSource(clock.n_steps, clock.time_s, clock.sol, clock.ls_deg, ltst, years,
                          clock.steps_per_sol, blocks(), info)
