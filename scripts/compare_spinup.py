@@ -11,7 +11,9 @@ own step; YEARS replaces ``spinup_max_years``, ``*`` keeps the scenario's).  ``-
 grid benchmark's settings (uniform albedo 0.22, thermal inertia 250, elevation -2000 m, 48 steps
 per sol, three salts, equilibrium law, spin-up of exactly YEARS years as grid tiles do) at
 latitudes 89 S to 89 N; ``--reference N`` adds a full-step spin-up of exactly N years (no early
-stop) as the yardstick of a periodic state.  Printed per site, between a variant and the base (or the reference): the
+stop) as the yardstick of a periodic state.  ``--cache DIR`` keeps the base and reference runs as
+NetCDF files in DIR (named by scenario and setting) and reuses them on the next call;
+``--no-base`` compares the variants with the reference only.  Printed per site, between a variant and the base (or the reference): the
 largest change over the counted year of the daily minimum and maximum surface temperature [K]
 (and on how many sols it exceeds 1 K), the first and last sol with CO2 frost (at any step), the
 largest |ln| ratio of the daily-mean vapour pressure at the salt, and per salt the hours of
@@ -42,7 +44,8 @@ def cells_doc():
     return doc
 
 
-def run(doc, source, steps, years, settle, fixed):
+def run(doc, source, steps, years, settle, fixed, cache=None):
+    import xarray as xr
     from wetcycle.config import scenario_from_dict
     from wetcycle.runner import run as run_scenario
     d = copy.deepcopy(doc)
@@ -56,9 +59,21 @@ def run(doc, source, steps, years, settle, fixed):
     if fixed:
         c["spinup_tolerance_K"] = 1e-4
     sc = scenario_from_dict(d, source=source, base_dir=str(Path(source).parent))
+    path = None
+    if cache is not None:
+        path = Path(cache) / f"{Path(source).stem}_{steps}_{years}_{settle}_{int(fixed)}.nc"
+        if path.exists():
+            with xr.open_dataset(path) as ds:
+                return ds.load(), float(ds.attrs["compare_cpu_s"])
     t0 = time.process_time()
     ds = run_scenario(sc, write=False)
-    return ds, time.process_time() - t0
+    cpu = time.process_time() - t0
+    if path is not None:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        keep = ds[["surface_temperature", "co2_frost", "vapor_pressure", "liquid_hours"]]
+        keep.attrs.update(ds.attrs, compare_cpu_s=cpu)
+        keep.to_netcdf(path)
+    return ds, cpu
 
 
 def daily(ds, name, how):
@@ -97,6 +112,8 @@ def main():
     ap.add_argument("--cells", action="store_true", help="the benchmark's cells at 16 latitudes")
     ap.add_argument("--variants", nargs="+", default=["12:2:30", "12:4:300"], help="STEPS:YEARS[:SETTLE]")
     ap.add_argument("--reference", type=int, default=0, help="also a full-step spin-up of this many years")
+    ap.add_argument("--cache", help="folder keeping the base and reference runs for the next call")
+    ap.add_argument("--no-base", action="store_true", help="compare the variants with the reference only")
     a = ap.parse_args()
     jobs = [(tomllib.loads(Path(p).read_text()), str(Path(p).resolve()), False) for p in a.scenarios]
     if a.cells:
@@ -105,20 +122,24 @@ def main():
         print(f"{Path(source).name}: {len(doc['site'])} sites, {doc['clock'].get('steps_per_sol')} steps per sol, "
               f"spin-up up to {doc['clock'].get('spinup_max_years')} years"
               + (" (exactly, as grid tiles)" if fixed else " (to the scenario's tolerance)"), flush=True)
-        base, tb = run(doc, source, 0, None, None, fixed)
-        print(f"  base (spin-up at the run's step): {tb:.0f} CPU-s, {base.attrs['spinup_years']} spin-up years", flush=True)
-        ref = None
+        base = ref = None
+        if not a.no_base:
+            base, tb = run(doc, source, 0, None, None, fixed, a.cache)
+            print(f"  base (spin-up at the run's step): {tb:.0f} CPU-s, {base.attrs['spinup_years']} spin-up years",
+                  flush=True)
         if a.reference:
-            ref, tr = run(doc, source, 0, a.reference, None, True)
+            ref, tr = run(doc, source, 0, a.reference, None, True, a.cache)
             print(f"  reference ({a.reference} full-step years): {tr:.0f} CPU-s", flush=True)
-            compare(base, ref, "base vs reference (a / b)")
+            if base is not None:
+                compare(base, ref, "base vs reference (a / b)")
         for v in a.variants:
             parts = v.split(":")
             steps, years = int(parts[0]), (None if parts[1] == "*" else int(parts[1]))
             settle = int(parts[2]) if len(parts) > 2 else None
             ds, tv = run(doc, source, steps, years, settle, fixed)
             print(f"  variant {v}: {tv:.0f} CPU-s, {ds.attrs['spinup_years']} spin-up years", flush=True)
-            compare(ds, base, f"variant {v} vs base (a / b)")
+            if base is not None:
+                compare(ds, base, f"variant {v} vs base (a / b)")
             if ref is not None:
                 compare(ds, ref, f"variant {v} vs reference (a / b)")
 
