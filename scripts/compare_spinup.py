@@ -2,12 +2,13 @@
 
     python scripts/compare_spinup.py runs/demo.toml runs/validation/landers.toml runs/validation/caps.toml
     python scripts/compare_spinup.py --cells            # the benchmark's cells at 15 latitudes
-    python scripts/compare_spinup.py --cells --reference 10 --variants 0:2 12:2:30 12:4:300
+    python scripts/compare_spinup.py --cells --reference 10 --variants 12:4:300 12:3:200:profile
 
 Each scenario is run (no file written) with its own spin-up (``clock.spinup_steps_per_sol = 0``,
-every year at the run's step) and with each variant ``STEPS:YEARS[:SETTLE]`` (spin-up years at
+every year at the run's step) and with each variant ``STEPS:YEARS[:SETTLE[:SHIFT]]`` (spin-up years at
 STEPS steps per sol with backward Euler, then SETTLE sols at the run's step; STEPS 0 = the run's
-own step; YEARS replaces ``spinup_max_years``, ``*`` keeps the scenario's).  ``--cells`` builds a site scenario from the
+own step; YEARS replaces ``spinup_max_years``, ``*`` keeps the scenario's; SHIFT sets
+``clock.spinup_shift``, bottom or profile).  ``--cells`` builds a site scenario from the
 grid benchmark's settings (uniform albedo 0.22, thermal inertia 250, elevation -2000 m, 48 steps
 per sol, three salts, equilibrium law, spin-up of exactly YEARS years as grid tiles do) at
 latitudes 89 S to 89 N; ``--reference N`` adds a full-step spin-up of exactly N years (no early
@@ -44,7 +45,7 @@ def cells_doc():
     return doc
 
 
-def run(doc, source, steps, years, settle, fixed, cache=None):
+def run(doc, source, steps, years, settle, fixed, cache=None, shift=None):
     import xarray as xr
     from wetcycle.config import scenario_from_dict
     from wetcycle.runner import run as run_scenario
@@ -58,6 +59,8 @@ def run(doc, source, steps, years, settle, fixed, cache=None):
         c["spinup_max_years"] = years
     if fixed:
         c["spinup_tolerance_K"] = 1e-4
+    if shift is not None:
+        c["spinup_shift"] = shift
     sc = scenario_from_dict(d, source=source, base_dir=str(Path(source).parent))
     path = None
     if cache is not None:
@@ -110,7 +113,8 @@ def main():
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument("scenarios", nargs="*")
     ap.add_argument("--cells", action="store_true", help="the benchmark's cells at 16 latitudes")
-    ap.add_argument("--variants", nargs="+", default=["12:2:30", "12:4:300"], help="STEPS:YEARS[:SETTLE]")
+    ap.add_argument("--variants", nargs="+", default=["12:4:300", "12:3:200:profile"],
+                    help="STEPS:YEARS[:SETTLE[:SHIFT]]")
     ap.add_argument("--reference", type=int, default=0, help="also a full-step spin-up of this many years")
     ap.add_argument("--cache", help="folder keeping the base and reference runs for the next call")
     ap.add_argument("--no-base", action="store_true", help="compare the variants with the reference only")
@@ -135,8 +139,9 @@ def main():
         for v in a.variants:
             parts = v.split(":")
             steps, years = int(parts[0]), (None if parts[1] == "*" else int(parts[1]))
-            settle = int(parts[2]) if len(parts) > 2 else None
-            ds, tv = run(doc, source, steps, years, settle, fixed)
+            settle = int(parts[2]) if len(parts) > 2 and parts[2] else None
+            shift = parts[3] if len(parts) > 3 else None
+            ds, tv = run(doc, source, steps, years, settle, fixed, shift=shift)
             print(f"  variant {v}: {tv:.0f} CPU-s, {ds.attrs['spinup_years']} spin-up years", flush=True)
             if base is not None:
                 compare(ds, base, f"variant {v} vs base (a / b)")

@@ -100,6 +100,13 @@ def test_backward_euler_has_no_zigzag_step_limit():
     assert np.isfinite(largest_time_step(m.energy.columns, cells.emissivity, theta=0.5)).all()
 
 
+def test_unknown_spinup_shift_is_one_clear_error():
+    doc = _doc()
+    doc["clock"]["spinup_shift"] = "middle"
+    with pytest.raises(ConfigError, match=r"clock.spinup_shift: 'middle' is not allowed; allowed: bottom, profile"):
+        scenario_from_dict(doc)
+
+
 def test_spinup_steps_per_sol_above_the_run_step_is_one_clear_error():
     doc = _doc()
     doc["clock"].update(steps_per_sol=24, spinup_steps_per_sol=48)

@@ -34,6 +34,9 @@ ENERGY_BALANCE_FIELDS = ("dust_optical_depth", "water_column", "water_column_var
 REQUIRED = object()
 NUM = (int, float)
 
+#: Allowed ``clock.spinup_shift`` values (see :func:`wetcycle.forcing.driver.spin_up`, ``accelerate``).
+SPINUP_SHIFTS = ("bottom", "profile")
+
 SCHEMA = {
     "scenario": {
         "name": (str, REQUIRED, None, None, "a short name"),
@@ -55,6 +58,8 @@ SCHEMA = {
                                  "fewer (backward Euler), then spinup_settle_sols at the run's step"),
         "spinup_settle_sols": (int, 300, 1, 668, "sols before the start run again at the run's step after a "
                                "spin-up at fewer steps"),
+        "spinup_shift": (str, "bottom", None, None, "after each spin-up year the ground profile moves by the bottom "
+                         "node's offset (bottom) or node by node onto its periodic-state mean (profile)"),
     },
     "site": {
         "name": (str, REQUIRED, None, None, ""),
@@ -388,6 +393,9 @@ def scenario_from_dict(doc, *, text="", base_dir=".", source="scenario"):
         raise ConfigError(f"{source}: clock.spinup_steps_per_sol: {c['spinup_steps_per_sol']} is more than "
                           f"steps_per_sol ({c['steps_per_sol']}); allowed 0 (the run's own step) or 1 to "
                           f"{c['steps_per_sol']}")
+    if c["spinup_shift"] not in SPINUP_SHIFTS:
+        raise ConfigError(f"{source}: clock.spinup_shift: {shown(c['spinup_shift'])} is not allowed; allowed: "
+                          f"{', '.join(SPINUP_SHIFTS)}")
     if tables["clock"]["spinup_max_years"] == 1:
         raise ConfigError(f"{source}: clock.spinup_max_years: 1 is not allowed; 0 (no spin-up) or 2-60 "
                           "(periodicity needs two years to compare)")

@@ -190,12 +190,15 @@ PER_YEAR = ("liquid_hours_per_year", "liquid_water_hours_per_year", "habitable_h
 
 def spinup_attrs(sc):
     """Global attributes of an energy-balance spin-up's discretisation (the steps per sol of its
-    years and, when fewer than the run's, the sols run again at the run's step)."""
+    years and, when fewer than the run's, the sols run again at the run's step; the profile shift
+    when not the default)."""
     c = sc["clock"]
     n = int(c["spinup_steps_per_sol"]) or int(c["steps_per_sol"])
     out = {"spinup_steps_per_sol": n}
     if n < int(c["steps_per_sol"]):
         out["spinup_settle_sols"] = int(c["spinup_settle_sols"])
+    if c.get("spinup_shift", "bottom") != "bottom":
+        out["spinup_shift"] = str(c["spinup_shift"])
     return out
 
 

@@ -218,7 +218,8 @@ def _energy_source(sc, clock, planet, progress):
                   flush=True)
         su = driver.spin_up(model, clock, tol_k=c["spinup_tolerance_K"], max_years=c["spinup_max_years"],
                             coarse_steps_per_sol=c["spinup_steps_per_sol"] or None,
-                            settle_sols=c["spinup_settle_sols"])
+                            settle_sols=c["spinup_settle_sols"],
+                            accelerate="profile" if c["spinup_shift"] == "profile" else True)
         state = su.state
         info.update(spinup_years=su.years, spinup_converged=bool(su.converged))
     else:
