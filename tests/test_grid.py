@@ -77,6 +77,15 @@ def test_statistics_do_not_depend_on_tiling(tmp_path, reference, chunk_cells):
     same(run_grid(scenario_from_dict(grid_doc(tmp_path, chunk_cells=chunk_cells))), reference)
 
 
+def test_statistics_do_not_depend_on_the_run_blocks(tmp_path, reference, monkeypatch):
+    # invariant: the forcing and the phase model stream a run in blocks of FORCING_BLOCK_SOLS sols
+    # (here one sol per block against the reference's one block of 3 sols); every statistic,
+    # the summed water fluxes included, is bitwise the same
+    from wetcycle import runner
+    monkeypatch.setattr(runner, "FORCING_BLOCK_SOLS", 1)
+    same(run_grid(scenario_from_dict(grid_doc(tmp_path, chunk_cells=9))), reference)
+
+
 def test_coarse_spinup_keeps_tile_independence(tmp_path, reference):
     # spin-up years at 6 steps per sol (backward Euler) and 5 settling sols at the run's 24: still
     # bitwise-identical statistics whatever the tiling (one cell per tile against 9), and not the

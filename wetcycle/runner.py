@@ -130,8 +130,8 @@ def _series_source(sc, clock, planet, T, e=None, rh=None, P=None, years=None, sa
                          spd, blocks(), {"forcing": "series"})
 
 
-#: Sols of energy-balance forcing computed per call of the forcing driver in a run (the phase
-#: model still receives one sol at a time): memory ~ 19 arrays x steps x cells x 8 bytes.
+#: Sols of energy-balance forcing per block of a run (one call of the forcing driver, then of the
+#: phase model per salt): memory ~ (19 forcing + 8 per salt) arrays x steps x cells x 8 bytes.
 FORCING_BLOCK_SOLS = 10
 
 
@@ -229,14 +229,12 @@ def _energy_source(sc, clock, planet, progress):
     spd = clock.steps_per_sol
 
     def blocks():
-        # the forcing in blocks of FORCING_BLOCK_SOLS sols (its Python set-up paid once per block;
-        # the kernel's numbers do not depend on where blocks are cut), handed on one sol at a time
-        for b0, _, out in driver.iter_forcing(model, state, clock, FORCING_BLOCK_SOLS * spd):
-            n = out["surface_temperature"].shape[0]
-            for j0 in range(0, n, spd):
-                i0, i1 = b0 + j0, b0 + min(j0 + spd, n)
-                yield Block(i0, i1, {k: out[k][j0:j0 + spd] for k in FORCING_KEYS + WATER_CYCLE_KEYS},
-                            clock.ls_deg[i0:i1], ltst[i0:i1], np.full(i1 - i0, clock.dt_s))
+        # blocks of FORCING_BLOCK_SOLS sols: the Python set-up of the forcing driver and of the phase
+        # model is paid once per block (neither kernel's numbers depend on where blocks are cut)
+        for i0, _, out in driver.iter_forcing(model, state, clock, FORCING_BLOCK_SOLS * spd):
+            i1 = i0 + out["surface_temperature"].shape[0]
+            yield Block(i0, i1, {k: out[k] for k in FORCING_KEYS + WATER_CYCLE_KEYS},
+                        clock.ls_deg[i0:i1], ltst[i0:i1], np.full(i1 - i0, clock.dt_s))
     years = clock.n_steps * clock.dt_s / (planet.year_sols * planet.sol_s)
     return ForcingSource(clock.n_steps, clock.time_s, clock.sol, clock.ls_deg, ltst, years,
                          clock.steps_per_sol, blocks(), info)
@@ -514,13 +512,16 @@ def statistics(sc, tables=None, timings=None):
     return stats, src
 
 
-def _sum_steps(a):
-    """Sum of a [step, cell] block over its steps, each cell's steps added in order.
+def _sum_steps(total, a):
+    """``total`` [cell] plus the sum of a [step, cell] block over its steps, each cell's steps added
+    in order after its total (so the result does not depend on where a run's blocks are cut).
 
     ``a.sum(axis=0)`` is not: NumPy sums pairwise along a contiguous axis, so a block of one cell
     and a block of many would round differently, and a cell's result would depend on its tile.
     """
-    return np.cumsum(a, axis=0)[-1] if a.shape[0] else np.zeros(a.shape[1:])
+    if not a.shape[0]:
+        return total
+    return np.cumsum(np.concatenate([np.asarray(total, dtype=float)[None], a]), axis=0)[-1]
 
 
 def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
@@ -563,7 +564,7 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
         frost = d["water_frost"] if ph["frost_contact"] else np.zeros_like(d["water_frost"])
         if water_cycle:
             supply = np.maximum(d["surface_water_flux"], 0.0)
-            delivered += _sum_steps(supply)
+            delivered = _sum_steps(delivered, supply)
             available = supply + np.concatenate([last_frost[None, :], frost[:-1]])
             last_frost = frost[-1].copy()
         for j, (m, acc) in enumerate(zip(models, accs)):
@@ -578,7 +579,7 @@ def simulate(sc, src, models, *, keep_series, progress=False, timings=None):
                             ion_molality=mix)
             if water_cycle:
                 gain = np.maximum(r.exchanged, 0.0)
-                uptake[j] += _sum_steps(gain)
+                uptake[j] = _sum_steps(uptake[j], gain)
                 exceed[j] += np.sum(gain > available * (1.0 + 1e-9) + 1e-15, axis=0)
             if keep:
                 # site files store float32, except the water exchanged (float64: the water balance
