@@ -103,7 +103,7 @@ def test_profile_shift_reaches_the_same_periodic_state(year):
     # The same periodic state (common practice, as above) when each deep node is moved onto the
     # periodic-state mean profile after each year instead of the whole profile by the bottom's
     # offset (spin_up(accelerate="profile")); 0.2 K for the same reason.  It gets there no later
-    # than the uniform shift (7 years against 8 seen; the full-step spin-up took 9)
+    # than the uniform shift (6 years against 8 seen; the full-step spin-up took 8)
     model, su = _coarse_spin_up(year[0], accelerate="profile")
     _same_periodic_state(year, model, su)
     _, uniform = _coarse_spin_up(year[0])

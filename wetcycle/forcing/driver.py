@@ -596,8 +596,8 @@ def spin_up(model, clock, state=None, *, tol_k=0.1, max_years=30, lead_sols=5,
     of the year's blocks), and the nodes above by the first such node's: the part of the profile
     the year has already brought to its mean stays in place, where the uniform shift moves it
     off again by the bottom's offset.  On the grid benchmark's cells (``scripts/compare_spinup.py``,
-    README "Performance") three coarse years so shifted come as close to the periodic state as
-    four with the uniform shift.
+    README "Performance") three coarse years so shifted came as close to the periodic state as
+    four with the uniform shift before the radiation revision, not after it.
 
     With ``coarse_steps_per_sol`` (fewer than the clock's), steps (i) and (ii) run at that
     coarser step with backward Euler for the heat (theta = 1, which damps every mode at any
