@@ -387,14 +387,23 @@ def free_mixing_ratio_kernel(w, p_s, t_s, lapse, g, r_air, eps, qs, pz, wk):
     nz = PROFILE_LEVELS
     expo = g / (r_air * lapse)
     top = nz
+    # in logarithms: one log and two exponentials a level instead of two of each (the renewal is
+    # a third of a coarse spin-up sol's cost); agrees with p_s (T/T_s)^expo and
+    # eps psat_ice_kernel(T) / p within ~1e-14 relative
+    lps = math.log(p_s)
+    lts = math.log(t_s)
+    leps = math.log(eps)
     for k in range(nz):
         tk = t_s - lapse * PROFILE_DZ_M * k
         if tk < PROFILE_T_MIN:
             top = k
             break
-        pk = p_s * (tk / t_s) ** expo
-        pz[k] = pk
-        qs[k] = eps * psat_ice_kernel(tk) / pk
+        lt = math.log(tk)
+        lpk = lps + expo * (lt - lts)
+        pz[k] = math.exp(lpk)
+        # Murphy & Koop (2005) eq. (7), as psat_ice_kernel (NaN above 273.16 K, as there)
+        lq = leps + 9.550426 - 5723.265 / tk + 3.53068 * lt - 0.00728332 * tk - lpk
+        qs[k] = math.exp(lq) if tk <= 273.16 else math.nan
     if top < 2:
         return w * g / p_s, 0.0
     # column consistent with a condensation level at level k (trapezoid in p, top down)
