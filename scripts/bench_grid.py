@@ -137,7 +137,7 @@ def main():
                     help="steps per sol of the spin-up years (0: the run's own; see clock.spinup_steps_per_sol)")
     ap.add_argument("--settle-sols", type=int, default=300, help="clock.spinup_settle_sols")
     ap.add_argument("--shift", default="bottom", choices=("bottom", "profile"), help="clock.spinup_shift")
-    ap.add_argument("--chunk-cells", type=int, default=180, help="cells per tile (default one row of the 2 deg grid)")
+    ap.add_argument("--chunk-cells", type=int, default=512, help="cells per tile (default 512: eight of the column kernel's 64-cell blocks, no padding)")
     ap.add_argument("--workers", type=int, nargs="+", default=[2], help="worker counts to time")
     a = ap.parse_args()
     from wetcycle.grid import run_grid
