@@ -74,18 +74,18 @@ N_ATM = 7
 V_PHI, V_PHI_TAU, V_PORE, V_CAPA, V_CN, V_LOUIS, V_WIND, V_NODES = range(8)
 N_VAP = 8
 #: scalar parameters ``par[...]``
-(P_DT, P_THETA, P_DIFFUSE, P_OMEGA, P_CP, P_RAIR, P_G, P_HAIR, P_TAUAIR, P_SOL, P_HDAY,
- P_HNIGHT, P_TGROW, P_TMIX, P_ZREF, P_TAUNIGHT, P_QCONST, P_LAPSE, P_EPSW, P_SPD, P_TMIXST) = range(21)
-#: CO2 frost albedo law (energy.frost_albedo_law): slope [W-1 m2] and cap [-]
-P_FROST_SLOPE, P_FROST_AMAX = 21, 22
-#: delta-Eddington constants of the dust layer (scattering.layer_constants): omega', g', the
-#: optical-depth scale, gamma_1, gamma_2, k; and the clear CO2 column emissivity at 610 Pa
-P_DE_W, P_DE_G, P_DE_S, P_DE_G1, P_DE_G2, P_DE_K, P_ECO2 = range(23, 30)
-#: share of the air's departure from its sol mean at the CO2 band's emitting height [-]
-P_WCO2 = 30
-#: depth of the air node while the ground is colder than the air (stable, night) [m]
-P_HAIRN = 31
-N_PAR = 32
+(P_DT, P_THETA, P_CP, P_RAIR, P_G, P_HAIR, P_TAUAIR, P_SOL, P_HDAY,
+ P_HNIGHT, P_TGROW, P_TMIX, P_ZREF, P_TAUNIGHT, P_QCONST, P_LAPSE, P_EPSW, P_SPD, P_TMIXST,
+ #: CO2 frost albedo law (energy.frost_albedo_law): slope [W-1 m2] and cap [-]
+ P_FROST_SLOPE, P_FROST_AMAX,
+ #: delta-Eddington constants of the dust layer (scattering.layer_constants): omega', g', the
+ #: optical-depth scale, gamma_1, gamma_2, k; the clear CO2 column emissivity at 610 Pa
+ P_DE_W, P_DE_G, P_DE_S, P_DE_G1, P_DE_G2, P_DE_K, P_ECO2,
+ #: share of the air's departure from its sol mean at the CO2 band's emitting height [-]
+ P_WCO2,
+ #: depth of the air node while the ground is colder than the air (stable, night) [m]
+ P_HAIRN) = range(30)
+N_PAR = 30
 #: rows of the output array ``[row, step, cell]``
 OUTPUTS = ("surface_temperature", "salt_temperature", "co2_frost", "water_frost",
            "vapor_pressure", "surface_vapor_pressure", "air_temperature", "air_vapor_pressure",
@@ -1069,8 +1069,6 @@ def _par(model):
     par = np.empty(N_PAR)
     par[P_DT] = em.factors.dt
     par[P_THETA] = em.factors.theta
-    par[P_DIFFUSE] = 0.0        # (unused: the dust layer's own scattering, below)
-    par[P_OMEGA] = s.dust_omega
     (par[P_DE_W], par[P_DE_G], par[P_DE_S], par[P_DE_G1], par[P_DE_G2],
      par[P_DE_K]) = layer_constants(s.dust_omega, s.dust_asymmetry)
     par[P_ECO2] = s.co2_emissivity_610
