@@ -339,8 +339,8 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
     spd = int(par[P_SPD])
     n_out = len(OUTPUTS)
     tab_top = tabp.shape[0] - 1.0
-    qs_ = np.empty(PROFILE_LEVELS)
-    pz_ = np.empty(PROFILE_LEVELS)
+    lq_ = np.empty(PROFILE_LEVELS)
+    pq_ = np.empty(PROFILE_LEVELS)
     wk_ = np.empty(PROFILE_LEVELS)
     cw = np.zeros((_N_CW, COLUMN_BLOCK))
     tw = np.zeros((nn, _N_TW, COLUMN_BLOCK))
@@ -402,7 +402,7 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                     else:
                         tb = min(max(cw[_C_ATM + A_TMEAN, c], 120.0), 300.0)
                         q0, zc = free_mixing_ratio_kernel(cw[_C_IN + IN_COLUMN, c], cw[_C_IN + IN_PRESSURE, c],
-                                                          tb, lapse, g, r_air, eps_w, qs_, pz_, wk_)
+                                                          tb, lapse, g, r_air, eps_w, lq_, pq_, wk_)
                         cw[_C_ATM + A_QFREE, c] = q0
             # ---- ground heat: upward elimination (regolith.sweep_up on the workspace) ----
             j = nn - 1

@@ -371,66 +371,117 @@ def constant_mixing_ratio_table(vmr):
 # ------------------------------------------------------------------------------------
 # Vertical distribution (numba)
 # ------------------------------------------------------------------------------------
-#: Levels of the background profile used to invert the column: spacing [m] and count.
-PROFILE_DZ_M = 500.0
-PROFILE_LEVELS = 81
+#: Levels of the background profile used to invert the column (equally spaced in ln p from the
+#: ground to the profile's top; integrals between them exact for a power law in p, see
+#: :func:`free_mixing_ratio_kernel`).
+PROFILE_LEVELS = 25
+#: Top of the background profile [m]: 40 km, or lower where the profile reaches PROFILE_T_MIN.
+PROFILE_TOP_M = 40000.0
 #: Lowest temperature of the background profile [K] (Murphy & Koop's ice formula holds to 110 K;
 #: the profile is cut where it would fall below this).
 PROFILE_T_MIN = 115.0
 
 
 @njit(cache=True, nogil=True)
-def free_mixing_ratio_kernel(w, p_s, t_s, lapse, g, r_air, eps, qs, pz, wk):
+def free_mixing_ratio_kernel(w, p_s, t_s, lapse, g, r_air, eps, lq, pq, wk):
     """Scalar kernel: (q0 [kg kg-1], z_c [m]) for column ``w`` [kg m-2], surface pressure
-    ``p_s`` [Pa], background air temperature ``t_s`` [K] (see the module notes).  ``qs``, ``pz``,
-    ``wk`` are scratch arrays of :data:`PROFILE_LEVELS` values."""
+    ``p_s`` [Pa], background air temperature ``t_s`` [K] (see the module notes).  ``lq``, ``pq``
+    (ln q_sat and q_sat at the levels), ``wk`` are scratch arrays of :data:`PROFILE_LEVELS` values.
+
+    Discretisation: PROFILE_LEVELS levels equally spaced in ln p (equivalently in ln T, since
+    p ~ T^(g / (R_d G))) from the ground to the profile's top (PROFILE_TOP_M, or where T falls to
+    PROFILE_T_MIN).  Between two levels q_sat is taken as a power law in p (ln q_sat linear in
+    ln p), whose integral over dp is exact: (q_k p_k - q_k+1 p_k+1) / (1 + alpha); the
+    condensation level is found inside its segment by safeguarded Newton iteration on the column
+    (the same power law).  Against an integration of the continuous profile on a 0.5-m grid the
+    column closes within 1.4e-3 relative (median 5e-5, 95 % within 4e-4, over 941 random columns
+    with a condensation level inside the profile; tests/test_supply.py checks six to 2e-3), where
+    the earlier 81 levels 500 m apart with the trapezoid in p closed within ~1.7e-2 (median 3e-3)
+    at 3.3 times the cost (0.37 against 1.2-1.4 us per call).
+    NaN where the profile is warmer than 273.16 K (as psat_ice_kernel).
+    """
     nz = PROFILE_LEVELS
+    t_top = max(PROFILE_T_MIN, t_s - lapse * PROFILE_TOP_M)
+    if not t_s > t_top:
+        return w * g / p_s, 0.0
     expo = g / (r_air * lapse)
-    top = nz
-    # in logarithms: one log and two exponentials a level instead of two of each (the renewal is
-    # a third of a coarse spin-up sol's cost); agrees with p_s (T/T_s)^expo and
-    # eps psat_ice_kernel(T) / p within ~1e-14 relative
+    d = math.log(t_s / t_top) / (nz - 1)          # ln T step between levels
+    dlp = expo * d                                 # ln p step
+    r = math.exp(-d)
+    ir = 1.0 / r
     lps = math.log(p_s)
     lts = math.log(t_s)
-    leps = math.log(eps)
+    base = math.log(eps) + 9.550426
+    # ln q_sat at each level: Murphy & Koop (2005) eq. (7) for p_ice, over p_k = p_s exp(-k dlp)
+    tk = t_s
+    itk = 1.0 / t_s
     for k in range(nz):
-        tk = t_s - lapse * PROFILE_DZ_M * k
-        if tk < PROFILE_T_MIN:
-            top = k
-            break
-        lt = math.log(tk)
-        lpk = lps + expo * (lt - lts)
-        pz[k] = math.exp(lpk)
-        # Murphy & Koop (2005) eq. (7), as psat_ice_kernel (NaN above 273.16 K, as there)
-        lq = leps + 9.550426 - 5723.265 / tk + 3.53068 * lt - 0.00728332 * tk - lpk
-        qs[k] = math.exp(lq) if tk <= 273.16 else math.nan
-    if top < 2:
-        return w * g / p_s, 0.0
-    # column consistent with a condensation level at level k (trapezoid in p, top down)
+        v = base - 5723.265 * itk + 3.53068 * (lts - d * k) - 0.00728332 * tk - (lps - dlp * k)
+        lq[k] = v if tk <= 273.16 else math.nan
+        tk *= r
+        itk *= ir
+    for k in range(nz):                            # q_sat at each level
+        pq[k] = math.exp(lq[k])
+    # column with the condensation level at level k: q_k (p_s - p_k) + the saturated column above
+    # (pq holds q_k; p_k by recursion downwards from the top)
+    ig = 1.0 / g
+    rpu = math.exp(dlp)
+    pk = math.exp(lps - dlp * (nz - 1))
     sat = 0.0
-    wk[top - 1] = (qs[top - 1] * (p_s - pz[top - 1])) / g
-    for k in range(top - 2, -1, -1):
-        sat += 0.5 * (qs[k] + qs[k + 1]) * (pz[k] - pz[k + 1])
-        wk[k] = (qs[k] * (p_s - pz[k]) + sat) / g
+    wk[nz - 1] = pq[nz - 1] * (p_s - pk) * ig
+    for k in range(nz - 2, -1, -1):
+        pk1 = pk
+        pk = pk1 * rpu
+        sat += (pq[k] * pk - pq[k + 1] * pk1) / (1.0 + (lq[k] - lq[k + 1]) / dlp)
+        wk[k] = (pq[k] * (p_s - pk) + sat) * ig
     if w >= wk[0]:
-        return qs[0], 0.0
-    if w <= wk[top - 1]:
-        return w * g / p_s, PROFILE_DZ_M * (top - 1)
+        return pq[0], 0.0
+    if w <= wk[nz - 1]:
+        return w * g / p_s, (t_s - t_top) / lapse
+    if not w < wk[0]:                               # NaN: the profile is above 273.16 K
+        return math.nan, math.nan
     k = 0
     while wk[k + 1] > w:
         k += 1
-    # interpolate in ln(q_sat) between levels k and k+1 by the column
-    f = (wk[k] - w) / (wk[k] - wk[k + 1])
-    return math.exp((1 - f) * math.log(qs[k]) + f * math.log(qs[k + 1])), PROFILE_DZ_M * (k + f)
+    # inside segment k: x = ln(p_c / p_k) in [-dlp, 0]; column at a condensation level there
+    # F(x) = q_c p_s - q_k p_k e^((1+a) x) a / (1+a) - q_k+1 p_k+1 / (1+a) + S_k+1 - g w, with
+    # q_c = q_k e^(a x), increasing in x: Newton, kept inside a bracket (bisection if it leaves)
+    alpha = (lq[k] - lq[k + 1]) / dlp
+    a1 = 1.0 + alpha
+    qk = pq[k]
+    pk = p_s * math.exp(-dlp * k)
+    qpk = qk * pk
+    qpk1 = pq[k + 1] * pk * math.exp(-dlp)
+    s1 = wk[k + 1] * g - pq[k + 1] * p_s + qpk1           # saturated column above level k+1
+    cst = s1 - qpk1 / a1 - g * w
+    lo, hi = -dlp, 0.0
+    x = -dlp * (wk[k] - w) / (wk[k] - wk[k + 1])
+    for _ in range(60):
+        e1 = math.exp(alpha * x)
+        e2 = e1 * math.exp(x)
+        fx = qk * e1 * p_s - qpk * e2 * alpha / a1 + cst
+        if fx > 0.0:
+            hi = x
+        else:
+            lo = x
+        dfx = alpha * (qk * e1 * p_s - qpk * e2)
+        xn = x - fx / dfx if dfx > 0.0 else 0.5 * (lo + hi)
+        if not (lo < xn < hi):
+            xn = 0.5 * (lo + hi)
+        done = abs(xn - x) <= 1e-14 * dlp
+        x = xn
+        if done:
+            break
+    return qk * math.exp(alpha * x), t_s * (1.0 - math.exp((x - k * dlp) / expo)) / lapse
 
 
 @njit(cache=True, nogil=True)
 def _q0_kernel(w, ps, t0, lapse, g, r_air, eps, q0_out, zc_out):
-    qs = np.empty(PROFILE_LEVELS)
-    pz = np.empty(PROFILE_LEVELS)
+    lq = np.empty(PROFILE_LEVELS)
+    pq = np.empty(PROFILE_LEVELS)
     wk = np.empty(PROFILE_LEVELS)
     for c in range(w.size):
-        q0_out[c], zc_out[c] = free_mixing_ratio_kernel(w[c], ps[c], t0[c], lapse, g, r_air, eps, qs, pz, wk)
+        q0_out[c], zc_out[c] = free_mixing_ratio_kernel(w[c], ps[c], t0[c], lapse, g, r_air, eps, lq, pq, wk)
 
 
 def near_surface_mixing_ratio(column_kg_m2, surface_pressure_pa, temperature_k,
