@@ -419,10 +419,14 @@ def column_kernel(temp, co2, atm, water, fa, fd, ff, fg, cellp, vapp, cv, idzn, 
                 rho = cw[_C_IN + IN_PRESSURE, c] / (r_air * ta)
                 cw[_C_WST, c] = _cube_root(g * cw[_C_ATM + A_DEPTH, c] * hfl / (rho * cp * ta))
             for c in range(cb):        # CO2 frost albedo from the daily-mean insolation (own loop:
-                # acos is a library call, which would keep the next loop from SIMD code)
-                a_fr[c] = frost_albedo_law(cw[_C_CELLP + 11, c], frost_slope, frost_amax,
-                                           daily_mean_insolation(cw[_C_CELLP + 0, c], cw[_C_CELLP + 1, c],
-                                                                 sd, cd, fl))
+                # acos is a library call, which would keep the next loop from SIMD code); read
+                # only where the step starts with CO2 frost, so only there evaluated
+                if cw[_C_CO2, c] > 0.0:
+                    a_fr[c] = frost_albedo_law(cw[_C_CELLP + 11, c], frost_slope, frost_amax,
+                                               daily_mean_insolation(cw[_C_CELLP + 0, c], cw[_C_CELLP + 1, c],
+                                                                     sd, cd, fl))
+                else:
+                    a_fr[c] = 0.0
             for c in range(cb):        # geometry, radiation, turbulence, surface equation
                 slat, clat = cw[_C_CELLP + 0, c], cw[_C_CELLP + 1, c]
                 slon, clon = cw[_C_CELLP + 2, c], cw[_C_CELLP + 3, c]
