@@ -97,6 +97,50 @@ def test_results_do_not_depend_on_chunking_in_wide_blocks():
             np.testing.assert_array_equal(alone[k][:, 0], together[k][:, i], err_msg=f"{k} cell {i}")
 
 
+def test_kernel_cell_order_changes_no_number(monkeypatch):
+    # The column kernel takes a chunk's cells sorted by their number of water-column nodes
+    # (column._cell_order) so that its blocks hold like columns; outputs and the state must be
+    # bit for bit those of the chunk's own order, in the chunk's order (invariant).  Invented
+    # cells with thermal inertias and buried layers that give 12-20 vapour nodes.
+    from wetcycle.forcing import column
+    clock = make_clock("mars", steps_per_sol=48, n_sols=2, start_ls=60.0)
+    rng = np.random.default_rng(11)
+    n = 150
+    cells = dr.make_cells(rng.uniform(-70, 70, n), rng.uniform(0, 360, n),
+                          thermal_inertia=rng.uniform(80, 600, n), albedo=rng.uniform(0.1, 0.3, n),
+                          salt_depth_m=rng.uniform(0, 0.02, n),
+                          layer2_depth_m=np.where(rng.random(n) < 0.3, rng.uniform(0.05, 0.5, n), np.inf))
+    model = dr.prepare_forcing(cells, clock)
+    sorted_model = model.column
+    assert column._blocked(sorted_model)["order"] is not None      # the sorted path is taken
+    monkeypatch.setattr(column, "_cell_order", lambda nodes, cb: None)
+    own_model = dataclasses.replace(model.column)                    # fresh block cache
+    assert column._blocked(own_model)["order"] is None
+    s0 = dr.initial_state(model, clock).column
+    ls = np.asarray(clock.ls_deg[:96])
+    p, tau, eps, tf = dr._atmosphere_inputs(model, ls)
+    w = model.supply.column(ls, cells.latitude_deg, cells.longitude_deg)
+    args = (clock.declination_rad[:96], clock.distance_au[:96], dr._hour_angle0(clock, 0, 96), tau, p, eps, w, tf)
+    st_a, out_a = column.column_block(sorted_model, s0, *args)
+    st_b, out_b = column.column_block(own_model, s0, *args)
+    for k in out_a:
+        np.testing.assert_array_equal(out_a[k], out_b[k], err_msg=k)
+    for f in dataclasses.fields(st_a):
+        np.testing.assert_array_equal(getattr(st_a, f.name), getattr(st_b, f.name), err_msg=f.name)
+
+
+def test_kernel_cell_order_keeps_like_cells_in_place():
+    # Cells that all have the same number of vapour nodes keep their own order (no copies).
+    from wetcycle.forcing.column import _cell_order
+    assert _cell_order(np.full(200, 14.0), 64) is None
+    # two deep columns in each block: sorted, one block holds only shallow ones (32 rows, not 40)
+    nodes = np.array([20.0] * 2 + [12.0] * 100 + [20.0] * 2)
+    order = _cell_order(nodes, 64)
+    np.testing.assert_array_equal(order, np.r_[np.arange(2, 102), 0, 1, 102, 103])   # stable sort
+    # and where sorting saves no row, the chunk's own order
+    assert _cell_order(np.array([20.0] * 3 + [12.0] * 70), 64) is None
+
+
 def test_iter_forcing_covers_the_clock(setup):
     clock, cells, model = setup
     starts = []

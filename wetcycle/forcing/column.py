@@ -1105,6 +1105,52 @@ def _block_width(n_cells):
     return CELL_BLOCK if n_cells <= CELL_BLOCK else COLUMN_BLOCK
 
 
+def _cell_order(nodes, cb):
+    """The order in which the kernel takes a chunk's cells, or None for their own order.
+
+    A block of the kernel solves the water column down to its deepest cell's last node
+    (``V_NODES``), so a block that mixes shallow and deep columns does the deep cells' work
+    for all of them.  Cells sorted by their number of vapour nodes (stable: ties keep their
+    order) fill blocks with like columns; taken only where that saves node rows.  A cell's
+    numbers never depend on its block-mates (see the kernel), so the order changes no
+    result, only the time."""
+    nodes = np.asarray(nodes)
+    order = np.argsort(nodes, kind="stable")
+
+    def rows(v):                     # node rows solved, summed over blocks
+        nb = -(-v.size // cb)
+        v = np.concatenate([v, np.repeat(v[-1:], nb * cb - v.size)])
+        return int(v.reshape(nb, cb).max(axis=1).sum())
+
+    return order if rows(nodes[order]) < rows(nodes) else None
+
+
+@njit(cache=True, boundscheck=False, nogil=True)
+def _fill_steps(stepin, row, x, cell):
+    """``stepin[b, s, row, c] = x[s, cell[b, c]]``: a per-step input ``[step, cell]`` in the
+    kernel's blocks, cells in the kernel's order (``cell``: each slot's cell, padding
+    included)."""
+    nb, ns, _, cb = stepin.shape
+    for s in range(ns):              # (a step's row of x stays in cache)
+        for b in range(nb):
+            for c in range(cb):
+                stepin[b, s, row, c] = x[s, cell[b, c]]
+
+
+@njit(cache=True, boundscheck=False, nogil=True)
+def _to_cell_order(out, slot):
+    """Put ``out`` ``[row, step, slot]`` (the kernel's cell order) back in the chunk's order,
+    in place, a row of a step at a time (``slot[cell]``: the cell's slot)."""
+    nk, ns, nc = out.shape
+    tmp = np.empty(nc)
+    for k in range(nk):
+        for s in range(ns):
+            for c in range(nc):
+                tmp[c] = out[k, s, slot[c]]
+            for c in range(nc):
+                out[k, s, c] = tmp[c]
+
+
 def _blocked(model):
     cached = model._blocked
     if cached:
@@ -1124,19 +1170,27 @@ def _blocked(model):
     vapp[V_LOUIS] = unstable_constant(s.sensor_height_m, s.roughness_m, s.thermal_roughness_m)
     vapp[V_WIND] = s.wind_m_s
     vapp[V_NODES] = np.sum(np.isfinite(model.next_distance), axis=0) + 1
-    cb = _block_width(n)             # the energy model's constants, re-blocked
+    cb = _block_width(n)
+    order = _cell_order(vapp[V_NODES], cb)
+    cached["order"] = order
+    if order is not None:            # each slot's cell (padding: the last), each cell's slot
+        cached["cell"] = to_blocks(order.astype(float), cb).astype(np.int64)
+        cached["slot"] = np.argsort(order)
 
-    def reblock(x):
-        return to_blocks(from_blocks(x, n), cb)
+    def blocks(x):                   # a chunk's [..., cell] array in the kernel's cell order
+        return to_blocks(x if order is None else x[..., order], cb)
+
+    def reblock(x):                  # the energy model's constants, re-blocked
+        return blocks(from_blocks(x, n))
 
     cached["cellp"] = reblock(k["cellp"])
     cached["factors"] = tuple(reblock(x) for x in k["factors"])
     cached["probe_idx"] = reblock(k["probe_idx"]).astype(np.int64)
     cached["probe_w"] = reblock(k["probe_w"])
-    cached["vapp"] = to_blocks(vapp, cb)
-    cached["cv"] = to_blocks(model.control_volume, cb)
+    cached["vapp"] = blocks(vapp)
+    cached["cv"] = blocks(model.control_volume)
     with np.errstate(divide="ignore"):
-        cached["idzn"] = to_blocks(1.0 / model.next_distance, cb)     # 0 below a cell's last node
+        cached["idzn"] = blocks(1.0 / model.next_distance)     # 0 below a cell's last node
     cached["par"] = _par(model)
     cached["tables"] = _paired_tables(water_tables(s.langmuir_k_ref_pa, s.adsorption_heat_j_mol / R_GAS,
                                                    s.langmuir_t_ref_k))
@@ -1211,28 +1265,46 @@ def column_block(model, state, declination_rad, distance_au, hour_angle0_rad, ta
     ncp = -(-nc // cb) * cb
     stepin = np.empty((ncp // cb, ns, N_IN, cb))
     full = nc // cb                  # whole blocks; the last one is padded with the last cell
+    k = _blocked(model)
+    order = k["order"]               # the kernel's cell order (None: the chunk's own)
     for row, x in ((IN_TAU, tau), (IN_FROST_POINT, frost_point), (IN_EPS_ATM, emissivity_atm),
                    (IN_COLUMN, water_column), (IN_PRESSURE, pressure)):
         xs = np.broadcast_to(np.asarray(x, dtype=float), (ns, nc))
-        dst = stepin[:, :, row, :]
-        dst[:full] = xs[:, :full * cb].reshape(ns, full, cb).transpose(1, 0, 2)
-        if full * cb < nc:
-            dst[full, :, :nc - full * cb] = xs[:, full * cb:]
-            dst[full, :, nc - full * cb:] = xs[:, nc - 1:nc]
-    k = _blocked(model)
-    temp = to_blocks(state.temperature, cb)
-    co2 = to_blocks(state.co2_frost, cb)
-    atm = to_blocks(np.stack([state.atmosphere_temperature, state.air_temperature,
-                              state.air_vapour_density, state.air_layer_depth,
-                              state.sensible_heat_flux, state.air_temperature_mean,
-                              state.free_mixing_ratio]), cb)
-    water = to_blocks(state.regolith_water, cb)
+        if order is not None:        # (one pass: the order and the padding together)
+            _fill_steps(stepin, row, np.ascontiguousarray(xs), k["cell"])
+        else:
+            dst = stepin[:, :, row, :]
+            dst[:full] = xs[:, :full * cb].reshape(ns, full, cb).transpose(1, 0, 2)
+            if full * cb < nc:
+                dst[full, :, :nc - full * cb] = xs[:, full * cb:]
+                dst[full, :, nc - full * cb:] = xs[:, nc - 1:nc]
+
+    def blocks(x):
+        return to_blocks(x if order is None else x[..., order], cb)
+
+    def unblocks(xb):
+        x = from_blocks(xb, nc)
+        if order is None:
+            return x
+        y = np.empty_like(x)
+        y[..., order] = x
+        return y
+
+    temp = blocks(state.temperature)
+    co2 = blocks(state.co2_frost)
+    atm = blocks(np.stack([state.atmosphere_temperature, state.air_temperature,
+                           state.air_vapour_density, state.air_layer_depth,
+                           state.sensible_heat_flux, state.air_temperature_mean,
+                           state.free_mixing_ratio]))
+    water = blocks(state.regolith_water)
     out = np.zeros((len(OUTPUTS), ns, nc))
     column_kernel(temp, co2, atm, water, *k["factors"], k["cellp"], k["vapp"], k["cv"], k["idzn"],
                   k["par"], np.sin(dec), np.cos(dec), flux, np.sin(h0), np.cos(h0), stepin,
                   k["tables"], k["probe_idx"], k["probe_w"], int(step0), out)
-    a = from_blocks(atm, nc)
-    new = ColumnState(from_blocks(temp, nc), from_blocks(co2, nc), a[A_TATM], a[A_TAIR],
-                      a[A_RHO_AIR], a[A_DEPTH], a[A_HFLUX], from_blocks(water, nc), a[A_TMEAN],
+    if order is not None:            # the outputs back in the chunk's cell order
+        _to_cell_order(out, k["slot"])
+    a = unblocks(atm)
+    new = ColumnState(unblocks(temp), unblocks(co2), a[A_TATM], a[A_TAIR],
+                      a[A_RHO_AIR], a[A_DEPTH], a[A_HFLUX], unblocks(water), a[A_TMEAN],
                       a[A_QFREE])
     return new, {name: out[i] for i, name in enumerate(OUTPUTS)}
