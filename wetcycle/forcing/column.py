@@ -1125,6 +1125,11 @@ def _cell_order(nodes, cb):
     return order if rows(nodes[order]) < rows(nodes) else None
 
 
+def _kernel_blocks(x, order, cb):
+    """A chunk's ``[..., cell]`` array in the kernel's blocks, cells in the kernel's order."""
+    return to_blocks(x if order is None else x[..., order], cb)
+
+
 @njit(cache=True, boundscheck=False, nogil=True)
 def _fill_steps(stepin, row, x, cell):
     """``stepin[b, s, row, c] = x[s, cell[b, c]]``: a per-step input ``[step, cell]`` in the
@@ -1173,12 +1178,13 @@ def _blocked(model):
     cb = _block_width(n)
     order = _cell_order(vapp[V_NODES], cb)
     cached["order"] = order
-    if order is not None:            # each slot's cell (padding: the last), each cell's slot
-        cached["cell"] = to_blocks(order.astype(float), cb).astype(np.int64)
+    # each slot's cell (the padding repeats the last slot's), and with an order each cell's slot
+    cached["cell"] = to_blocks((np.arange(n) if order is None else order).astype(float), cb).astype(np.int64)
+    if order is not None:
         cached["slot"] = np.argsort(order)
 
-    def blocks(x):                   # a chunk's [..., cell] array in the kernel's cell order
-        return to_blocks(x if order is None else x[..., order], cb)
+    def blocks(x):
+        return _kernel_blocks(x, order, cb)
 
     def reblock(x):                  # the energy model's constants, re-blocked
         return blocks(from_blocks(x, n))
@@ -1264,23 +1270,16 @@ def column_block(model, state, declination_rad, distance_au, hour_angle0_rad, ta
     cb = _block_width(nc)
     ncp = -(-nc // cb) * cb
     stepin = np.empty((ncp // cb, ns, N_IN, cb))
-    full = nc // cb                  # whole blocks; the last one is padded with the last cell
     k = _blocked(model)
     order = k["order"]               # the kernel's cell order (None: the chunk's own)
     for row, x in ((IN_TAU, tau), (IN_FROST_POINT, frost_point), (IN_EPS_ATM, emissivity_atm),
                    (IN_COLUMN, water_column), (IN_PRESSURE, pressure)):
+        # one pass: the kernel's cell order and the padding together
         xs = np.broadcast_to(np.asarray(x, dtype=float), (ns, nc))
-        if order is not None:        # (one pass: the order and the padding together)
-            _fill_steps(stepin, row, np.ascontiguousarray(xs), k["cell"])
-        else:
-            dst = stepin[:, :, row, :]
-            dst[:full] = xs[:, :full * cb].reshape(ns, full, cb).transpose(1, 0, 2)
-            if full * cb < nc:
-                dst[full, :, :nc - full * cb] = xs[:, full * cb:]
-                dst[full, :, nc - full * cb:] = xs[:, nc - 1:nc]
+        _fill_steps(stepin, row, np.ascontiguousarray(xs), k["cell"])
 
     def blocks(x):
-        return to_blocks(x if order is None else x[..., order], cb)
+        return _kernel_blocks(x, order, cb)
 
     def unblocks(xb):
         x = from_blocks(xb, nc)
