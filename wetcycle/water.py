@@ -50,6 +50,10 @@ TRIPLE_POINT_P = 611.657
 MOLAR_MASS_WATER = 0.018015268
 
 
+#: Murphy & Koop (2005) eq. (7) over ice Ih: ln p [Pa] = A - B / T + C ln T - D T, as (A, B, C, D).
+MK05_ICE = (9.550426, 5723.265, 3.53068, 0.00728332)
+
+
 @njit(cache=True)
 def psat_ice_kernel(T):
     """Saturation vapour pressure over ice Ih [Pa]; NaN outside 110-273.16 K.
@@ -58,7 +62,8 @@ def psat_ice_kernel(T):
     """
     if not (T >= 110.0 and T <= 273.16):
         return math.nan
-    return math.exp(9.550426 - 5723.265 / T + 3.53068 * math.log(T) - 0.00728332 * T)
+    a, b, c, d = MK05_ICE
+    return math.exp(a - b / T + c * math.log(T) - d * T)
 
 
 @njit(cache=True)
@@ -132,7 +137,8 @@ def saturation_vapor_pressure_ice(T):
     611.65
     """
     arr = _check_range(T, *ICE_T_RANGE, "Murphy & Koop (2005) ice vapour pressure")
-    out = np.exp(9.550426 - 5723.265 / arr + 3.53068 * np.log(arr) - 0.00728332 * arr)
+    a, b, c, d = MK05_ICE
+    out = np.exp(a - b / arr + c * np.log(arr) - d * arr)
     return _as_output(out, T)
 
 

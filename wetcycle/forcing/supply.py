@@ -50,7 +50,7 @@ from numba import njit
 
 from ..errors import ConfigError, InputDataError
 from ..inputs import file_sha256
-from ..water import MOLAR_MASS_WATER, psat_ice_kernel
+from ..water import MK05_ICE, MOLAR_MASS_WATER
 
 __all__ = ["PRECIPITABLE_MICRON_KG_M2", "WaterColumnTable", "default_climatology",
            "read_column_table", "constant_mixing_ratio_table", "near_surface_mixing_ratio",
@@ -411,12 +411,14 @@ def free_mixing_ratio_kernel(w, p_s, t_s, lapse, g, r_air, eps, lq, pq, wk):
     ir = 1.0 / r
     lps = math.log(p_s)
     lts = math.log(t_s)
-    base = math.log(eps) + 9.550426
-    # ln q_sat at each level: Murphy & Koop (2005) eq. (7) for p_ice, over p_k = p_s exp(-k dlp)
+    mk_a, mk_b, mk_c, mk_d = MK05_ICE
+    base = math.log(eps) + mk_a
+    # ln q_sat at each level: Murphy & Koop (2005) eq. (7) for p_ice (water.MK05_ICE, as
+    # psat_ice_kernel), over p_k = p_s exp(-k dlp)
     tk = t_s
     itk = 1.0 / t_s
     for k in range(nz):
-        v = base - 5723.265 * itk + 3.53068 * (lts - d * k) - 0.00728332 * tk - (lps - dlp * k)
+        v = base - mk_b * itk + mk_c * (lts - d * k) - mk_d * tk - (lps - dlp * k)
         lq[k] = v if tk <= 273.16 else math.nan
         tk *= r
         itk *= ir
