@@ -134,7 +134,7 @@ def saturation_vapor_pressure_ice(T):
     Examples
     --------
     >>> round(saturation_vapor_pressure_ice(273.16), 2)
-    611.65
+    611.66
     """
     arr = _check_range(T, *ICE_T_RANGE, "Murphy & Koop (2005) ice vapour pressure")
     a, b, c, d = MK05_ICE
